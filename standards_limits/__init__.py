@@ -1,0 +1,1 @@
+"""Limit tables of the harmonic-emission standards, as data (see the files here)."""
