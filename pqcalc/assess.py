@@ -1,0 +1,773 @@
+"""Assess an installation: solve each distinct case once, sum with phase alignment, check.
+
+Cost grows with distinct cases, not lamps: a circuit's current is found by solving its
+fixture mix behind its dimmer at its setting and panel voltage once (cached); identical
+circuits reuse it. Behind one leading-edge (triac) dimmer the lamps are solved together,
+since latching and holding depend on the summed current; on a stiff supply with no dimmer or
+a trailing-edge dimmer every lamp sees the same voltage whatever the others do, so each
+fixture type is solved once and multiplied by its count.
+
+Supply interaction: the line and neutral currents drop harmonic voltages across the feeder
+and source impedance; the circuits are solved again under the distorted panel voltage until
+the line currents change by less than the tolerance. Both the ideal-supply and the
+interacting results are kept.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+
+import numpy as np
+
+from . import checks as ck
+from .aggregate import GRID_SAMPLES, LINE_ANGLES_DEG, common_period, summation_law, sum_lines, \
+    to_grid, triplen_share
+from .errors import ConvergenceError, InputError
+from .installation import Circuit, Installation, Panel
+from .metrics import harmonic_loss_factor, k_factor, thd
+from .spectrum import rotate_phasors
+from .supply import SourceImpedance, voltage_drop
+
+__all__ = ["CaseResult", "CaseSolver", "CircuitResult", "LineResult", "PanelResult",
+           "ScenarioResult", "Assessment", "assess", "grid_phasors"]
+
+MAX_ORDER = 50
+
+
+def grid_phasors(x: np.ndarray, cycles: int, max_order: int = MAX_ORDER) -> np.ndarray:
+    """RMS phasors (sine basis) of orders 0..max_order at the array's own time origin [A]."""
+    n = x.shape[-1]
+    X = np.fft.rfft(x, axis=-1) / n
+    c = X[..., np.arange(max_order + 1) * cycles] * 2
+    p = np.abs(c) / np.sqrt(2) * np.exp(1j * (np.angle(c) + np.pi / 2))
+    p[..., 0] = X[..., 0].real
+    return p
+
+
+def _advance(x: np.ndarray, angle_rad: float, cycles: int) -> np.ndarray:
+    """Advance a periodic record by ``angle_rad`` of the fundamental (orders turn by +h*angle)."""
+    if angle_rad == 0:
+        return x
+    X = np.fft.rfft(x)
+    k = np.arange(X.size)
+    X = X * np.exp(1j * k * angle_rad / cycles)
+    if x.size % 2 == 0:
+        X[-1] = X[-1].real
+    return np.fft.irfft(X, x.size)
+
+
+# ------------------------------------------------------------------------ case solving
+@dataclass(frozen=True)
+class GroupStress:
+    """Per fixture type in a circuit: one lamp's figures at this circuit's conditions."""
+
+    fixture: str
+    count: int
+    i_rms_one_a: float
+    inrush_peak_one_a: float
+    p_one_w: float
+    light_rel: float | None
+
+
+@dataclass(frozen=True)
+class CaseResult:
+    """A circuit's solved current on the aggregation grid, on its own line's voltage."""
+
+    current_a: np.ndarray
+    cycles: int
+    p_w: float
+    flags: tuple[str, ...]
+    groups: tuple[GroupStress, ...]
+    notes: tuple[str, ...] = ()
+
+
+def _sum_cases(parts: list[CaseResult], flags_extra=(), notes=()) -> CaseResult:
+    cyc = common_period(p.cycles for p in parts)
+    cur = sum(np.tile(p.current_a, cyc // p.cycles) for p in parts)
+    flags = tuple(dict.fromkeys(f for p in parts for f in p.flags + tuple(flags_extra)))
+    return CaseResult(cur, cyc, sum(p.p_w for p in parts), flags,
+                      tuple(g for p in parts for g in p.groups),
+                      tuple(dict.fromkeys(n for p in parts for n in p.notes + tuple(notes))))
+
+
+class CaseSolver:
+    """Solves and caches circuit cases of one installation."""
+
+    def __init__(self, inst: Installation):
+        self.inst = inst
+        self.cache: dict = {}
+        self.captures: dict = {}
+        self.solves = 0
+
+    # measured fixtures: the capture is used as recorded, aligned to its voltage
+    def _capture_case(self, fid: str, count: int) -> CaseResult:
+        if fid not in self.captures:
+            from .io.capture import load_capture, record_to_waveform
+
+            ft = self.inst.fixtures[fid]
+            try:
+                w = record_to_waveform(load_capture(ft.capture, ft.capture_options))
+            except InputError as e:
+                raise InputError(f"fixtures.{fid}.capture: {e}") from None
+            notes = []
+            if w.has_voltage:
+                # move the time origin to the voltage's positive-going zero crossing
+                raw = grid_phasors(w.voltage_v, w.cycles, 1)[1]
+                psi = float(np.angle(raw))
+                w = w.shifted(psi)
+                v = w.v_rms_v
+                if abs(v - self.inst.supply.voltage_ln_v) > 0.05 * self.inst.supply.voltage_ln_v:
+                    notes.append(f"fixture {fid}: captured at {v:.0f} V, used unscaled")
+                p1 = w.p_w
+            else:
+                notes.append(f"fixture {fid}: capture has no voltage; phase taken from the "
+                             "current fundamental as if in phase with the voltage")
+                raw = grid_phasors(w.current_a, w.cycles, 1)[1]
+                w = w.shifted(float(np.angle(raw)))
+                p1 = ft.power_w
+            # keep one cycle (the average cycle) of the record
+            spc = GRID_SAMPLES
+            x = to_grid(w, w.cycles, spc).reshape(w.cycles, spc).mean(axis=0)
+            self.captures[fid] = (x, p1, float(w.current_a.max()), tuple(notes))
+        x, p1, peak, notes = self.captures[fid]
+        g = GroupStress(fid, count, float(np.sqrt(np.mean(x**2))), peak, p1, None)
+        return CaseResult(x * count, 1, p1 * count, (), (g,),
+                          notes + (f"fixture {fid}: measured record used at its recorded "
+                                   "conditions (dimmer setting not applied)",))
+
+    def case(self, c: Circuit, scenario: int, voltage=None) -> CaseResult:
+        """The circuit's current at a scenario; ``voltage`` = (v1_rms, harmonics, delta)
+        of its panel line in the line's own frame, or None for the ideal supply."""
+        cond, knob = c.setting(scenario)
+        measured = [g for g in c.groups if self.inst.fixtures[g.fixture].measured]
+        modelled = [g for g in c.groups if not self.inst.fixtures[g.fixture].measured]
+        parts = [self._capture_case(g.fixture, g.count) for g in measured]
+        if modelled:
+            together = c.dimmer == "leading-edge" or c.branch_r_ohm > 0 or c.branch_l_h > 0
+            if together:
+                parts.append(self._model_case(c, cond, knob, tuple(
+                    (g.fixture, g.count) for g in modelled), voltage))
+            else:
+                for g in modelled:
+                    one = self._model_case(c, cond, knob, ((g.fixture, 1),), voltage)
+                    parts.append(CaseResult(one.current_a * g.count, one.cycles, one.p_w * g.count,
+                                            one.flags, (GroupStress(g.fixture, g.count,
+                                                                    *_group_tail(one)),),
+                                            one.notes))
+        return _sum_cases(parts)
+
+    def _model_case(self, c: Circuit, cond, knob, groups, voltage) -> CaseResult:
+        sup = self.inst.supply
+        v1, harm, delta = (sup.voltage_ln_v, (), 0.0) if voltage is None else voltage
+        key = (c.dimmer, cond, knob, c.dimmer_params, c.branch_r_ohm, c.branch_l_h, groups,
+               round(v1, 3), harm)
+        hit = self.cache.get(key)
+        if hit is None:
+            hit = self._solve(c, cond, knob, groups, v1, harm)
+            self.cache[key] = hit
+        if delta:
+            return CaseResult(_advance(hit.current_a, delta, hit.cycles), hit.cycles, hit.p_w,
+                              hit.flags, hit.groups, hit.notes)
+        return hit
+
+    def _solve(self, c: Circuit, cond, knob, groups, v1, harm) -> CaseResult:
+        from .circuits import DimmerSpec, LoadGroup, Supply, solve_circuit
+
+        inst = self.inst
+        self.solves += 1
+        supply = Supply(v_rms_v=v1, frequency_hz=inst.supply.frequency_hz,
+                        source_r_ohm=c.branch_r_ohm, source_l_h=c.branch_l_h,
+                        voltage_harmonics=list(harm) if harm else None)
+        dimmer = _dimmer_spec(c, cond, knob)
+        loads = [LoadGroup(model=inst.fixtures[f].model, power_w=inst.fixtures[f].power_w,
+                           count=n, params=dict(inst.fixtures[f].params)) for f, n in groups]
+        sol = solve_circuit(supply, dimmer, loads)
+        w = sol.waveform
+        x = to_grid(w, w.cycles)
+        gs = []
+        for (f, n), g in zip(groups, sol.groups):
+            gs.append(GroupStress(f, n, *_stress(g, w)))
+        p = float(w.p_w) if w.p_w is not None else float("nan")
+        if not np.isfinite(p):
+            raise InputError(f"circuit {c.id}: the solver returned no power")
+        return CaseResult(x, w.cycles, p, tuple(sol.flags), tuple(gs))
+
+
+def _dimmer_spec(c: Circuit, cond, knob):
+    """The circuit model's dimmer for a circuit and setting."""
+    from .circuits import DimmerSpec
+
+    kw = {"kind": c.dimmer}
+    if c.dimmer != "none":
+        if knob is not None:
+            kw["knob"] = knob
+        else:
+            kw["conduction_deg"] = cond
+    if c.dimmer_params:
+        kw["params"] = dict(c.dimmer_params)
+    return DimmerSpec(**kw)
+
+
+def _stress(g, w) -> tuple[float, float, float, float | None]:
+    """(i_rms of one lamp, inrush peak of one lamp, power of one lamp, mean light) from a
+    solved group."""
+    one = g.current if hasattr(g, "current") else g.waveform
+    st = dict(getattr(g, "stresses", {}) or {})
+    inrush = st.get("inrush_peak_a", st.get("peak_current_a", float(np.max(np.abs(one.current_a)))))
+    p_one = float(np.mean(one.current_a * w.voltage_v[: one.n_samples])) if (
+        w.voltage_v is not None and one.n_samples == w.n_samples) else float("nan")
+    light = getattr(g, "light_rel", None)
+    light_mean = None if light is None else float(np.mean(light))
+    return one.i_rms_a, float(inrush), p_one, light_mean
+
+
+def _group_tail(one: CaseResult) -> tuple:
+    g = one.groups[0]
+    return g.i_rms_one_a, g.inrush_peak_one_a, g.p_one_w, g.light_rel
+
+
+# ---------------------------------------------------------------------------- results
+@dataclass(frozen=True)
+class CircuitResult:
+    id: str
+    panel: str
+    phase: str
+    setting_deg: float | None
+    knob: float | None
+    i_rms_a: float
+    i1_a: float
+    i_peak_a: float
+    thd_i: float
+    p_w: float
+    pf: float | None
+    dpf: float | None
+    inrush_peak_a: float
+    flags: tuple[str, ...]
+    checks: tuple[ck.Check, ...]
+    max_fixtures: dict
+    notes: tuple[str, ...] = ()
+
+    def to_dict(self) -> dict:
+        return {
+            "id": self.id, "panel": self.panel, "phase": self.phase,
+            "setting_deg": self.setting_deg, "knob": self.knob,
+            "i_rms_a": self.i_rms_a, "i1_rms_a": self.i1_a, "i_peak_a": self.i_peak_a,
+            "thd_i_pct": 100 * self.thd_i, "p_w": self.p_w, "pf": self.pf, "dpf": self.dpf,
+            "inrush_peak_a": self.inrush_peak_a, "flags": list(self.flags),
+            "checks": [c.to_dict() for c in self.checks],
+            "max_fixtures_per_breaker": self.max_fixtures, "notes": list(self.notes),
+        }
+
+
+@dataclass(frozen=True)
+class LineResult:
+    i_rms_a: float
+    i1_a: float
+    i_peak_a: float
+    thd_i: float
+    i3_pct_of_rms: float
+    p_w: float
+    pf: float | None
+    dpf: float | None
+    thd_v: float
+    v_rms_v: float
+    magnitudes_a: np.ndarray
+
+    def to_dict(self) -> dict:
+        return {"i_rms_a": self.i_rms_a, "i1_rms_a": self.i1_a, "i_peak_a": self.i_peak_a,
+                "thd_i_pct": 100 * self.thd_i, "i3_pct_of_rms": self.i3_pct_of_rms,
+                "p_w": self.p_w, "pf": self.pf, "dpf": self.dpf, "v_rms_v": self.v_rms_v,
+                "thd_v_pct": 100 * self.thd_v}
+
+
+@dataclass(frozen=True)
+class NeutralResult:
+    i_rms_a: float
+    i_peak_a: float
+    ratio_to_max_phase: float
+    triplen_share: float
+    magnitudes_a: np.ndarray
+
+    def to_dict(self) -> dict:
+        return {"i_rms_a": self.i_rms_a, "i_peak_a": self.i_peak_a,
+                "ratio_to_max_phase": self.ratio_to_max_phase,
+                "triplen_share_pct": 100 * self.triplen_share,
+                "spectrum_a": [float(x) for x in self.magnitudes_a[:41]]}
+
+
+@dataclass(frozen=True)
+class PanelResult:
+    id: str
+    kind: str  # "panel", "feeder" or "transformer"
+    lines: dict[str, LineResult]
+    neutral: NeutralResult | None
+    checks: tuple[ck.Check, ...] = ()
+    k_factor: float = 1.0
+    harmonic_loss_factor: float = 1.0
+
+    def to_dict(self) -> dict:
+        return {"id": self.id, "kind": self.kind,
+                "phases": {k: v.to_dict() for k, v in self.lines.items()},
+                "neutral": None if self.neutral is None else self.neutral.to_dict(),
+                "k_factor": self.k_factor, "harmonic_loss_factor": self.harmonic_loss_factor,
+                "checks": [c.to_dict() for c in self.checks]}
+
+
+@dataclass(frozen=True)
+class ScenarioResult:
+    name: str
+    circuits: tuple[CircuitResult, ...]
+    panels: tuple[PanelResult, ...]
+    feeders: tuple[PanelResult, ...]
+    transformer: PanelResult
+    interaction_iterations: int
+    ideal: ScenarioResult | None = None
+    checks: tuple[ck.Check, ...] = ()
+
+    def all_checks(self):
+        for c in self.circuits:
+            yield from c.checks
+        for p in self.panels + self.feeders + (self.transformer,):
+            yield from p.checks
+        yield from self.checks
+
+    def to_dict(self) -> dict:
+        d = {"name": self.name, "circuits": [c.to_dict() for c in self.circuits],
+             "panels": [p.to_dict() for p in self.panels],
+             "feeders": [p.to_dict() for p in self.feeders],
+             "transformer": self.transformer.to_dict(),
+             "supply_interaction_iterations": self.interaction_iterations,
+             "checks": [c.to_dict() for c in self.checks]}
+        if self.ideal is not None:
+            d["ideal_supply"] = {"panels": [p.to_dict() for p in self.ideal.panels],
+                                 "transformer": self.ideal.transformer.to_dict()}
+        return d
+
+
+@dataclass(frozen=True)
+class Assessment:
+    installation: Installation
+    scenarios: tuple[ScenarioResult, ...]
+    design_index: int
+    diversity: dict | None = None
+    solves: int = 0
+    caution: str = ck.CAUTION
+
+    @property
+    def design(self) -> ScenarioResult:
+        return self.scenarios[self.design_index]
+
+    @property
+    def failed(self) -> bool:
+        return any(c.status == "fail" for s in self.scenarios for c in s.all_checks())
+
+    def to_dict(self) -> dict:
+        inst = self.installation
+        d = self.design.to_dict()
+        return {
+            "project": vars(inst.project) if hasattr(inst.project, "__dict__") else {},
+            "installation": inst.path,
+            "supply": {"system": inst.supply.system, "voltage_ln_v": inst.supply.voltage_ln_v,
+                       "frequency_hz": inst.supply.frequency_hz,
+                       "source_r_ohm": inst.supply.impedance.r_ohm,
+                       "source_l_h": inst.supply.impedance.l_h,
+                       "short_circuit_a": inst.supply.short_circuit_a},
+            "lamps": inst.n_lamps, "distinct_solves": self.solves,
+            "design_scenario": self.design.name,
+            "circuits": d["circuits"], "panels": d["panels"], "feeders": d["feeders"],
+            "transformer": d["transformer"],
+            "scenarios": [s.to_dict() for s in self.scenarios],
+            "diversity": self.diversity,
+            "verdict": "fail" if self.failed else "pass",
+            "caution": self.caution,
+        }
+
+
+# ------------------------------------------------------------------------- evaluation
+def _line_result(x: np.ndarray, cycles: int, v_phasors: np.ndarray, p_w: float,
+                 own_angle_rad: float) -> LineResult:
+    ph = grid_phasors(x, cycles)
+    m = np.abs(ph)
+    i_rms = float(np.sqrt(np.mean(x**2)))
+    i1 = float(m[1])
+    v1 = v_phasors[1]
+    v_rms = float(np.sqrt(np.sum(np.abs(v_phasors[1:]) ** 2)))
+    dpf = float(np.cos(np.angle(v1) - np.angle(ph[1]))) if i1 > 0 else None
+    pf = p_w / (v_rms * i_rms) if i_rms > 0 else None
+    return LineResult(
+        i_rms, i1, float(np.max(np.abs(x))), float(thd(m, 40)) if i1 > 0 else 0.0,
+        100 * float(m[3] / i_rms) if i_rms > 0 else 0.0, p_w, pf, dpf,
+        float(thd(np.abs(v_phasors), 40)), v_rms, m)
+
+
+def _neutral(x: np.ndarray, cycles: int, max_phase: float) -> NeutralResult:
+    m = np.abs(grid_phasors(x, cycles))
+    rms = float(np.sqrt(np.mean(x**2)))
+    return NeutralResult(rms, float(np.max(np.abs(x))), rms / max_phase if max_phase > 0 else 0.0,
+                         triplen_share(m), m)
+
+
+def _ideal_v(inst: Installation, line: str) -> np.ndarray:
+    v = np.zeros(MAX_ORDER + 1, dtype=complex)
+    v[1] = inst.supply.voltage_ln_v * np.exp(1j * np.radians(LINE_ANGLES_DEG[inst.supply.system][line]))
+    return v
+
+
+class _Node:
+    """Summed line arrays (L1 frame) of a panel, feeder or the transformer."""
+
+    def __init__(self, lines):
+        self.x = {ln: None for ln in lines}
+        self.p = {ln: 0.0 for ln in lines}
+
+    def add(self, line, x, p):
+        self.x[line] = x.copy() if self.x[line] is None else self.x[line] + x
+        self.p[line] += p
+
+    def add_node(self, other):
+        for ln in self.x:
+            if other.x[ln] is not None:
+                self.add(ln, other.x[ln], other.p[ln])
+
+
+def _run(inst: Installation, solver: CaseSolver, scenario: int, voltages, progress=None):
+    """One pass: circuit cases -> panel/feeder/transformer sums (L1 frame)."""
+    sup = inst.supply
+    angles = LINE_ANGLES_DEG[sup.system]
+    cases = {}
+    for p in inst.panels:
+        for c in p.circuits:
+            cases[c.id] = solver.case(c, scenario, None if voltages is None else
+                                      voltages[(p.id, c.phase)])
+            if progress is not None:
+                progress(1)
+    cyc = common_period(cs.cycles for cs in cases.values())
+    spc = GRID_SAMPLES
+    panels = {}
+    for p in inst.panels:
+        node = _Node(angles)
+        for c in p.circuits:
+            cs = cases[c.id]
+            x = np.tile(cs.current_a, cyc // cs.cycles)
+            shift = int(round(angles[c.phase] / 360.0 * spc))
+            node.add(c.phase, np.roll(x, -shift) if shift else x, cs.p_w)
+        for ln in angles:
+            if node.x[ln] is None:
+                node.x[ln] = np.zeros(spc * cyc)
+        panels[p.id] = node
+    feeders = {f: _Node(angles) for f in inst.feeders}
+    total = _Node(angles)
+    for p in inst.panels:
+        if p.feeder is not None:
+            feeders[p.feeder].add_node(panels[p.id])
+        total.add_node(panels[p.id])
+    return cases, panels, feeders, total, cyc
+
+
+def _panel_voltages(inst: Installation, panels, feeders, total, cyc):
+    """Harmonic voltage at each panel line (L1 frame), from the drops over the source and
+    the feeder impedances."""
+    sup = inst.supply
+    f = sup.frequency_hz
+
+    def ph(node):
+        xs = {ln: grid_phasors(x, cyc) for ln, x in node.x.items()}
+        n = sum(xs.values()) if sup.system != "single-phase" else None
+        return xs, n
+
+    tot_l, tot_n = ph(total)
+    fdr = {k: ph(v) for k, v in feeders.items()}
+    out = {}
+    for p in inst.panels:
+        for ln in tot_l:
+            v = _ideal_v(inst, ln) - voltage_drop(sup.impedance, tot_l[ln], tot_n, f)
+            if p.feeder is not None:
+                fl, fn = fdr[p.feeder]
+                v = v - voltage_drop(inst.feeders[p.feeder].impedance, fl[ln], fn, f)
+            out[(p.id, ln)] = v
+    return out
+
+
+def _own_frame(inst: Installation, vmap):
+    """Panel voltages in each line's own frame as (v1_rms, harmonics, delta) for solving."""
+    angles = LINE_ANGLES_DEG[inst.supply.system]
+    out = {}
+    for (pid, ln), v in vmap.items():
+        own = rotate_phasors(v, -np.radians(angles[ln]))
+        v1 = abs(own[1])
+        delta = float(np.angle(own[1]))
+        harm = []
+        for h in range(2, MAX_ORDER + 1):
+            r = abs(own[h]) / v1
+            if r > 1e-4:
+                harm.append((h, round(float(r), 5),
+                             round(float(np.degrees(np.angle(own[h]) - h * delta)), 1)))
+        out[(pid, ln)] = (float(v1), tuple(harm), delta)
+    return out
+
+
+def _circuit_result(inst, c: Circuit, cs: CaseResult, scenario: int, v_own) -> CircuitResult:
+    v1 = inst.supply.voltage_ln_v if v_own is None else v_own[0]
+    ph = grid_phasors(cs.current_a, cs.cycles)
+    m = np.abs(ph)
+    i_rms = float(np.sqrt(np.mean(cs.current_a**2)))
+    i1 = float(m[1])
+    delta = 0.0 if v_own is None else v_own[2]
+    dpf = float(np.cos(delta - np.angle(ph[1]))) if i1 > 0 else None
+    v_rms = v1 if v_own is None else v1 * np.sqrt(1 + sum(r * r for _, r, _ in v_own[1]))
+    pf = cs.p_w / (v_rms * i_rms) if i_rms > 0 else None
+    cond, knob = c.setting(scenario)
+    inrush = sum(g.count * g.inrush_peak_one_a for g in cs.groups)
+    checks = [ck.breaker_inrush(inrush, c.breaker_a, c.breaker_curve)]
+    load = i_rms / c.breaker_a
+    src = "continuous load at most 80 % of the breaker rating (common practice; NEC 210.20(A))"
+    if load > 1:
+        checks.append(ck.Check("breaker load", "fail", f"{i_rms:.2f} A exceeds the "
+                               f"{c.breaker_a:g} A rating", src, i_rms, c.breaker_a, "A"))
+    elif load > 0.8:
+        checks.append(ck.Check("breaker load", "warn", f"{i_rms:.2f} A is over 80 % of the "
+                               f"{c.breaker_a:g} A rating", src, i_rms, 0.8 * c.breaker_a, "A"))
+    else:
+        checks.append(ck.Check("breaker load", "pass", f"{i_rms:.2f} A within 80 % of "
+                               f"{c.breaker_a:g} A", src, i_rms, 0.8 * c.breaker_a, "A"))
+    if c.conductor_ampacity_a is not None:
+        st = "pass" if i_rms <= c.conductor_ampacity_a else "fail"
+        checks.append(ck.Check("conductor", st, f"{i_rms:.2f} A against {c.conductor_ampacity_a:g} A "
+                               "ampacity", "conductor ampacity as given", i_rms,
+                               c.conductor_ampacity_a, "A"))
+    led_w = sum(g.count * inst.fixtures[g.fixture].power_w for g in cs.groups
+                if inst.fixtures[g.fixture].nonlinear)
+    if c.dimmer != "none" and c.dimmer_rating_w is not None:
+        checks.append(ck.dimmer_load(led_w, c.dimmer_rating_w, c.led_derating,
+                                     c.dimmer_min_load_w, cs.p_w))
+    bad = {"no-latch": "fail", "misfire": "fail", "subharmonic": "fail", "re-fire": "warn",
+           "drop-out": "warn", "glow-when-off": "warn"}
+    for fl in cs.flags:
+        st = bad.get(fl, "warn")
+        checks.append(ck.Check("dimmer compatibility", st,
+                               f"the circuit model reports '{fl}' at this setting",
+                               "periodic steady-state circuit model of dimmer and drivers", None,
+                               None, ""))
+    mx = {g.fixture: ck.breaker_max_fixtures(g.inrush_peak_one_a, g.i_rms_one_a, c.breaker_a,
+                                             c.breaker_curve) for g in cs.groups}
+    return CircuitResult(c.id, c.panel, c.phase, cond if c.dimmer != "none" else None, knob,
+                         i_rms, i1, float(np.max(np.abs(cs.current_a))),
+                         float(thd(m, 40)) if i1 > 0 else 0.0, cs.p_w, pf, dpf, inrush,
+                         cs.flags, tuple(checks), mx, cs.notes)
+
+
+def _node_result(inst, name, kind, node: _Node, cyc, vmap_lines, panel: Panel | None = None):
+    sup = inst.supply
+    angles = LINE_ANGLES_DEG[sup.system]
+    lines = {}
+    for ln in angles:
+        v = vmap_lines[ln] if vmap_lines is not None else _ideal_v(inst, ln)
+        lines[ln] = _line_result(node.x[ln], cyc, v, node.p[ln], np.radians(angles[ln]))
+    max_phase = max(r.i_rms_a for r in lines.values())
+    neutral = None
+    if sup.system != "single-phase":
+        neutral = _neutral(sum(node.x.values()), cyc, max_phase)
+    worst = max(lines, key=lambda k: lines[k].i_rms_a)
+    mw = lines[worst].magnitudes_a
+    kf = float(k_factor(mw)) if mw[1] > 0 else 1.0
+    fhl = float(harmonic_loss_factor(mw)) if mw[1] > 0 else 1.0
+    checks = []
+    if kind == "panel" and neutral is not None and max_phase > 0:
+        if sup.system == "three-phase-wye":
+            checks.append(ck.neutral_conductor(lines[worst].i3_pct_of_rms, max_phase,
+                                               neutral.i_rms_a,
+                                               panel.neutral_ampacity_a if panel else None))
+        if neutral.ratio_to_max_phase > 1:
+            checks.append(ck.Check("neutral current", "warn",
+                                   f"the neutral carries {neutral.ratio_to_max_phase:.2f} times "
+                                   "the highest phase current (triplen harmonics add)",
+                                   "phasor sum of the line currents", neutral.ratio_to_max_phase,
+                                   1.0, "-"))
+        if panel is not None and panel.phase_ampacity_a is not None:
+            st = "pass" if max_phase <= panel.phase_ampacity_a else "fail"
+            checks.append(ck.Check("phase conductors", st, f"highest phase {max_phase:.1f} A "
+                                   f"against {panel.phase_ampacity_a:g} A", "ampacity as given",
+                                   max_phase, panel.phase_ampacity_a, "A"))
+    if kind == "transformer" and max_phase > 0 and mw[1] > 0:
+        checks.append(ck.transformer_derating(fhl, kf, max_phase, sup.rated_current_a,
+                                              sup.eddy_loss_pu))
+    return PanelResult(name, kind, lines, neutral, tuple(checks), kf, fhl)
+
+
+def _nonlinear_share(inst: Installation) -> float:
+    tot = nl = 0.0
+    for c in inst.circuits:
+        for g in c.groups:
+            w = g.count * inst.fixtures[g.fixture].power_w
+            tot += w
+            nl += w if inst.fixtures[g.fixture].nonlinear else 0.0
+    return nl / tot if tot > 0 else 0.0
+
+
+def _scenario(inst, solver, k, progress=None) -> ScenarioResult:
+    opts = inst.analysis
+    z = inst.supply.impedance
+    has_z = (z.r_ohm + z.l_h + z.neutral_r_ohm + z.neutral_l_h) > 0 or any(
+        (f.r_ohm + f.l_h) > 0 for f in inst.feeders.values())
+    cases, panels, feeders, total, cyc = _run(inst, solver, k, None, progress)
+    ideal = _assemble(inst, k, cases, panels, feeders, total, cyc, None, 0)
+    if not (opts.supply_interaction and has_z):
+        return ideal
+    prev = {ln: np.sqrt(np.mean(x**2)) for ln, x in total.x.items()}
+    for it in range(1, opts.max_iterations + 1):
+        vmap = _panel_voltages(inst, panels, feeders, total, cyc)
+        own = _own_frame(inst, vmap)
+        cases, panels, feeders, total, cyc = _run(inst, solver, k, own)
+        now = {ln: np.sqrt(np.mean(x**2)) for ln, x in total.x.items()}
+        change = max(abs(now[ln] - prev[ln]) / max(prev[ln], 1e-12) for ln in now)
+        prev = now
+        if change < opts.tolerance:
+            vmap = _panel_voltages(inst, panels, feeders, total, cyc)
+            res = _assemble(inst, k, cases, panels, feeders, total, cyc, vmap, it,
+                            _own_frame(inst, vmap))
+            return ScenarioResult(res.name, res.circuits, res.panels, res.feeders,
+                                  res.transformer, it, ideal, res.checks)
+    raise ConvergenceError(
+        f"supply interaction did not converge in {opts.max_iterations} iterations (last change "
+        f"{100 * change:.2f} % of the line current); tried re-solving every circuit under the "
+        "distorted panel voltage; raise analysis.max_iterations or check the source impedance")
+
+
+def _assemble(inst, k, cases, panels, feeders, total, cyc, vmap, iterations, own=None):
+    circuits = []
+    for p in inst.panels:
+        for c in p.circuits:
+            circuits.append(_circuit_result(inst, c, cases[c.id], k,
+                                            None if own is None else own[(p.id, c.phase)]))
+    lines = tuple(LINE_ANGLES_DEG[inst.supply.system])
+
+    def vm(pid):
+        return None if vmap is None else {ln: vmap[(pid, ln)] for ln in lines}
+
+    pres = tuple(_node_result(inst, p.id, "panel", panels[p.id], cyc, vm(p.id), p)
+                 for p in inst.panels)
+    fres = tuple(_node_result(inst, f, "feeder", feeders[f], cyc, None) for f in inst.feeders)
+    tres = _node_result(inst, "service", "transformer", total, cyc, None)
+    extra = []
+    note = ck.nec_neutral_note(_nonlinear_share(inst), inst.supply.system)
+    if note is not None:
+        extra.append(note)
+    extra.extend(_pcc_checks(inst, tres))
+    return ScenarioResult(inst.scenario_name(k), tuple(circuits), pres, fres, tres, iterations,
+                          None, tuple(extra))
+
+
+def _pcc_checks(inst: Installation, tres: PanelResult) -> list[ck.Check]:
+    """IEEE 519 at the point of common coupling (the service), when the evaluator exists."""
+    try:
+        from .standards import evaluate_pcc  # noqa: F401
+    except ImportError:
+        return []
+    return _pcc_eval(inst, tres)
+
+
+def _pcc_eval(inst, tres):  # filled in when the compliance evaluators have landed
+    return []
+
+
+def assess(inst: Installation, progress=None) -> Assessment:
+    """Solve, sum and check every scenario of an installation.
+
+    ``progress`` is called with the number of circuits done (for a progress bar).
+    """
+    solver = CaseSolver(inst)
+    scen = tuple(_scenario(inst, solver, k, progress) for k in range(inst.n_scenarios))
+    design = int(np.argmax([max((p.neutral.i_rms_a if p.neutral else 0.0) +
+                                max(r.i_rms_a for r in p.lines.values()) for p in s.panels)
+                            for s in scen]))
+    div = None
+    if inst.diversity.mode == "summation":
+        div = _summation(inst, solver, scen)
+    elif inst.diversity.mode == "monte-carlo":
+        div = _monte_carlo(inst, solver)
+    return Assessment(inst, scen, design, div, solver.solves)
+
+
+# ---------------------------------------------------------------------------- diversity
+def _summation(inst: Installation, solver: CaseSolver, scen) -> dict:
+    """IEC TR 61000-3-6 summation law over circuits at their worst listed setting."""
+    angles = LINE_ANGLES_DEG[inst.supply.system]
+    out = {"method": "IEC TR 61000-3-6 summation law, exponents 1 (h<5), 1.4 (5..10), 2 (h>10)"
+                     " (from memory); each circuit at the largest magnitude per order over its "
+                     "scenarios; the neutral fundamental from the phasor sum of the lines",
+           "panels": []}
+    for p in inst.panels:
+        per_line = {ln: [] for ln in angles}
+        fund = {ln: 0j for ln in angles}
+        for c in p.circuits:
+            mags = []
+            for k in range(inst.n_scenarios):
+                cs = solver.case(c, k)
+                ph = grid_phasors(cs.current_a, cs.cycles)
+                mags.append(np.abs(ph))
+            m = np.max(mags, axis=0)
+            per_line[c.phase].append(m)
+            fund[c.phase] += m[1] * np.exp(1j * np.radians(angles[c.phase]))
+        res = {}
+        for ln, ms in per_line.items():
+            s = summation_law(np.array(ms)) if ms else np.zeros(MAX_ORDER + 1)
+            res[ln] = {"i_rms_a": float(np.sqrt(np.sum(s**2))), "i3_a": float(s[3])}
+        allm = [m for ms in per_line.values() for m in ms]
+        entry = {"id": p.id, "phases": res}
+        if inst.supply.system != "single-phase" and allm:
+            sn = summation_law(np.array(allm))
+            sn[1] = abs(sum(fund.values()))
+            h = np.arange(sn.size)
+            if inst.supply.system == "split-phase":
+                sn[(h % 2 == 1) & (h > 1)] = summation_law(np.array(allm))[(h % 2 == 1) & (h > 1)]
+            entry["neutral"] = {"i_rms_a": float(np.sqrt(np.sum(sn**2))),
+                                "triplen_share_pct": 100 * triplen_share(sn)}
+        out["panels"].append(entry)
+    return out
+
+
+def _monte_carlo(inst: Installation, solver: CaseSolver) -> dict:
+    """Settings drawn uniformly in [low, high] per dimmed circuit, quantised to step_deg."""
+    d = inst.diversity
+    rng = np.random.default_rng(d.seed)
+    grid = np.arange(d.low_deg, d.high_deg + 1e-9, d.step_deg)
+    angles = LINE_ANGLES_DEG[inst.supply.system]
+    spc = GRID_SAMPLES
+    from dataclasses import replace
+
+    per_panel = {p.id: {"lines": {ln: [] for ln in angles}, "neutral": []} for p in inst.panels}
+    # each circuit's current at each grid setting, solved once
+    table = {}
+    for p in inst.panels:
+        for c in p.circuits:
+            if c.dimmer == "none":
+                table[c.id] = [solver.case(c, 0)]
+            else:
+                table[c.id] = [solver.case(replace(c, conduction_deg=(float(a),), knob=None), 0)
+                               for a in grid]
+    cyc = common_period(cs.cycles for v in table.values() for cs in v)
+    for _ in range(d.draws):
+        for p in inst.panels:
+            acc = {ln: np.zeros(spc * cyc) for ln in angles}
+            for c in p.circuits:
+                opts = table[c.id]
+                cs = opts[rng.integers(len(opts))] if len(opts) > 1 else opts[0]
+                x = np.tile(cs.current_a, cyc // cs.cycles)
+                shift = int(round(angles[c.phase] / 360.0 * spc))
+                acc[c.phase] += np.roll(x, -shift) if shift else x
+            for ln in angles:
+                per_panel[p.id]["lines"][ln].append(float(np.sqrt(np.mean(acc[ln] ** 2))))
+            if inst.supply.system != "single-phase":
+                per_panel[p.id]["neutral"].append(float(np.sqrt(np.mean(sum(acc.values()) ** 2))))
+
+    def pct(v):
+        a = np.asarray(v)
+        return {"p50_a": float(np.percentile(a, 50)), "p95_a": float(np.percentile(a, 95)),
+                "p99_a": float(np.percentile(a, 99)), "max_a": float(a.max())}
+
+    return {"method": f"Monte Carlo, {d.draws} draws, settings uniform in "
+                      f"{d.low_deg:g}..{d.high_deg:g} deg conduction (step {d.step_deg:g} deg), "
+                      f"seed {d.seed}; ideal supply",
+            "panels": [{"id": pid, "phases": {ln: pct(v) for ln, v in r["lines"].items()},
+                        **({"neutral": pct(r["neutral"])} if r["neutral"] else {})}
+                       for pid, r in per_panel.items()]}

@@ -1,0 +1,142 @@
+"""``pqcalc assess``: currents, neutral, supply distortion and checks of an installation."""
+
+from __future__ import annotations
+
+import sys
+
+import click
+
+from ..assess import assess
+from ..checks import CAUTION
+from ..installation import load_installation
+from ._common import echo_json, fmt, main, user_errors
+
+
+class _Progress:
+    """A progress bar on stderr, only when stderr is a terminal."""
+
+    def __init__(self, total: int):
+        self.bar = None
+        if sys.stderr.isatty() and total > 50:
+            self.bar = click.progressbar(length=total, label="solving circuits", file=sys.stderr)
+            self.bar.__enter__()
+
+    def __call__(self, n: int) -> None:
+        if self.bar is not None:
+            self.bar.update(n)
+
+    def close(self) -> None:
+        if self.bar is not None:
+            self.bar.__exit__(None, None, None)
+
+
+@main.command("assess")
+@click.argument("installation", type=click.Path(dir_okay=True))
+@click.option("--json", "as_json", is_flag=True, help="Print one JSON object instead of tables.")
+@click.option("--scenario", "which", default="design", show_default=True,
+              help="Scenario to tabulate: 'design' (the one with the highest panel currents), "
+                   "'all', or a scenario name.")
+@click.option("--no-interaction", is_flag=True,
+              help="Ideal stiff supply: skip re-solving under the distorted panel voltage.")
+@user_errors
+def assess_cmd(installation, as_json, which, no_interaction):
+    """Branch, panel, feeder and neutral currents, THDv and checks of an INSTALLATION file.
+
+    Exit code 0 when every check passes, 1 when one fails, 2 for bad input.
+    """
+    inst = load_installation(installation)
+    if no_interaction:
+        from dataclasses import replace
+
+        inst = replace(inst, analysis=replace(inst.analysis, supply_interaction=False))
+    prog = _Progress(len(inst.circuits) * inst.n_scenarios)
+    try:
+        a = assess(inst, progress=prog)
+    finally:
+        prog.close()
+    if as_json:
+        echo_json(a.to_dict())
+    else:
+        if which == "design":
+            scen = [a.design]
+        elif which == "all":
+            scen = list(a.scenarios)
+        else:
+            scen = [s for s in a.scenarios if s.name == which]
+            if not scen:
+                from ..errors import InputError
+
+                raise InputError(f"--scenario: no scenario named {which!r}; known: design, all, "
+                                 + ", ".join(s.name for s in a.scenarios))
+        print_assessment(a, scen)
+    sys.exit(1 if a.failed else 0)
+
+
+def _flags(checks) -> str:
+    bad = [c for c in checks if c.status in ("fail", "warn")]
+    return ", ".join(f"{c.status.upper()} {c.name}" for c in bad) or "ok"
+
+
+def print_assessment(a, scenarios) -> None:
+    inst = a.installation
+    out = click.echo
+    pj = inst.project
+    out(f"{pj.name or inst.path}" + (f", {pj.site}" if pj.site else ""))
+    s = inst.supply
+    out(f"supply: {s.system}, {s.voltage_ln_v:g} V line-to-neutral, {s.frequency_hz:g} Hz, "
+        f"source {s.impedance.r_ohm * 1e3:.1f} mohm + {s.impedance.l_h * 1e6:.1f} uH "
+        f"({s.impedance_basis}); {inst.n_lamps} lamps in {len(inst.circuits)} circuits; "
+        f"{a.solves} distinct circuit solves")
+    for sc in scenarios:
+        out("")
+        out(f"== scenario: {sc.name}" + (f" (supply interaction: {sc.interaction_iterations} "
+                                          "iterations)" if sc.interaction_iterations else ""))
+        out("")
+        out(f"  {'circuit':<12} {'panel':<8} {'ph':<3} {'set':>5} {'Irms A':>8} {'THDi %':>7} "
+            f"{'PF':>5} {'DPF':>5} {'P W':>8}  flags")
+        for c in sc.circuits:
+            st = "-" if c.setting_deg is None else f"{c.setting_deg:.0f}"
+            if c.knob is not None:
+                st = f"k{c.knob:.2f}"
+            out(f"  {c.id:<12} {c.panel:<8} {c.phase:<3} {st:>5} {c.i_rms_a:>8.3f} "
+                f"{100 * c.thd_i:>7.1f} {fmt(c.pf, '.2f'):>5} {fmt(c.dpf, '.2f'):>5} "
+                f"{c.p_w:>8.1f}  {_flags(c.checks)}")
+        out("")
+        out(f"  {'node':<12} {'kind':<11} {'line':<4} {'Irms A':>8} {'I1 A':>8} {'THDi %':>7} "
+            f"{'PF':>5} {'THDv %':>7}")
+        for p in sc.panels + sc.feeders + (sc.transformer,):
+            label, kind = p.id, p.kind
+            for ln, r in p.lines.items():
+                thdv = f"{100 * r.thd_v:.2f}" if p.kind == "panel" else "-"
+                out(f"  {label:<12} {kind:<11} {ln:<4} {r.i_rms_a:>8.2f} {r.i1_a:>8.2f} "
+                    f"{100 * r.thd_i:>7.1f} {fmt(r.pf, '.2f'):>5} {thdv:>7}")
+                label = kind = ""
+            if p.neutral is not None:
+                n = p.neutral
+                out(f"  {'':<12} {'':<11} {'N':<4} {n.i_rms_a:>8.2f} {'':>8} {'':>7} {'':>5} {'':>7}   "
+                    f"N/max phase {n.ratio_to_max_phase:.2f}, triplen share "
+                    f"{100 * n.triplen_share:.0f} %")
+            for c in p.checks:
+                out(f"  {'':<12} {c.status.upper():<5} {c.name}: {c.message}")
+                out(f"  {'':<12}       [{c.source}]")
+        for c in sc.checks:
+            out(f"  {c.status.upper():<5} {c.name}: {c.message} [{c.source}]")
+        fails = [c for c in sc.all_checks() if c.status == "fail"]
+        warns = [c for c in sc.all_checks() if c.status == "warn"]
+        out("")
+        out(f"  {len(fails)} failed, {len(warns)} warnings")
+    if a.diversity:
+        out("")
+        out(f"== diversity: {a.diversity['method']}")
+        for p in a.diversity["panels"]:
+            items = ", ".join(f"{ln} {_div(v)}" for ln, v in p["phases"].items())
+            n = f", N {_div(p['neutral'])}" if "neutral" in p else ""
+            out(f"  {p['id']}: {items}{n}")
+    out("")
+    out(f"caution: {CAUTION}")
+
+
+def _div(v: dict) -> str:
+    if "p95_a" in v:
+        return f"{v['p50_a']:.2f}/{v['p95_a']:.2f}/{v['max_a']:.2f} A (p50/p95/max)"
+    return f"{v['i_rms_a']:.2f} A"

@@ -1,0 +1,121 @@
+"""Installation files: reading, and one-line errors naming file, line and field (exit 2)."""
+
+from __future__ import annotations
+
+import shutil
+from pathlib import Path
+
+import pytest
+from click.testing import CliRunner
+
+from pqcalc.cli import main
+from pqcalc.installation import load_installation
+
+DEMO = Path(__file__).resolve().parents[1] / "demo_installations"
+
+BASE = """\
+[project]
+name = "Test building"
+
+[supply]
+system = "three-phase-wye"
+voltage_ln_v = 230
+frequency_hz = 50
+source_r_ohm = 0.02
+source_l_h = 5e-5
+
+[fixtures.dl]
+capture = "downlight_full.csv"
+power_w = 9
+
+[[panels]]
+id = "P1"
+
+[[panels.circuits]]
+id = "c1"
+phase = "L1"
+breaker_a = 16
+breaker_curve = "C"
+fixtures = [{type = "dl", count = 20}]
+
+[[panels.circuits]]
+id = "c2"
+phase = "L2"
+fixtures = [
+  {type = "dl", count = 20},
+]
+"""
+
+
+@pytest.fixture
+def folder(tmp_path):
+    shutil.copy(DEMO / "downlight_full.csv", tmp_path)
+    return tmp_path
+
+
+def write(folder: Path, text: str) -> Path:
+    p = folder / "site.toml"
+    p.write_text(text)
+    return p
+
+
+def test_reads_the_base_file(folder):
+    inst = load_installation(write(folder, BASE))
+    assert [c.id for c in inst.circuits] == ["c1", "c2"]
+    assert inst.n_lamps == 40
+    assert inst.circuits[0].breaker_curve == "C"
+
+
+def test_capture_only_installation_assesses(folder):
+    r = CliRunner().invoke(main, ["assess", str(write(folder, BASE)), "--json"])
+    assert r.exit_code in (0, 1), r.output
+    import json
+
+    d = json.loads(r.output)
+    assert {"circuits", "panels"} <= set(d)
+    c = d["circuits"][0]
+    assert {"id", "panel", "phase", "i_rms_a", "thd_i_pct", "pf", "flags"} <= set(c)
+    p = d["panels"][0]
+    assert {"L1", "L2", "L3"} == set(p["phases"])
+    assert {"i_rms_a", "ratio_to_max_phase", "triplen_share_pct"} <= set(p["neutral"])
+    # Linearity (20 lamps = 20 x one lamp on a stiff supply): both circuits carry the same
+    assert d["circuits"][0]["i_rms_a"] == pytest.approx(d["circuits"][1]["i_rms_a"], rel=1e-3)
+
+
+CASES = [
+    # (replace this, with this, expected field path in the message, expected line)
+    ('type = "dl", count = 20}]', 'type = "spot", count = 20}]',
+     "panels[0].circuits[0].fixtures[0].type", 23),
+    ('phase = "L2"', 'phase = "L7"', "panels[0].circuits[1].phase", 27),
+    ('breaker_curve = "C"', 'breaker_curve = "K"', "panels[0].circuits[0].breaker_curve", 22),
+    ('id = "c1"\nphase = "L1"', 'id = "c1"\nphase = "L1"\ndimmer = "rotary"',
+     "panels[0].circuits[0].dimmer", 21),
+    ('type = "dl", count = 20}]', 'type = "dl", count = 2.5}]',
+     "panels[0].circuits[0].fixtures[0].count", 23),
+    ('type = "dl", count = 20}]', 'type = "dl", count = -3}]',
+     "panels[0].circuits[0].fixtures[0].count", 23),
+    ('capture = "downlight_full.csv"', 'capture = "missing.csv"', "fixtures.dl.capture", 12),
+    ('id = "c2"', 'id = "c1"', "panels[0].circuits[1].id", 26),
+    ("breaker_a = 16", 'breaker_a = "16 A"', "panels[0].circuits[0].breaker_a", 21),
+    ('system = "three-phase-wye"', 'system = "single-phase"', "panels[0].circuits[1].phase", 27),
+    ("voltage_ln_v = 230", "voltage_ln_v = 2300", "supply.voltage_ln_v", 6),
+]
+
+
+@pytest.mark.parametrize("old, new, field, line", CASES)
+def test_bad_input_is_one_line_with_file_line_field(folder, old, new, field, line):
+    assert old in BASE
+    p = write(folder, BASE.replace(old, new, 1))
+    r = CliRunner().invoke(main, ["assess", str(p)])
+    assert r.exit_code == 2, r.output
+    msg = r.stderr.strip() if hasattr(r, "stderr") else r.output.strip()
+    assert "\n" not in msg and "Traceback" not in msg
+    assert f"site.toml:{line}: {field}: expected" in msg
+
+
+def test_not_toml_and_empty_and_directory(folder):
+    for text in ("this is [not toml", ""):
+        r = CliRunner().invoke(main, ["assess", str(write(folder, text))])
+        assert r.exit_code == 2 and "site.toml" in r.output
+    r = CliRunner().invoke(main, ["assess", str(folder)])
+    assert r.exit_code == 2 and "directory" in r.output
