@@ -254,10 +254,12 @@ def estimate_frequency(
     """Estimate the fundamental frequency of a mains record [Hz].
 
     Method: the strongest spectral peak between 40 and 70 Hz (or within 10 % of
-    ``nominal_hz``) of a Hann-windowed FFT, refined by fitting a sinusoid by least squares
-    with Gauss-Newton iterations on the frequency. For a record of several cycles the result
-    is accurate to well under 0.01 Hz even with strong harmonics, since the harmonics are
-    orthogonal to the fitted fundamental over the record.
+    ``nominal_hz``) of a Hann-windowed FFT, refined by a least-squares fit of the fundamental
+    and its harmonics (up to order 25, fewer where the sample rate or a very long record
+    limits it) with Gauss-Newton iterations on the frequency. Fitting the harmonics too keeps
+    them from biasing the estimate over a record that is not a whole number of cycles: with
+    harmonics up to 90 % of the fundamental and 5 % noise, 5 to 50 cycles at 3 to 25 kS/s
+    give errors below 0.002 Hz (``tests/test_capture.py``).
 
     Parameters
     ----------
@@ -276,6 +278,11 @@ def estimate_frequency(
             f"the record lasts {n / fs * 1e3:.3g} ms, less than one mains cycle; "
             "expected at least one whole cycle"
         )
+    # A long record is estimated from its central 2**16 samples (2.6 s at 25 kS/s, 130 cycles)
+    # to bound the work; its frequency is then the mean over that span.
+    if n > 1 << 16:
+        mid = (n - (1 << 16)) // 2
+        x, n = x[mid : mid + (1 << 16)], 1 << 16
     lo, hi = (40.0, 70.0) if nominal_hz is None else (0.9 * nominal_hz, 1.1 * nominal_hz)
     xc = x - x.mean()
     nfft = max(int(2 ** np.ceil(np.log2(n))) * 4, 1 << 14)
@@ -285,22 +292,39 @@ def estimate_frequency(
     if not np.any(band) or spec[band].max() <= 0:
         raise InputError(f"no mains fundamental found between {lo:g} and {hi:g} Hz")
     f0 = float(f[band][np.argmax(spec[band])])
-    # Gauss-Newton refinement of a sinusoid fit a cos + b sin + c at frequency f0.
+    # Gauss-Newton refinement of a least-squares fit of a DC term plus harmonics 1..H on a
+    # common fundamental frequency: first the fundamental alone (wide capture range), then
+    # with the harmonics, which are not orthogonal to the fundamental over a record that is
+    # not a whole number of cycles and would otherwise bias the estimate.
     t = np.arange(n) / fs
-    for _ in range(20):
-        w = 2 * np.pi * f0
-        c, s = np.cos(w * t), np.sin(w * t)
-        A = np.column_stack([c, s, np.ones(n)])
-        coef = np.linalg.lstsq(A, x, rcond=None)[0]
-        a, b = coef[0], coef[1]
-        # derivative of the model with respect to f
-        d = 2 * np.pi * t * (-a * s + b * c)
+    t = t - t.mean()
+    h_max = int(min(25, (fs / 2) / (1.1 * f0) - 1, max(1, 8e6 // (2 * n + 2))))
+    for orders in (1, max(1, h_max)):
+        f0 = _fit_frequency(x, t, f0, orders)
+    return f0
+
+
+def _fit_frequency(x: np.ndarray, t: np.ndarray, f0: float, orders: int) -> float:
+    """Gauss-Newton on the frequency of ``c + sum_h a_h cos(h w t) + b_h sin(h w t)``.
+
+    Solved through the normal equations (the columns are near-orthogonal sines and cosines,
+    so they are well conditioned); stops when the step is below 1e-7 Hz.
+    """
+    hs = np.arange(1, orders + 1, dtype=float)
+    for _ in range(30):
+        ph = (2 * np.pi * f0) * np.outer(t, hs)
+        C, S = np.cos(ph), np.sin(ph)
+        A = np.column_stack([np.ones(t.size), C, S])
+        G = A.T @ A
+        coef = np.linalg.solve(G, A.T @ x)
+        a, b = coef[1 : orders + 1], coef[orders + 1 :]
+        d = (2 * np.pi) * t * ((C * (b * hs)).sum(axis=1) - (S * (a * hs)).sum(axis=1))
         r = x - A @ coef
         J = np.column_stack([A, d])
-        step = np.linalg.lstsq(J, r, rcond=None)[0]
-        df = float(step[3])
+        step = np.linalg.solve(J.T @ J, J.T @ r)
+        df = float(step[-1])
         f0 += df
-        if abs(df) < 1e-9:
+        if abs(df) < 1e-7:
             break
     return f0
 
