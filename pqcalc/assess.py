@@ -15,18 +15,24 @@ interacting results are kept.
 
 from __future__ import annotations
 
-from dataclasses import dataclass, field
+from dataclasses import dataclass
 
 import numpy as np
 
 from . import checks as ck
-from .aggregate import GRID_SAMPLES, LINE_ANGLES_DEG, common_period, summation_law, sum_lines, \
-    to_grid, triplen_share
+from .aggregate import (
+    GRID_SAMPLES,
+    LINE_ANGLES_DEG,
+    common_period,
+    summation_law,
+    to_grid,
+    triplen_share,
+)
 from .errors import ConvergenceError, InputError
 from .installation import Circuit, Installation, Panel
 from .metrics import harmonic_loss_factor, k_factor, thd
 from .spectrum import rotate_phasors
-from .supply import SourceImpedance, voltage_drop
+from .supply import voltage_drop
 
 __all__ = ["CaseResult", "CaseSolver", "CircuitResult", "LineResult", "PanelResult",
            "ScenarioResult", "Assessment", "assess", "grid_phasors"]
@@ -171,7 +177,7 @@ class CaseSolver:
         return hit
 
     def _solve(self, c: Circuit, cond, knob, groups, v1, harm) -> CaseResult:
-        from .circuits import DimmerSpec, LoadGroup, Supply, solve_circuit
+        from .circuits import LoadGroup, Supply, solve_circuit
 
         inst = self.inst
         self.solves += 1

@@ -7,8 +7,13 @@ import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
-from pqcalc.aggregate import GRID_SAMPLES, sum_lines, summation_exponent, summation_law, \
-    triplen_share
+from pqcalc.aggregate import (
+    GRID_SAMPLES,
+    sum_lines,
+    summation_exponent,
+    summation_law,
+    triplen_share,
+)
 from pqcalc.assess import grid_phasors
 from pqcalc.supply import SourceImpedance, from_short_circuit, from_transformer, voltage_drop
 
