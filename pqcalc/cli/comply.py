@@ -1,0 +1,203 @@
+"""``pqcalc comply``: IEC 61000-3-2 verdicts for a fixture lineup, from measured captures."""
+
+from __future__ import annotations
+
+import math
+from pathlib import Path
+
+import click
+
+from ..errors import InputError
+from ..io.capture import load_capture, record_to_waveform
+from ..standards import CAUTION, EQUIPMENT_CLASSES, evaluate_dimmable, evaluate_fixture
+from ..standards.iec61000_3_2 import SCOPE_MIN_VOLTAGE_V
+from ..standards.results import FixtureResult
+from ._common import echo_json, main, user_errors
+from .analyze import capture_options, csv_options_from
+
+#: Nominal line-to-neutral voltages a record is matched to when none is given [V]
+#: (common nominal values, IEC 60038 and North American practice; common practice).
+NOMINAL_VOLTAGES_V = (100.0, 110.0, 115.0, 120.0, 127.0, 200.0, 208.0, 220.0, 230.0, 240.0,
+                      277.0)
+
+
+def guess_nominal_voltage(waveforms) -> float | None:
+    """Nearest common nominal voltage to the highest ``v_peak / sqrt(2)`` of the records.
+
+    The peak rather than the RMS, because a phase-cut voltage keeps the supply's peak while
+    its RMS drops. None when no record has a voltage channel.
+    """
+    peaks = [float(abs(w.voltage_v).max()) / math.sqrt(2) for w in waveforms if w.has_voltage]
+    if not peaks:
+        return None
+    v = max(peaks)
+    return min(NOMINAL_VOLTAGES_V, key=lambda n: abs(n - v))
+
+
+def _fmt_value(d: dict) -> tuple[str, str, str]:
+    spec = ".4g" if d["unit"] == "A" else ".3f" if d["unit"] == "deg" else ".2f"
+    return format(d["value"], spec), format(d["limit"], spec), format(d["margin"], "+" + spec)
+
+
+def print_result(r: FixtureResult) -> None:
+    out = click.echo
+    d = r.to_dict()
+    head = f"{r.fixture}" + (f" @ {r.setting}" if r.setting else "")
+    out(f"{head}: {r.p_w:.4g} W, lambda {r.pf:.3f}: {r.verdict.upper()}  (rule: {r.rule})")
+    if r.rules and len(r.rules) > 1:
+        out("  " + ", ".join(f"{x.rule}: {x.verdict if x.evaluated else 'not evaluated'}"
+                             for x in r.rules))
+    dec = r.deciding
+    if dec is not None:
+        out(f"  {dec.reference}")
+        out(f"  {'quantity':<22} {'value':>10} {'limit':>10} {'unit':<10} {'margin':>10}  verdict")
+        for c in dec.checks:
+            cd = c.to_dict()
+            v, lim, m = _fmt_value(cd)
+            bound = ">=" if c.bound == "min" else "<="
+            flag = " (disregarded)" if c.disregarded else ""
+            out(f"  {c.quantity:<22} {v:>10} {bound}{lim:>8} {cd['unit']:<10} {m:>10}  "
+                f"{c.verdict}{flag}")
+        for n in dec.notes:
+            out(f"  note: {n}")
+    for n in d["notes"]:
+        out(f"  note: {n}")
+    out("")
+
+
+def _label(path: str) -> str:
+    return Path(path).stem
+
+
+@main.command("comply")
+@click.argument("captures", nargs=-1, type=click.Path(dir_okay=True))
+@capture_options
+@click.option("--installation", "installation", type=click.Path(dir_okay=False),
+              help="Evaluate the measured fixture types of this installation file.")
+@click.option("--class", "equipment_class", type=click.Choice(EQUIPMENT_CLASSES),
+              default="C", show_default=True, help="IEC 61000-3-2 equipment class.")
+@click.option("--settings-of", "settings_of", metavar="NAME",
+              help="The captures are dimmer settings of one dimmable fixture NAME; the "
+                   "maximum-power one gives the limits.")
+@click.option("--power-w", type=float,
+              help="Active input power [W] instead of the record's (needed without voltage).")
+@click.option("--pf", type=float,
+              help="Circuit power factor [-] instead of the record's (needed without voltage).")
+@click.option("--nominal-voltage", type=float,
+              help="Nominal line-to-neutral supply voltage [V] (default: from the records).")
+@click.option("--outside-scope", is_flag=True,
+              help=f"Evaluate even below {SCOPE_MIN_VOLTAGE_V:g} V, where IEC 61000-3-2 does "
+                   "not apply (for information).")
+@click.option("--keep-small", is_flag=True,
+              help="Do not disregard harmonics below 0.6 % of the current or 5 mA.")
+@click.option("--json", "as_json", is_flag=True, help="Print one JSON object instead of tables.")
+@user_errors
+def comply_cmd(captures, installation, equipment_class, settings_of, power_w, pf,
+               nominal_voltage, outside_scope, keep_small, as_json, **kw):
+    """IEC 61000-3-2 harmonic-emission verdicts, fixture by fixture and setting by setting.
+
+    Each CAPTURE is one fixture (power and power factor from the record's voltage and
+    current), or, with --settings-of, one dimmer setting of the same fixture. Lighting
+    (Class C) is judged by power: below 5 W no limits; 5 W to 25 W any of options a, b, c;
+    above 25 W Table 2 with 30 x lambda % for the third order. Option b's waveform test
+    needs the voltage channel.
+
+    Exit code 0 when every fixture passes, 1 when any fails (the tables are printed), 2 for
+    bad input, including a verdict that hinges on option b without a voltage channel.
+    """
+    if nominal_voltage is not None and not nominal_voltage > 0:
+        raise InputError(f"--nominal-voltage: expected a positive voltage, got {nominal_voltage}")
+    jobs = []  # (fixture, [(setting, waveform)])
+    skipped: list[str] = []
+    if installation:
+        from ..installation import load_installation
+
+        try:
+            inst = load_installation(installation)
+        except ImportError as e:
+            raise InputError(f"{installation}: reading it needs the circuit models "
+                             f"(pqcalc.circuits), which are not available yet ({e})") from None
+        for fid, ft in inst.fixtures.items():
+            if not ft.measured:
+                skipped.append(fid)
+                continue
+            try:
+                w = record_to_waveform(load_capture(ft.capture, ft.capture_options))
+            except InputError as e:
+                raise InputError(f"{installation}: fixtures.{fid}.capture: {e}") from None
+            jobs.append((fid, [("", w)]))
+    opts = csv_options_from(kw)
+    waves = []
+    for c in captures:
+        rec = load_capture(c, opts)
+        waves.append((_label(c), record_to_waveform(rec, nominal_hz=kw.get("nominal_frequency"))))
+    if settings_of:
+        if len(waves) < 1:
+            raise InputError("--settings-of: expected at least one CAPTURE")
+        if power_w is not None and len(waves) > 1:
+            raise InputError("--power-w: one power cannot describe several dimmer settings; "
+                             "give captures with a voltage channel")
+        jobs.append((settings_of, waves))
+    else:
+        jobs.extend((label, [(label, w)]) for label, w in waves)
+    if not jobs:
+        if skipped:
+            raise InputError(
+                f"{installation}: fixture types {', '.join(skipped)} are circuit models; "
+                "their evaluation needs the circuit solver, which is not available yet"
+            )
+        raise InputError("expected at least one CAPTURE or --installation FILE")
+
+    results: list[FixtureResult] = []
+    notes: list[str] = []
+    for fixture, states in jobs:
+        nominal = nominal_voltage
+        if nominal is None:
+            nominal = guess_nominal_voltage([w for _, w in states])
+            if nominal is None:
+                notes.append(f"{fixture}: no voltage channel, the nominal supply voltage is "
+                             "unknown; give --nominal-voltage to check the scope")
+            else:
+                notes.append(f"{fixture}: nominal supply voltage taken as {nominal:g} V "
+                             "from the record's voltage peak")
+        common = dict(nominal_voltage_v=nominal, outside_scope=outside_scope,
+                      disregard_small=not keep_small)
+        if len(states) > 1:
+            d = evaluate_dimmable([(s, w, power_w, pf) for s, w in states], equipment_class,
+                                  fixture=fixture, **common)
+            results.extend(d.results)
+            notes.extend(n for n in d.notes if n != CAUTION and n not in notes)
+        else:
+            s, w = states[0]
+            results.append(evaluate_fixture(w, power_w, pf, equipment_class, fixture=fixture,
+                                            setting=s if settings_of else "", **common))
+    if skipped:
+        notes.append(f"fixture types {', '.join(skipped)} are circuit models and were not "
+                     "evaluated (the circuit solver is not available yet)")
+
+    failed = [r for r in results if r.verdict == "fail"]
+    if as_json:
+        echo_json({
+            "standard": "IEC 61000-3-2",
+            "verdict": "fail" if failed else "pass",
+            "results": [r.to_dict() for r in results],
+            "notes": notes,
+            "caution": CAUTION,
+        })
+    else:
+        for r in results:
+            print_result(r)
+        for n in notes:
+            click.echo(f"note: {n}")
+        bad = ", ".join(f"{r.fixture}" + (f" @ {r.setting}" if r.setting else "")
+                        for r in failed)
+        click.echo(f"{len(results) - len(failed)} of {len(results)} pass"
+                   + (f"; failing: {bad}" if failed else ""))
+        click.echo(f"caution: {CAUTION}")
+    hinge = [r for r in results if r.undetermined]
+    if hinge:
+        r = hinge[0]
+        raise InputError(f"{r.fixture}: {r.undetermined}; options a and c were evaluated "
+                         "(see the table); give a capture with a voltage channel")
+    if failed:
+        raise SystemExit(1)
