@@ -1,0 +1,182 @@
+"""The fixture lineup of an installation against IEC 61000-3-2, at full output and dimmed.
+
+For each fixture type (and each dimmer kind it is used behind), the lamp alone is solved on
+the installation's nominal voltage behind an ideal phase cut (a reference dimmer: the switch
+opens and closes exactly at the setting, so the result is the lamp's own emission, not the
+wall dimmer's), over its dimming range. The states evaluated are the maximum-power state and
+five settings whose powers lie equidistant between minimum and maximum power (IEC 61000-3-2
+test conditions for dimmable lighting). Measured fixture types are evaluated on their record.
+
+:func:`evaluate_lineup` returns one :class:`LineupEntry` per fixture type and dimmer kind.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import numpy as np
+
+from .errors import InputError
+from .installation import FixtureType, Installation
+from .spectrum import Spectrum, spectrum
+from .waveform import Waveform
+
+__all__ = ["LineupState", "LineupEntry", "evaluate_lineup", "fixture_states", "limits_in_amps"]
+
+
+@dataclass(frozen=True)
+class LineupState:
+    """One operating point of a fixture: the record, its spectrum, the verdict and the
+    applicable limit per order [A]."""
+
+    setting_label: str
+    conduction_deg: float | None
+    waveform: Waveform
+    spectrum: Spectrum
+    p_w: float
+    result: object  # pqcalc.standards.FixtureResult
+    limits_a: dict[int, float]
+
+
+@dataclass(frozen=True)
+class LineupEntry:
+    fixture: str
+    description: str
+    source: str  # "model bulk-cap" or "capture file.csv"
+    dimmer: str
+    verdict: str
+    rule: str
+    states: tuple[LineupState, ...]
+    result: object  # pqcalc.standards.DimmableResult or FixtureResult
+    notes: tuple[str, ...] = ()
+
+    def to_dict(self) -> dict:
+        return {"fixture": self.fixture, "description": self.description, "source": self.source,
+                "dimmer": self.dimmer, "verdict": self.verdict, "rule": self.rule,
+                "states": [{"setting": s.setting_label, "conduction_deg": s.conduction_deg,
+                            "p_w": s.p_w, "verdict": s.result.verdict, "rule": s.result.rule,
+                            "limits_a": {str(k): v for k, v in s.limits_a.items()}}
+                           for s in self.states],
+                "result": self.result.to_dict(), "notes": list(self.notes)}
+
+
+def limits_in_amps(result, s: Spectrum) -> dict[int, float]:
+    """Per-order limits [A] of a FixtureResult's deciding rule (fractions times I1)."""
+    rule = result.deciding
+    out: dict[int, float] = {}
+    if rule is None:
+        return out
+    for c in rule.checks:
+        if c.order is None or c.bound != "max":
+            continue
+        if c.unit == "A":
+            out[c.order] = float(c.limit)
+        elif c.unit == "fraction of I1":
+            out[c.order] = float(c.limit) * s.i1_a
+    return out
+
+
+def _solve_one(ft: FixtureType, v: float, f: float, kind: str, cond: float | None) -> Waveform:
+    from .circuits import DimmerSpec, LoadGroup, Supply, solve_circuit
+
+    if kind == "none" or cond is None or cond >= 180.0:
+        dim = DimmerSpec(kind="none")
+    elif kind == "leading-edge":
+        dim = DimmerSpec(kind="leading-edge", conduction_deg=cond, switch="transistor")
+    else:
+        dim = DimmerSpec(kind=kind, conduction_deg=cond)
+    sol = solve_circuit(Supply(v_rms_v=v, frequency_hz=f), dim,
+                        [LoadGroup(model=ft.model, power_w=ft.power_w, count=1,
+                                   params=dict(ft.params))])
+    return sol.waveform
+
+
+def fixture_states(ft: FixtureType, v: float, f: float, kind: str, grid: int = 19
+                   ) -> list[tuple[str, float | None, Waveform]]:
+    """The maximum-power state and five equidistant-power dimmed states of a modelled
+    fixture behind a reference phase cut of ``kind``."""
+    from .standards import dimmed_test_powers
+
+    full = _solve_one(ft, v, f, "none", None)
+    states = [("full", 180.0, full)]
+    if kind == "none":
+        return states
+    angles = np.linspace(ft.min_conduction_deg, 180.0, grid)[:-1]
+    solved = [(a, _solve_one(ft, v, f, kind, float(a))) for a in angles]
+    powers = np.array([w.p_w for _, w in solved])
+    p_max = float(full.p_w)
+    working = powers > 0.02 * p_max
+    if not np.any(working):
+        return states
+    p_min = float(powers[working].min())
+    if p_max - p_min < 0.02 * p_max:
+        return states
+    targets = dimmed_test_powers(p_min, p_max, 5)
+    used = set()
+    for t in targets:
+        k = int(np.argmin(np.where(working, np.abs(powers - t), np.inf)))
+        if k in used:
+            continue
+        used.add(k)
+        a, w = solved[k]
+        states.append((f"{a:.0f} deg ({w.p_w:.1f} W)", float(a), w))
+    return states
+
+
+def evaluate_lineup(inst: Installation, equipment_class: str = "C") -> list[LineupEntry]:
+    """IEC 61000-3-2 for every fixture type of an installation, at full output and dimmed."""
+    from .standards import evaluate_dimmable, evaluate_fixture
+
+    sup = inst.supply
+    v, f = sup.voltage_ln_v, sup.frequency_hz
+    outside = v < 220.0
+    kinds: dict[str, list[str]] = {fid: [] for fid in inst.fixtures}
+    for c in inst.circuits:
+        for g in c.groups:
+            if c.dimmer not in kinds[g.fixture]:
+                kinds[g.fixture].append(c.dimmer)
+    entries = []
+    for fid, ft in inst.fixtures.items():
+        notes = []
+        if outside:
+            notes.append(f"IEC 61000-3-2 applies from 220 V line-to-neutral; evaluated at "
+                         f"{v:g} V on request, for information only")
+        if ft.measured:
+            w = _capture_waveform(ft)
+            r = evaluate_fixture(w if w.has_voltage else spectrum(w), None if w.has_voltage
+                                 else ft.power_w, None if w.has_voltage else 1.0,
+                                 equipment_class, fixture=fid, setting="as recorded",
+                                 nominal_voltage_v=v, outside_scope=outside)
+            s = spectrum(w)
+            st = LineupState("as recorded", None, w, s, r.p_w, r, limits_in_amps(r, s))
+            entries.append(LineupEntry(fid, ft.description, f"capture {ft.capture}",
+                                       "as recorded", r.verdict, r.rule, (st,), r,
+                                       tuple(notes)))
+            continue
+        for kind in [k for k in kinds[fid] if k != "none"] or ["none"]:
+            states = fixture_states(ft, v, f, kind)
+            recs = [(lab, w, None, None) for lab, _, w in states]
+            try:
+                res = evaluate_dimmable(recs, equipment_class, fixture=fid, nominal_voltage_v=v,
+                                        outside_scope=outside)
+            except InputError as e:
+                raise InputError(f"fixtures.{fid}: {e}") from None
+            # results[0] is the maximum-power state, the others in the order given
+            kmax = max(range(len(states)), key=lambda k: states[k][2].p_w)
+            order = [kmax] + [k for k in range(len(states)) if k != kmax]
+            lst = []
+            for r, k in zip(res.results, order):
+                lab, a, w = states[k]
+                s = spectrum(w)
+                lst.append(LineupState(lab, a, w, s, float(w.p_w), r, limits_in_amps(r, s)))
+            top = res.results[0]
+            entries.append(LineupEntry(fid, ft.description, f"model {ft.model}", kind,
+                                       res.verdict, top.rule, tuple(lst), res,
+                                       tuple(notes) + tuple(res.notes)))
+    return entries
+
+
+def _capture_waveform(ft: FixtureType) -> Waveform:
+    from .io.capture import load_capture, record_to_waveform
+
+    return record_to_waveform(load_capture(ft.capture, ft.capture_options))
