@@ -252,6 +252,8 @@ class CircuitResult:
     checks: tuple[ck.Check, ...]
     max_fixtures: dict
     notes: tuple[str, ...] = ()
+    #: RMS magnitude per order 0..50 of the circuit current [A] (for the exports).
+    magnitudes_a: np.ndarray | None = None
 
     def to_dict(self) -> dict:
         return {
@@ -559,7 +561,7 @@ def _circuit_result(inst, c: Circuit, cs: CaseResult, scenario: int, v_own) -> C
     return CircuitResult(c.id, c.panel, c.phase, cond if c.dimmer != "none" else None, knob,
                          i_rms, i1, float(np.max(np.abs(cs.current_a))),
                          float(thd(m, 40)) if i1 > 0 else 0.0, cs.p_w, pf, dpf, inrush,
-                         cs.flags, tuple(checks), mx, cs.notes)
+                         cs.flags, tuple(checks), mx, cs.notes, m)
 
 
 def _node_result(inst, name, kind, node: _Node, cyc, vmap_lines, panel: Panel | None = None):
