@@ -43,7 +43,10 @@ def test_round_trip_exact(tmp_path, rev, ft):
     assert rec.sample_rate_hz == FS  # the 'samp' field, exactly
     for got, x, name in ((rec.current_a, i, "IL1"), (rec.voltage_v, v, "UL1")):
         a, b = sc[name]
-        want = x.astype(np.float32).astype(float) if ft == "FLOAT32" else a * np.round((x - b) / a) + b
+        if ft == "FLOAT32":
+            want = x.astype(np.float32).astype(float)
+        else:
+            want = a * np.round((x - b) / a) + b
         np.testing.assert_array_equal(got, want)
     assert rec.meta["current_channel"] == "IL1" and rec.meta["voltage_channel"] == "UL1"
 

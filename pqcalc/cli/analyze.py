@@ -5,23 +5,31 @@ from __future__ import annotations
 import click
 
 from ..analysis import analyze as analyze_waveform
+from ..errors import InputError
 from ..io.capture import UNIT_SCALE, CsvOptions, load_capture, record_to_waveform
+from ..io.windows import analyze_windows
 from ._common import echo_json, fmt, main, user_errors
 
 
 def capture_options(f):
     """Options shared by every command that reads a capture."""
     opts = [
-        click.option("--current-col", "-i", help="Current column: header name or 0-based index."),
-        click.option("--voltage-col", "-u", help="Voltage column: header name or 0-based index."),
+        click.option("--current-col", "-i",
+                     help="Current column: header name or 0-based index (COMTRADE: channel "
+                          "name or its number in the .cfg)."),
+        click.option("--voltage-col", "-u",
+                     help="Voltage column: header name or 0-based index (COMTRADE: channel "
+                          "name or its number in the .cfg)."),
         click.option("--time-col", "-t", help="Time column [s]: header name or 0-based index."),
-        click.option("--sample-rate", type=float, help="Sample rate [Hz] when there is no time column."),
+        click.option("--sample-rate", type=float,
+                     help="Sample rate [Hz] when there is no time column."),
         click.option("--current-unit", type=click.Choice(sorted(UNIT_SCALE)), default="A",
                      show_default=True, help="Unit of the current column."),
         click.option("--current-scale", type=float, default=1.0, show_default=True,
                      help="Multiply the current by this (current-probe ratio)."),
         click.option("--shunt-ohm", type=float,
-                     help="The current column is the voltage across a shunt of this resistance [ohm]."),
+                     help="The current column is the voltage across a shunt of this "
+                          "resistance [ohm]."),
         click.option("--voltage-scale", type=float, default=1.0, show_default=True,
                      help="Multiply the voltage by this (voltage-probe or divider ratio)."),
         click.option("--delimiter", type=click.Choice([",", ";", "tab"]),
@@ -38,8 +46,6 @@ def capture_options(f):
 
 
 def csv_options_from(kw: dict) -> CsvOptions:
-    from ..errors import InputError
-
     scale = kw["current_scale"] * UNIT_SCALE[kw["current_unit"]]
     if kw.get("shunt_ohm") is not None:
         if not kw["shunt_ohm"] > 0:
@@ -66,17 +72,38 @@ def csv_options_from(kw: dict) -> CsvOptions:
 @capture_options
 @click.option("--max-order", type=click.IntRange(2, 50), default=40, show_default=True,
               help="Highest order in THD and in the table.")
+@click.option("--windows", "per_window", is_flag=True,
+              help="Consecutive IEC 61000-4-7 windows (10 cycles at 50 Hz, 12 at 60 Hz): "
+                   "one row per window, then mean, max and 95th percentile. Reads the file "
+                   "in blocks, so any length works.")
+@click.option("--smooth", is_flag=True,
+              help="With --windows: pass the harmonic groups through the 1.5 s smoothing filter.")
+@click.option("--summary-only", is_flag=True,
+              help="With --windows: print the summary without the per-window rows.")
 @click.option("--json", "as_json", is_flag=True, help="Print one JSON object instead of tables.")
 @user_errors
-def analyze_cmd(capture, max_order, as_json, **kw):
+def analyze_cmd(capture, max_order, per_window, smooth, summary_only, as_json, **kw):
     """Harmonic spectrum, THD, power factor and more of a measured CAPTURE.
 
     CAPTURE is a delimited text file (CSV, semicolon or tab) with a time column or a given
-    sample rate, or a COMTRADE .cfg file. The record is aligned to a whole number of mains
-    cycles at the estimated fundamental frequency before the FFT. Phase angles refer to the
-    voltage fundamental when a voltage column is present, else to the current fundamental.
+    sample rate, or a COMTRADE record (.cfg with its .dat, or a .cff). The record is aligned
+    to a whole number of mains cycles at the estimated fundamental frequency before the FFT.
+    Phase angles refer to the voltage fundamental when a voltage column is present, else to
+    the current fundamental.
     """
-    rec = load_capture(capture, csv_options_from(kw))
+    if (smooth or summary_only) and not per_window:
+        raise InputError("--smooth and --summary-only go with --windows")
+    opts = csv_options_from(kw)
+    if per_window:
+        wa = analyze_windows(capture, opts, nominal_hz=kw.get("nominal_frequency"),
+                             thd_max_order=max_order, smoothing=smooth,
+                             keep_windows=not summary_only)
+        if as_json:
+            echo_json(wa.to_dict())
+        else:
+            print_windows(wa, max_order)
+        return
+    rec = load_capture(capture, opts)
     w = record_to_waveform(rec, nominal_hz=kw.get("nominal_frequency"))
     a = analyze_waveform(w, max_order)
     if as_json:
@@ -86,6 +113,45 @@ def analyze_cmd(capture, max_order, as_json, **kw):
         echo_json(d)
         return
     print_analysis(a, rec.source, w.cycles)
+
+
+def print_windows(wa, max_order: int) -> None:
+    out = click.echo
+    summ = wa.summary.to_dict()
+    out(f"{wa.source}: {summ['windows']} windows of {wa.cycles} cycles"
+        + (" (groups smoothed, 1.5 s)" if wa.windows is not None and wa.windows.smoothed
+           else ""))
+    w = wa.windows
+    has_v = wa.summary.has_voltage
+    head = f"  {'window':>6} {'start [s]':>9} {'f [Hz]':>8} {'I [A]':>10} {'I1 [A]':>10} " \
+           f"{'THDi [%]':>8}"
+    if has_v:
+        head += f" {'V [V]':>8} {'THDv [%]':>8} {'P [W]':>10} {'PF':>6} {'DPF':>6}"
+    if w is not None:
+        out(head)
+        for r in w.rows():
+            line = (f"  {r['window']:>6} {r['start_s']:>9.3f} {r['frequency_hz']:>8.3f} "
+                    f"{r['i_rms_a']:>10.4g} {r['i1_rms_a']:>10.4g} {r['thd_i_pct']:>8.2f}")
+            if has_v:
+                line += (f" {r['v_rms_v']:>8.2f} {r['thd_v_pct']:>8.2f} {r['p_w']:>10.4g} "
+                         f"{r['pf']:>6.3f} {r['dpf']:>6.3f}")
+            out(line)
+        out("")
+    out(f"  {'':<22} {'mean':>11} {'max':>11} {'95th pct':>11}")
+    labels = [("frequency_hz", "frequency [Hz]"), ("i_rms_a", "I rms [A]"),
+              ("thd_i_pct", f"THD i (2..{max_order}) [%]"), ("v_rms_v", "V rms [V]"),
+              ("thd_v_pct", f"THD v (2..{max_order}) [%]"), ("p_w", "P [W]"), ("pf", "PF"),
+              ("dpf", "DPF")]
+    for key, label in labels:
+        if key in summ["mean"]:
+            out(f"  {label:<22} {summ['mean'][key]:>11.5g} {summ['max'][key]:>11.5g} "
+                f"{summ['p95'][key]:>11.5g}")
+    out("")
+    out(f"  {'order':>5} {'mean [A]':>11} {'max [A]':>11} {'95th [A]':>11}  (current groups)")
+    top = min(max_order, len(summ["mean"]["i_group_a"]) - 1)
+    for h in range(1, top + 1):
+        out(f"  {h:>5} {summ['mean']['i_group_a'][h]:>11.4g} {summ['max']['i_group_a'][h]:>11.4g} "
+            f"{summ['p95']['i_group_a'][h]:>11.4g}")
 
 
 def print_analysis(a, source: str, cycles: int) -> None:
@@ -107,7 +173,8 @@ def print_analysis(a, source: str, cycles: int) -> None:
     if a.spectrum.has_voltage:
         rows += [
             ("V rms", fmt(s.v_rms_v), "V"),
-            (f"THD v (2..{a.max_order})", fmt(100 * s.thd_v, ".2f") if s.thd_v is not None else "-", "% of V1"),
+            (f"THD v (2..{a.max_order})",
+             fmt(100 * s.thd_v, ".2f") if s.thd_v is not None else "-", "% of V1"),
             ("P", fmt(s.p_w), "W"),
             ("S", fmt(s.s_va), "VA"),
             ("Q1", fmt(s.q1_var), "var"),

@@ -95,6 +95,20 @@ def _check_path(path: Path) -> None:
         raise InputError(f"{path}: the file is empty; expected a capture with samples")
 
 
+def _looks_binary(head: bytes, not_utf8: bool) -> bool:
+    """NUL bytes, more than 1 % control characters, or (not UTF-8) more than 30 % bytes
+    above 127: no recorder writes text like that."""
+    if not head:
+        return False
+    if b"\x00" in head[:4096]:
+        return True
+    arr = np.frombuffer(head, dtype=np.uint8)
+    control = np.count_nonzero((arr < 32) & ~np.isin(arr, (9, 10, 13)))
+    if control > 0.01 * arr.size:
+        return True
+    return bool(not_utf8 and np.count_nonzero(arr > 127) > 0.3 * arr.size)
+
+
 def _sniff_delimiter(sample: str) -> str:
     lines = [ln for ln in sample.splitlines() if ln.strip()][:20]
     best, best_score = ",", -1
@@ -161,13 +175,13 @@ class CsvStream:
         _check_path(p)
         with open(p, "rb") as fh:
             head = fh.read(1 << 16)
-        if b"\x00" in head[:4096]:
-            raise InputError(f"{p}: looks like a binary file; expected delimited text")
         try:
             head.decode("utf-8-sig")
             self._encoding = "utf-8-sig"
         except UnicodeDecodeError as e:
             self._encoding = "utf-8-sig" if e.start > len(head) - 4 else "latin-1"
+        if _looks_binary(head, self._encoding != "utf-8-sig"):
+            raise InputError(f"{p}: looks like a binary file; expected delimited text")
         self.path, self.options, self.source = p, o, str(p)
         self._fh = open(p, encoding=self._encoding, errors="replace", newline="")
         self._line_no = 0
@@ -328,7 +342,7 @@ class CsvStream:
             bad = int(np.flatnonzero(dt <= 0)[0])
             kind = "duplicate" if dt[bad] == 0 else "decreasing"
             raise InputError(
-                f"{p}:{rows[bad + 1 - off][0]}: {kind} time stamp {tt[bad + 1]!r}; expected "
+                f"{p}:{rows[bad + 1 - off][0]}: {kind} time stamp {tt[bad + 1]:.9g}; expected "
                 "time to increase from row to row"
             )
         if self._step is None and dt.size:
