@@ -40,7 +40,9 @@ from .plotting.curves import (
     waveform_figure,
 )
 from .plotting.spectra import (
+    LimitMarks,
     exceeding_orders,
+    limit_marks,
     neutral_spectrum_figure,
     order_magnitudes,
     spectrum_figure,
@@ -63,6 +65,8 @@ __all__ = [
     "CAUTION",
     "order_magnitudes",
     "exceeding_orders",
+    "LimitMarks",
+    "limit_marks",
     "cut_intervals_deg",
     "new_figure",
     "spectrum_figure",

@@ -179,7 +179,7 @@ def test_spectrum_accepts_plain_magnitudes_and_dataarray():
         assert bar_hatches(f.axes[0]) == {2: None, 3: "////", 4: None, 5: None}
     assert bar_hatches(f3.axes[0]) == {3: "////", 5: None}
     # THD over 2..5 = sqrt(0.6^2 + 0.1^2) / 2 = 30.41 % (closed form), printed in the title
-    assert "30.4 %" in f1.axes[0].get_title(loc="right")
+    assert "30.4 %" in f1.axes[0].get_title(loc="left")
 
 
 @settings(max_examples=50, deadline=None)
@@ -211,6 +211,45 @@ def test_spectrum_without_fundamental_is_refused():
         plots.spectrum_figure(np.array([0.0, 0.0, 0.3]))
     with pytest.raises(InputError, match="finite"):
         plots.spectrum_figure(np.array([0.0, 1.0, np.nan]))
+
+
+def test_limit_marks_from_the_class_c_and_class_a_evaluators(cut90_spectrum):
+    from pqcalc.standards import evaluate_fixture
+
+    w = phase_cut_resistive(np.pi / 2, v_rms=V_RMS, r_ohm=R_OHM)
+    i1 = cut90_spectrum.i1_a
+    r = evaluate_fixture(w, equipment_class="C")
+    # closed form: P = V^2 / R / 2 = 264.5 W at 90 deg, above 25 W, so Table 2 applies
+    assert r.p_w == pytest.approx(V_RMS**2 / R_OHM / 2, rel=1e-4)
+    marks = plots.limit_marks(r, i1, "pct")
+    want = class_c_limits_pct(math.sqrt(0.5))  # Table 2 at lambda = sqrt(1/2) (closed form)
+    assert set(marks.limits) == set(want)
+    for h, lim in want.items():
+        # the PF of the sampled record differs from sqrt(1/2) by ~1e-5 (step edges)
+        assert marks.limits[h] == pytest.approx(lim, rel=1e-4), h
+    assert "Table 2" in marks.label
+    # even orders are zero here, far below max(0.6 % of I, 5 mA): disregarded
+    assert 2 in marks.disregarded
+    in_a = plots.limit_marks(r, i1, "A")
+    assert in_a.limits[5] == pytest.approx(0.10 * i1, rel=1e-9)  # 10 % of I1 in amperes
+    ra = plots.limit_marks(evaluate_fixture(w, equipment_class="A"), i1, "A")
+    # IEC 61000-3-2:2018, Table 1 (Class A): h3 2.30 A, h5 1.14 A, h2 1.08 A
+    assert (ra.limits[3], ra.limits[5], ra.limits[2]) == pytest.approx((2.30, 1.14, 1.08))
+    assert plots.limit_marks(evaluate_fixture(w, equipment_class="A"), i1, "pct").limits[3] \
+        == pytest.approx(100 * 2.30 / i1)
+    # the long legend label of a real rule wraps and stays inside the figure
+    fig = plots.spectrum_figure(cut90_spectrum, in_a.limits, "A", limits_label=in_a.label,
+                                disregarded=in_a.disregarded)
+    assert_nothing_clipped(fig)
+    assert bar_hatches(fig.axes[0])[2] is None
+
+
+def test_disregarded_orders_are_not_flagged():
+    mags = np.array([0.0, 1.0, 0.0, 0.2, 0.0, 0.003])
+    # invented limits: h5 at 1 mA is exceeded by 3 mA, but h5 is disregarded
+    fig = plots.spectrum_figure(mags, {3: 0.1, 5: 0.001}, disregarded=[5], max_order=5)
+    assert bar_hatches(fig.axes[0]) == {2: None, 3: "////", 4: None, 5: None}
+    assert "disregarded" in all_text(fig) and "h5" in all_text(fig)
 
 
 # ---------------------------------------------------------------------- waveform figure

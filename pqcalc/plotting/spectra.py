@@ -2,7 +2,9 @@
 
 from __future__ import annotations
 
-from collections.abc import Mapping
+import textwrap
+from collections.abc import Collection, Mapping
+from dataclasses import dataclass
 from typing import TYPE_CHECKING, get_args
 
 import numpy as np
@@ -26,7 +28,8 @@ from .style import (
 if TYPE_CHECKING:
     from matplotlib.figure import Figure
 
-__all__ = ["order_magnitudes", "exceeding_orders", "spectrum_figure", "neutral_spectrum_figure"]
+__all__ = ["order_magnitudes", "exceeding_orders", "LimitMarks", "limit_marks",
+           "spectrum_figure", "neutral_spectrum_figure"]
 
 
 def order_magnitudes(x, name: str = "spectrum") -> tuple[np.ndarray, np.ndarray]:
@@ -85,6 +88,66 @@ def exceeding_orders(orders, values, limits: Mapping[int, float] | None) -> np.n
         if lim is not None and np.isfinite(lim) and values[k] > lim:
             out[k] = True
     return out
+
+
+@dataclass(frozen=True)
+class LimitMarks:
+    """Per-order limits ready for :func:`spectrum_figure`.
+
+    Attributes
+    ----------
+    limits
+        Order -> limit in ``unit`` ([A rms] or [% of fundamental]).
+    unit
+        ``"A"`` or ``"pct"``.
+    label
+        The rule and its source, for the legend.
+    disregarded
+        Orders the rule disregards (below its threshold of significance).
+    """
+
+    limits: dict[int, float]
+    unit: str
+    label: str
+    disregarded: tuple[int, ...] = ()
+
+
+def limit_marks(result, i1_a: float, unit: SpectrumUnit = "pct") -> LimitMarks:
+    """The per-order limits of a compliance result, in the unit of a spectrum figure.
+
+    Parameters
+    ----------
+    result
+        A :class:`pqcalc.standards.FixtureResult` (its deciding rule is used) or a
+        :class:`pqcalc.standards.RuleResult`.
+    i1_a
+        Fundamental current of the spectrum [A rms], to convert between absolute limits
+        and limits relative to the fundamental.
+    unit
+        ``"A"`` or ``"pct"``, the unit of the figure.
+
+    A result with no rule (the standard sets no limits here) gives no limits.
+    """
+    if unit not in get_args(SpectrumUnit):
+        raise InputError(f"unit: expected one of {', '.join(get_args(SpectrumUnit))}, got {unit!r}")
+    if not (np.isfinite(i1_a) and i1_a > 0):
+        raise InputError(f"i1_a: expected a positive fundamental current, got {i1_a}")
+    rule = result.deciding if hasattr(result, "deciding") else result
+    if rule is None:
+        return LimitMarks({}, unit, str(getattr(result, "rule", "no limits")))
+    limits, skip = {}, []
+    for c in rule.order_checks():
+        if c.unit == "A":
+            lim = c.limit if unit == "A" else 100.0 * c.limit / i1_a
+        elif c.unit == "fraction of I1":
+            lim = c.limit * i1_a if unit == "A" else 100.0 * c.limit
+        else:
+            raise InputError(f"{rule.rule}: order {c.order} has a limit in {c.unit!r}; "
+                             "expected A or a fraction of I1")
+        limits[int(c.order)] = float(lim)
+        if c.disregarded:
+            skip.append(int(c.order))
+    return LimitMarks(limits, unit, f"{rule.reference}, {rule.rule}", tuple(skip))
 
 
 def _clean_limits(limits, name: str = "limits") -> dict[int, float]:
@@ -150,7 +213,7 @@ def _draw_limit_marks(ax, orders, limits: Mapping[int, float], width: float, lab
         ax.plot([x - width / 2 - 0.12, x + width / 2 + 0.12], [y, y], color="black",
                 lw=2.0, ls="-", solid_capstyle="butt", path_effects=halo, zorder=4,
                 gid=f"limit-{x}")
-    return ax.plot([], [], color="black", lw=2.0, ls="-", label=label)[0]
+    return ax.plot([], [], color="black", lw=2.0, ls="-", label=textwrap.fill(label, 56))[0]
 
 # ---------------------------------------------------------------------- spectra
 def spectrum_figure(
@@ -162,6 +225,7 @@ def spectrum_figure(
     title: str | None = None,
     limits_label: str = "limit",
     min_order: int = 2,
+    disregarded: Collection[int] = (),
 ) -> Figure:
     """Harmonic spectrum as bars per order, with the applicable limit of each order marked.
 
@@ -184,6 +248,9 @@ def spectrum_figure(
         Figure title; default from the spectrum's label.
     limits_label
         Name of the limits in the legend, e.g. ``"IEC 61000-3-2:2018 Class C"``.
+    disregarded
+        Orders the standard disregards (too small to count): never drawn as over the
+        limit; a note names those above their line. :func:`limit_marks` supplies them.
 
     Bars above their limit are drawn dark and hatched, the others light, so the two stay
     apart in grayscale.
@@ -204,7 +271,10 @@ def spectrum_figure(
     if h.size == 0:
         raise InputError(f"spectrum: no orders between {min_order} and {max_order}")
     y = 100.0 * m / i1 if unit == "pct" else m
+    skip = {int(k) for k in disregarded}
     over = exceeding_orders(h, y, lims)
+    over_but_skipped = [int(k) for k, o in zip(h, over, strict=True) if o and k in skip]
+    over &= ~np.isin(h, list(skip))
     dist = (orders >= 2) & (orders <= max_order)
     thd_pct = 100.0 * float(np.sqrt(np.sum(mags[dist] ** 2))) / i1
 
@@ -216,7 +286,8 @@ def spectrum_figure(
         if log:
             y_floor = _log_axis(ax, np.concatenate([y, [lims[k] for k in h if k in lims]]))
         heights = np.maximum(y, y_floor) - y_floor
-        colors = np.where(over, DARK, LIGHT)
+        limited = np.isin(h, list(lims))
+        colors = np.where(over, DARK, np.where(limited | (not lims), LIGHT, "white"))
         bars = ax.bar(h, heights, width=width, bottom=y_floor, color=colors, edgecolor=INK,
                       linewidth=0.5, zorder=2)
         for b, o, hh in zip(bars, over, h, strict=True):
@@ -224,8 +295,11 @@ def spectrum_figure(
             if o:
                 b.set_hatch("////")
         handles = [_mpl().Patch(facecolor=LIGHT, edgecolor=INK, linewidth=0.5,
-                         label="within limit" if lims else "harmonic current")]
+                                label="within limit" if lims else "harmonic current")]
         if lims:
+            if not limited.all():
+                handles.append(_mpl().Patch(facecolor="white", edgecolor=INK, linewidth=0.5,
+                                            label="no limit for the order"))
             if over.any():
                 handles.append(_mpl().Patch(facecolor=DARK, edgecolor=INK, hatch="////",
                                             linewidth=0.5, label="over limit"))
@@ -238,11 +312,20 @@ def spectrum_figure(
         _order_axis(ax, int(h.max()), int(h.min()))
         ax.set_ylabel("harmonic current [% of fundamental]" if unit == "pct"
                       else "harmonic current [A rms]")
-        ax.set_title(title if title is not None else _title("Harmonic spectrum", spectrum))
+        if over_but_skipped:
+            ax.text(0.99, 0.97, "above the line but disregarded (below the standard's "
+                    f"threshold): h{', h'.join(map(str, over_but_skipped))}",
+                    transform=ax.transAxes, ha="right", va="top", fontsize=7, color="#444444")
         _legend_below(fig, handles)
-        ax.set_title(f"$I_1$ = {i1:.4g} A rms,  THD (2..{max_order}) = {thd_pct:.1f} %",
-                     loc="right", fontsize=8, fontweight="normal")
+        _titles(fig, ax, title if title is not None else _title("Harmonic spectrum", spectrum),
+                f"$I_1$ = {i1:.4g} A rms,  THD (2..{max_order}) = {thd_pct:.1f} %")
     return fig
+
+
+def _titles(fig, ax, title: str, subtitle: str) -> None:
+    """Bold title over the figure, key figures in a plain line over the axes."""
+    fig.suptitle(title, x=0.01, ha="left", fontweight="bold", fontsize=STYLE["axes.titlesize"])
+    ax.set_title(subtitle, loc="left", fontsize=8, fontweight="normal")
 
 
 def _title(base: str, obj) -> str:
@@ -291,11 +374,10 @@ def neutral_spectrum_figure(
             ax.set_ylim(0, 1.12 * float(m.max()) if m.max() > 0 else 1.0)
         _order_axis(ax, int(h.max()), int(h.min()))
         ax.set_ylabel("neutral current [A rms]")
-        ax.set_title(title if title is not None
-                     else _title("Neutral current spectrum", spectrum_or_magnitudes))
         share = f"{100 * trip / total:.1f} %" if total > 0 else "-"
-        ax.set_title(f"$I_N$ = {total:.4g} A rms, triplen orders {share} of it",
-                     loc="right", fontsize=8, fontweight="normal")
+        _titles(fig, ax, title if title is not None
+                else _title("Neutral current spectrum", spectrum_or_magnitudes),
+                f"$I_N$ = {total:.4g} A rms, triplen orders {share} of it (rms)")
     _caution(fig)
     return fig
 

@@ -112,7 +112,18 @@ def new_figure(figsize: tuple[float, float] | None = None, **kw) -> Figure:
 
 def _legend_below(fig: Figure, handles) -> None:
     """The legend in one row under the axes, outside the data (constrained layout)."""
-    fig.legend(handles=handles, loc="outside lower center", ncols=len(handles))
+    # as many columns as fit the width: ~95 character widths of 8 pt text (with ~6 for each
+    # key and gap) span the 6.2 in inside a 6.4 in figure
+    widths = [max(map(len, h.get_label().splitlines())) for h in handles]
+    n = len(handles)
+    ncols = 1
+    for nc in range(n, 0, -1):
+        rows = -(-n // nc)  # legends fill column by column
+        cols = [widths[k:k + rows] for k in range(0, n, rows)]
+        if sum(max(c) + 6 for c in cols) <= 95:
+            ncols = nc
+            break
+    fig.legend(handles=handles, loc="outside lower center", ncols=ncols)
 
 
 def _caution(fig: Figure) -> None:
