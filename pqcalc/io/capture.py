@@ -407,9 +407,8 @@ class ComtradeStream:
             self.meta["voltage_channel"] = f.config.analog[vi].name
 
     def chunks(self, size: int = 1 << 16):
-        for x in self.file.chunks(self._cols, size):
-            yield (x[:, 0] * self._scale[0],
-                   x[:, 1] * self._scale[1] if self.has_voltage else None)
+        for x in self.file.chunks(self._cols, size, list(self._scale[: len(self._cols)])):
+            yield x[:, 0], (x[:, 1] if self.has_voltage else None)
 
     def close(self) -> None:
         pass

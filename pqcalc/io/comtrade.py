@@ -447,25 +447,31 @@ class ComtradeFile:
         names = ", ".join(f"{ch.index}:{ch.name}" for ch in chans)
         raise InputError(f"{self.cfg_path}: no analog channel {s!r}; available: {names}")
 
-    def chunks(self, channels: list[int], chunk: int = 1 << 16) -> Iterator[np.ndarray]:
-        """Blocks of primary SI samples of the given channels, shape (samples, channels)."""
+    def chunks(self, channels: list[int], chunk: int = 1 << 16,
+               scale: list[float] | None = None) -> Iterator[np.ndarray]:
+        """Blocks of primary SI samples of the given channels, shape (samples, channels),
+        each channel multiplied by ``scale`` (default 1)."""
         chans = [self.config.analog[k] for k in channels]
-        a = np.array([ch.a for ch in chans])
-        b = np.array([ch.b for ch in chans])
-        s = np.array([ch.to_primary_si for ch in chans])
+        extra = [1.0] * len(chans) if scale is None else list(scale)
+        gain = [ch.a * ch.to_primary_si * e for ch, e in zip(chans, extra, strict=True)]
+        off = [ch.b * ch.to_primary_si * e for ch, e in zip(chans, extra, strict=True)]
         missing = _MISSING.get(self.config.data_format)
         for blk in self._raw_chunks(chunk):
-            x = blk["a"][:, channels]
-            if missing is not None:
-                bad = x == missing
-            else:
-                bad = ~np.isfinite(x) if x.dtype.kind == "f" else None
-            if bad is not None and bad.any():
-                r, col = np.argwhere(bad)[0]
-                raise InputError(
-                    f"{self.dat_path}: sample {blk['first'] + r + 1}, channel "
-                    f"{chans[col].name!r}: missing or invalid value; expected a sample")
-            yield (x * a + b) * s
+            raw = blk["a"]
+            out = np.empty((len(chans), raw.shape[0]))  # one contiguous row per channel
+            for j, k in enumerate(channels):
+                x = raw[:, k]
+                bad = (x == missing) if missing is not None else (
+                    ~np.isfinite(x) if x.dtype.kind == "f" else None)
+                if bad is not None and bad.any():
+                    r = int(np.flatnonzero(bad)[0])
+                    raise InputError(
+                        f"{self.dat_path}: sample {blk['first'] + r + 1}, channel "
+                        f"{chans[j].name!r}: missing or invalid value; expected a sample")
+                np.multiply(x, gain[j], out=out[j])
+                if off[j]:
+                    out[j] += off[j]
+            yield out.T
 
     def read(self, channels: list[int]) -> np.ndarray:
         """All samples of the given channels [primary SI], shape (samples, channels)."""

@@ -5,7 +5,7 @@ of 10 fundamental cycles on 50 Hz systems and 12 on 60 Hz systems (about 200 ms)
 synchronised to the actual mains frequency, takes the DFT of each (5 Hz lines) and
 collects the lines into harmonic groups and subgroups. pqcalc does this:
 
-1. The frequency is first estimated on the opening second of the record
+1. The frequency is first estimated on the opening half second of the record
    (:func:`pqcalc.waveform.estimate_frequency`), then tracked window by window from the
    phase advance of the fundamental line of the reference channel (voltage when present).
 2. Each window spans ``round(cycles * fs / f)`` samples of the latest estimate; window starts
@@ -34,6 +34,7 @@ from collections.abc import Iterable, Iterator
 from dataclasses import dataclass, field
 
 import numpy as np
+from numpy.lib.stride_tricks import sliding_window_view
 
 from ..errors import InputError
 from ..waveform import estimate_frequency
@@ -174,27 +175,32 @@ class WindowBlock:
 
 # --------------------------------------------------------------------------- the kernel
 def _groups(P: np.ndarray, cycles: int, top: int) -> tuple[np.ndarray, np.ndarray]:
-    """Groups and subgroups [rms] from the line powers ``P`` (windows x lines)."""
+    """Groups and subgroups [rms] from the line powers ``P`` (windows x lines).
+
+    ``P`` needs lines 0..``top * cycles + cycles // 2``. With N = ``cycles`` (even), the
+    lines k - N/2 .. k + N/2 - 1 of order h (k = h N) form one block of a reshape; the
+    group is that block's sum less half its first line plus half the line at k + N/2.
+    """
     half = cycles // 2
-    cs = np.cumsum(P, axis=1)
+    m = P.shape[0]
+    blocks = P[:, half : half + top * cycles].reshape(m, top, cycles).sum(axis=2)
     k = np.arange(1, top + 1) * cycles
-    # sum over lines k-half+1 .. k+half-1, plus half of the two lines at k +- half
-    inner = cs[:, k + half - 1] - cs[:, k - half]
-    g2 = inner + 0.5 * (P[:, k - half] + P[:, k + half])
-    sg2 = cs[:, k + 1] - cs[:, k - 2]
-    groups = np.empty((P.shape[0], top + 1))
+    g2 = blocks - 0.5 * P[:, k - half] + 0.5 * P[:, k + half]
+    sg2 = P[:, k - 1] + P[:, k] + P[:, k + 1]
+    groups = np.empty((m, top + 1))
     sub = np.empty_like(groups)
     groups[:, 0] = sub[:, 0] = np.sqrt(P[:, 0])
-    groups[:, 1:] = np.sqrt(g2)
+    groups[:, 1:] = np.sqrt(np.maximum(g2, 0.0))
     sub[:, 1:] = np.sqrt(sg2)
     return groups, sub
 
 
-def _line_powers(X: np.ndarray, n: int) -> np.ndarray:
-    """Squared rms of each DFT line of a real window of n samples."""
-    P = (X.real**2 + X.imag**2) * (2.0 / (n * n))
+def _line_powers(X: np.ndarray, n: int, lines: int | None = None) -> np.ndarray:
+    """Squared rms of DFT lines 0..lines-1 of real windows of n samples."""
+    Xs = X if lines is None else X[:, :lines]
+    P = (Xs.real**2 + Xs.imag**2) * (2.0 / (n * n))
     P[:, 0] *= 0.5
-    if n % 2 == 0:
+    if n % 2 == 0 and P.shape[1] == n // 2 + 1:
         P[:, -1] *= 0.5
     return P
 
@@ -284,14 +290,14 @@ def iter_windows(
                 buf_v = np.concatenate(parts_v)
         return buf_i.size >= need
 
-    # --- first estimate on the opening second (at least 0.3 s if the record is short)
+    # --- first estimate on the opening half second (25 cycles); it only seeds the tracking
     refill(int(fs))
     ref0 = buf_v if has_v else buf_i
     if ref0.size < 2:
         raise InputError(f"{src}: no samples; expected a record of several cycles")
     if frequency_hz is None:
         try:
-            f_est = estimate_frequency(ref0[: int(fs)], fs, nominal_hz)
+            f_est = estimate_frequency(ref0[: int(0.5 * fs)], fs, nominal_hz)
         except InputError as e:
             raise InputError(f"{src}: {e}") from None
     else:
@@ -310,14 +316,11 @@ def iter_windows(
     pos = 0.0  # exact start of the next window, absolute samples
     last_phase: tuple[float, int] | None = None  # (fundamental phase, start) of last window
     smoother = _Smoother(smoothing_alpha(cycles / f_est)) if smoothing else None
-    ar = np.arange(n_win)
     windows_done = 0
     while True:
         # all windows that fit in the buffer with the current estimate
         step = cycles * fs / f_est
-        if n_win != int(round(step)):
-            n_win = int(round(step))
-            ar = np.arange(n_win)
+        n_win = int(round(step))
         avail_end = offset + buf_i.size
         if not exhausted:
             refill(int(pos - offset) + n_win + int(chunk_samples))
@@ -331,16 +334,17 @@ def iter_windows(
                 break
             continue
         starts = np.rint(pos + step * np.arange(m)).astype(np.int64)
-        idx = (starts - offset)[:, None] + ar
-        xi = buf_i[idx]
+        rel = starts - offset
+        xi = sliding_window_view(buf_i, n_win)[rel]  # rows copied whole (a gather)
         Xi = np.fft.rfft(xi, axis=1)
-        Pi = _line_powers(Xi, n_win)
+        lines = top * cycles + cycles // 2 + 1
+        Pi = _line_powers(Xi, n_win, lines)
         gi, sgi = _groups(Pi, cycles, top)
         i_rms = np.sqrt(np.einsum("ij,ij->i", xi, xi) / n_win)
         if has_v:
-            xv = buf_v[idx]
+            xv = sliding_window_view(buf_v, n_win)[rel]
             Xv = np.fft.rfft(xv, axis=1)
-            Pv = _line_powers(Xv, n_win)
+            Pv = _line_powers(Xv, n_win, lines)
             gv, sgv = _groups(Pv, cycles, top)
             v_rms = np.sqrt(np.einsum("ij,ij->i", xv, xv) / n_win)
             p = np.einsum("ij,ij->i", xv, xi) / n_win
