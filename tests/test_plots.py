@@ -417,7 +417,10 @@ def test_neutral_spectrum_triplens_add(balanced_cut90, cut90_spectrum):
         want = 3 * phase.i_h_a[h] if h % 3 == 0 else 0.0
         assert heights[h] == pytest.approx(want, abs=1e-9 + 1e-9 * want), h
         assert (hatches[h] is not None) == (h % 3 == 0)
-    assert plots.CAUTION in all_text(fig)
+    text = all_text(fig)
+    assert plots.CAUTION in text
+    # non-triplens cancel, so the triplen orders carry all of the neutral (orders 1..50)
+    assert "triplen orders 100.0 %" in text
     assert_nothing_clipped(fig)
     # the same from complex phasors (magnitudes are taken)
     fig2 = plots.neutral_spectrum_figure(spectrum(neutral).current_a, log=True)

@@ -352,7 +352,7 @@ def neutral_spectrum_figure(
         raise InputError(f"neutral spectrum: no orders between 1 and {max_order}")
     triplen = h % 3 == 0
     total = float(np.sqrt(np.sum(mags[orders >= 1] ** 2)))
-    trip = float(np.sqrt(np.sum(m[triplen] ** 2)))
+    trip = float(np.sqrt(np.sum(mags[(orders >= 1) & (orders % 3 == 0)] ** 2)))
     fig = new_figure()
     with _mpl().rc_context(STYLE):
         ax = fig.add_subplot()
