@@ -1,0 +1,406 @@
+"""The sections of the PDF submittal, each drawn onto a :class:`~.layout.Doc`."""
+
+from __future__ import annotations
+
+from collections.abc import Sequence
+from typing import TYPE_CHECKING
+
+import numpy as np
+
+from .layout import A4_IN, Col, Doc, fmt_num, fmt_pct
+from .lineup import LineupEntry, standards_applied
+
+if TYPE_CHECKING:  # pragma: no cover
+    from ..assess import Assessment, PanelResult, ScenarioResult
+
+__all__ = ["SECTION_TITLES", "cover", "summary", "lineup_section", "panels_section",
+           "assumptions", "standards_section", "cautions"]
+
+#: Section headings, in order (the tests look for them in the extracted text).
+SECTION_TITLES = ("Summary of findings", "Fixture lineup: IEC 61000-3-2 harmonic emission",
+                  "Panel results", "Assumptions and model parameters",
+                  "Standards and editions applied", "Cautions")
+
+_GREY = "#555555"
+_ORDER = {"fail": 0, "warn": 1, "info": 2, "pass": 3}
+
+
+def _nodes(s: ScenarioResult) -> tuple[PanelResult, ...]:
+    return tuple(s.panels) + tuple(s.feeders) + (s.transformer,)
+
+
+# ------------------------------------------------------------------------------ cover
+def cover(doc: Doc, a: Assessment, version: str, generated: str, n_lineup: int) -> None:
+    inst = a.installation
+    pj = inst.project
+    doc.new_page()
+    doc.y = A4_IN[1] - 2.2
+    doc.text(0.75, doc.y, "Power-quality assessment of a dimmed LED lighting installation",
+             size=11, color=_GREY)
+    doc.y -= 0.4
+    doc.para(pj.name or inst.path, size=22, weight="bold", gap_in=0.2)
+    rows = [("Project", pj.name or "-"), ("Site", pj.site or "-"),
+            ("Engineer", pj.engineer or "-"), ("Date", pj.date or "-"),
+            ("Installation file", inst.path or "-"),
+            ("Tool", f"pqcalc {version}"), ("Generated", generated)]
+    doc.y -= 0.3
+    for k, v in rows:
+        doc.text(0.75, doc.y, k, size=10, color=_GREY)
+        for j, line in enumerate(_wrap_cell(v, 70)):
+            doc.text(2.4, doc.y - j * 0.19, line, size=10)
+        doc.y -= 0.19 * len(_wrap_cell(v, 70)) + 0.08
+    s = inst.supply
+    doc.y -= 0.3
+    doc.para(f"Supply: {s.system}, {s.voltage_ln_v:g} V line-to-neutral, {s.frequency_hz:g} Hz; "
+             f"{inst.n_lamps} lamps in {len(inst.circuits)} circuits on {len(inst.panels)} "
+             f"panels; {len(a.scenarios)} scenarios "
+             f"({', '.join(sc.name for sc in a.scenarios)}).", size=10)
+    if pj.notes:
+        doc.para(pj.notes, size=10, color=_GREY)
+    doc.y -= 0.4
+    doc.text(0.75, doc.y, "Contents", size=12, weight="bold")
+    doc.y -= 0.3
+    for k, t in enumerate(SECTION_TITLES, 1):
+        doc.text(0.95, doc.y, f"{k}.  {t}", size=10)
+        doc.y -= 0.22
+    doc.y -= 0.4
+    doc.para("The figures in this report support, and never replace, the local electrical "
+             "code and the design of a licensed professional (see section 6, Cautions).",
+             size=9, color=_GREY)
+
+
+def _wrap_cell(s: str, n: int) -> list[str]:
+    from .layout import _wrap
+
+    return _wrap(s, n)
+
+
+# ---------------------------------------------------------------------------- summary
+def _findings(a: Assessment) -> list[tuple[str, str, str, str]]:
+    """(status, where, check, message + scenarios) of failed and warned checks, deduplicated
+    over scenarios, worst first."""
+    seen: dict[tuple, list[str]] = {}
+    msg: dict[tuple, str] = {}
+    for sc in a.scenarios:
+        items = [(f"circuit {c.id}", c.checks) for c in sc.circuits]
+        items += [(f"{p.kind} {p.id}", p.checks) for p in _nodes(sc)]
+        items.append(("installation", sc.checks))
+        for where, checks in items:
+            for c in checks:
+                if c.status not in ("fail", "warn"):
+                    continue
+                key = (c.status, where, c.name)
+                seen.setdefault(key, []).append(sc.name)
+                msg.setdefault(key, c.message)
+    out = []
+    for key, scen in seen.items():
+        which = "all scenarios" if len(scen) == len(a.scenarios) and len(scen) > 1 else \
+            ", ".join(scen)
+        out.append((key[0], key[1], key[2], f"{msg[key]} [{which}]"))
+    out.sort(key=lambda r: (_ORDER[r[0]], r[1], r[2]))
+    return out
+
+
+def summary(doc: Doc, a: Assessment, lineup: Sequence[LineupEntry], lineup_notes) -> None:
+    doc.heading(SECTION_TITLES[0], new_page=True)
+    n_fail = sum(c.status == "fail" for s in a.scenarios for c in s.all_checks())
+    n_warn = sum(c.status == "warn" for s in a.scenarios for c in s.all_checks())
+    verdict = "FAIL" if a.failed else "PASS"
+    doc.para(f"Installation checks: {verdict} - {n_fail} failed and {n_warn} warned checks over "
+             f"{len(a.scenarios)} scenarios. Design scenario (highest panel currents): "
+             f"{a.design.name}.", size=10, weight="bold")
+    if lineup:
+        bad = [e.fixture for e in lineup if e.verdict == "fail"]
+        doc.para(f"Fixture lineup, IEC 61000-3-2 Class C: {len(lineup) - len(bad)} of "
+                 f"{len(lineup)} fixture types pass in every state evaluated"
+                 + (f"; failing: {', '.join(bad)}." if bad else "."), size=10, weight="bold")
+    else:
+        doc.para("Fixture lineup: not evaluated (no lineup results were available).", size=10)
+    sc = a.design
+    rows = []
+    for p in _nodes(sc):
+        hi = max(r.i_rms_a for r in p.lines.values())
+        n = p.neutral
+        thdv = max(r.thd_v for r in p.lines.values())
+        worst = min((c.status for c in p.checks), key=lambda s: _ORDER[s], default="-")
+        rows.append((p.id, p.kind, fmt_num(hi), fmt_num(n.i_rms_a) if n else "-",
+                     fmt_num(n.ratio_to_max_phase) if n else "-",
+                     fmt_pct(n.triplen_share, ".0f") if n else "-",
+                     fmt_pct(thdv, ".2f") if p.kind == "panel" else "-",
+                     fmt_num(p.k_factor, ".1f"), worst))
+    doc.table([Col("node", 1.1), Col("kind", 0.9), Col("highest line [A]", 0.8, "right"),
+               Col("neutral [A]", 0.75, "right"), Col("N / line [-]", 0.7, "right"),
+               Col("triplen share of N [%]", 0.8, "right"),
+               Col("THDv [%]", 0.6, "right"), Col("K-factor [-]", 0.65, "right"),
+               Col("worst check", 0.7)], rows, status_col=8,
+              title=f"Currents in the design scenario ({sc.name})")
+    f = _findings(a)
+    limit = 16
+    doc.table([Col("status", 0.55), Col("where", 1.2), Col("check", 1.2),
+               Col("finding [scenarios]", 4.0, wrap=True)],
+              [(s.upper(), w, c, m) for s, w, c, m in f[:limit]], status_col=0,
+              title="Failed and warned checks")
+    if len(f) > limit:
+        doc.para(f"... and {len(f) - limit} more: see section 3, Panel results.", size=8,
+                 color=_GREY)
+    for note in lineup_notes:
+        doc.para(note, size=8, color=_GREY)
+
+
+# ----------------------------------------------------------------------------- lineup
+def _spectrum_fig(entry: LineupEntry):
+    from ..plots import spectrum_figure
+
+    st = entry.states[0]
+    dec = st.result.deciding
+    pct = dec is not None and all(c.unit == "fraction of I1" for c in dec.order_checks())
+    i1 = float(st.magnitudes_a[1])
+    lims = {h: (100 * v / i1 if pct else v) for h, v in st.limits_a.items()} if i1 > 0 else {}
+    label = f"IEC 61000-3-2 Class C, {st.result.rule}"
+    return spectrum_figure(st.magnitudes_a, limits=lims or None, unit="pct" if pct else "A",
+                           max_order=40, title=f"{entry.fixture}: {st.setting}",
+                           limits_label=label)
+
+
+def lineup_section(doc: Doc, lineup: Sequence[LineupEntry], notes: Sequence[str]) -> None:
+    doc.heading(SECTION_TITLES[1], new_page=True)
+    if not lineup:
+        doc.para("No fixture-lineup results were available for this installation.")
+        for n in notes:
+            doc.para(n, size=8, color=_GREY)
+        return
+    doc.para("Each fixture type at full output and, where evaluated, in dimmed states. The "
+             "rule is the one that decided the verdict (for 5 W to 25 W lighting: the first "
+             "of options a, b, c that passed, else the closest). Margin: the smallest "
+             "distance to a limit, relative to that limit (negative: over the limit).",
+             size=8.5, color=_GREY)
+    rows = []
+    for e in lineup:
+        for s in e.states:
+            r = s.result
+            dec = r.deciding
+            worst = "-"
+            if dec is not None and dec.checks:
+                c = min((c for c in dec.checks if c.limit and not c.disregarded),
+                        key=lambda c: c.margin / abs(c.limit), default=None)
+                if c is not None:
+                    worst = f"{c.quantity} {100 * c.margin / abs(c.limit):+.0f} %"
+            rows.append((e.fixture, s.setting, fmt_num(r.p_w, ".1f"), fmt_num(r.pf, ".3f"),
+                         r.rule, worst, r.verdict.upper()))
+    doc.table([Col("fixture type", 1.5), Col("state", 1.0), Col("P [W]", 0.55, "right"),
+               Col("lambda [-]", 0.6, "right"), Col("rule", 1.6, wrap=True),
+               Col("closest limit (margin)", 1.1), Col("verdict", 0.6)], rows, status_col=6,
+              title="Compliance table")
+    for n in notes:
+        doc.para(n, size=8, color=_GREY)
+    for e in lineup:
+        doc.heading(f"{e.fixture}" + (f": {e.description}" if e.description else ""), level=3)
+        doc.image(_spectrum_fig(e), width_in=6.0,
+                  caption="Bars: harmonic current of the state shown; black marks: the limit "
+                          "of the deciding rule per order; hatched bars exceed it.")
+
+
+# ----------------------------------------------------------------------------- panels
+def _node_rows(a: Assessment, node_id: str) -> list[tuple]:
+    rows = []
+    for sc in a.scenarios:
+        p = next(x for x in _nodes(sc) if x.id == node_id)
+        for ln, r in p.lines.items():
+            rows.append((sc.name, ln, fmt_num(r.i_rms_a), fmt_num(r.i1_a),
+                         fmt_pct(r.thd_i), fmt_num(r.pf), fmt_num(r.v_rms_v, ".1f"),
+                         fmt_pct(r.thd_v, ".2f"), ""))
+        if p.neutral is not None:
+            n = p.neutral
+            rows.append((sc.name, "N", fmt_num(n.i_rms_a), fmt_num(float(n.magnitudes_a[1])),
+                         "-", "-", "-", "-",
+                         f"N/line {n.ratio_to_max_phase:.2f}; triplen "
+                         f"{100 * n.triplen_share:.0f} %"))
+    return rows
+
+
+_NODE_COLS = [Col("scenario", 1.15), Col("cond.", 0.45), Col("I rms [A]", 0.65, "right"),
+              Col("I1 [A]", 0.6, "right"), Col("THDi [%]", 0.6, "right"),
+              Col("PF [-]", 0.5, "right"), Col("V [V]", 0.55, "right"),
+              Col("THDv [%]", 0.6, "right"), Col("neutral", 1.6)]
+
+
+def _checks_rows(a: Assessment, pick) -> list[tuple]:
+    rows = []
+    for sc in a.scenarios:
+        for where, checks in pick(sc):
+            for c in checks:
+                rows.append((c.status.upper(), sc.name, where, c.name, c.message))
+    rows.sort(key=lambda r: _ORDER[r[0].lower()])
+    return rows
+
+
+_CHECK_COLS = [Col("status", 0.5), Col("scenario", 1.0), Col("where", 0.8),
+               Col("check", 1.1), Col("message", 3.6, wrap=True)]
+
+
+def panels_section(doc: Doc, a: Assessment) -> None:
+    from ..plots import panel_figure
+
+    doc.heading(SECTION_TITLES[2], new_page=True)
+    doc.para("Phase (line) and neutral currents are rms over orders 0..50; THD over orders "
+             "2..40; THDv is the line-to-neutral voltage distortion at the panel, from the "
+             "drops over the source and feeder impedances.", size=8.5, color=_GREY)
+    inst = a.installation
+    for k, pan in enumerate(inst.panels):
+        if k:
+            doc.new_page()
+        fdr = f", fed by {pan.feeder}" if pan.feeder else ""
+        doc.heading(f"Panel {pan.id}{fdr}", level=2)
+        doc.table(_NODE_COLS, _node_rows(a, pan.id), title="Phase and neutral currents")
+        p = next(x for x in a.design.panels if x.id == pan.id)
+        if p.neutral is not None:
+            cur = {ln: r.i_rms_a for ln, r in p.lines.items()}
+            cur["N"] = p.neutral.i_rms_a
+            doc.image(panel_figure(cur, p.neutral.triplen_share,
+                                   title=f"Panel {pan.id}: {a.design.name}"), width_in=4.6)
+        crow = []
+        for sc in a.scenarios:
+            for c in sc.circuits:
+                if c.panel != pan.id:
+                    continue
+                st = "-" if c.setting_deg is None else f"{c.setting_deg:.0f} deg"
+                if c.knob is not None:
+                    st = f"knob {c.knob:.2f}"
+                bad = [x for x in c.checks if x.status in ("fail", "warn")]
+                flags = ", ".join(list(c.flags) + [f"{x.status} {x.name}" for x in bad]) or "ok"
+                crow.append((c.id, c.phase, sc.name, st, fmt_num(c.i_rms_a),
+                             fmt_pct(c.thd_i), fmt_num(c.pf), fmt_num(c.p_w, ".0f"), flags))
+        doc.table([Col("circuit", 0.75), Col("line", 0.4), Col("scenario", 1.1),
+                   Col("setting", 0.7), Col("I rms [A]", 0.6, "right"),
+                   Col("THDi [%]", 0.6, "right"), Col("PF [-]", 0.45, "right"),
+                   Col("P [W]", 0.5, "right"), Col("flags and checks", 1.7, wrap=True)],
+                  crow, title="Circuits")
+        doc.table(_CHECK_COLS, _checks_rows(a, lambda sc, pid=pan.id: [
+            ("panel", next(x for x in sc.panels if x.id == pid).checks)]), status_col=0,
+                  title="Panel checks")
+    doc.new_page()
+    doc.heading("Feeders and the service", level=2)
+    for f in inst.feeders:
+        doc.table(_NODE_COLS, _node_rows(a, f), title=f"Feeder {f}")
+    doc.table(_NODE_COLS, _node_rows(a, a.design.transformer.id),
+              title="Service (transformer secondary)")
+    doc.table(_CHECK_COLS, _checks_rows(a, lambda sc: [
+        ("service", sc.transformer.checks)] + [(f.id, f.checks) for f in sc.feeders] + [
+        ("installation", sc.checks)]), status_col=0, title="Service and installation checks")
+
+
+# ------------------------------------------------------------------------ assumptions
+def assumptions(doc: Doc, a: Assessment, version: str) -> None:
+    inst = a.installation
+    s = inst.supply
+    z = s.impedance
+    doc.heading(SECTION_TITLES[3], new_page=True)
+    rows = [("system", s.system), ("line-to-neutral voltage", f"{s.voltage_ln_v:g} V"),
+            ("frequency", f"{s.frequency_hz:g} Hz"),
+            ("source impedance per line", f"{z.r_ohm * 1e3:.2f} mohm + {z.l_h * 1e6:.1f} uH "
+                                          f"(from: {s.impedance_basis})"),
+            ("neutral impedance", f"{z.neutral_r_ohm * 1e3:.2f} mohm + "
+                                  f"{z.neutral_l_h * 1e6:.1f} uH"),
+            ("prospective short-circuit current", f"{fmt_num(s.short_circuit_a, '.0f')} A")]
+    if s.transformer_kva is not None:
+        rows.append(("transformer", f"{s.transformer_kva:g} kVA, eddy-loss factor "
+                                    f"{s.eddy_loss_pu:g} pu, rated {s.rated_current_a:.0f} A"))
+    for fid, f in inst.feeders.items():
+        fi = f.impedance
+        rows.append((f"feeder {fid}", f"{fi.r_ohm * 1e3:.1f} mohm + {fi.l_h * 1e6:.1f} uH per "
+                                      f"line; neutral {fi.neutral_r_ohm * 1e3:.1f} mohm"))
+    an = inst.analysis
+    rows += [("supply interaction", ("re-solved under the distorted panel voltage, tolerance "
+                                     f"{100 * an.tolerance:g} %, at most {an.max_iterations} "
+                                     "iterations") if an.supply_interaction else "off (stiff)"),
+             ("harmonic orders", "0..50 per circuit and node; THD over 2..40"),
+             ("diversity", (a.diversity or {}).get("method", inst.diversity.mode)),
+             ("distinct circuit solves", str(a.solves)), ("pqcalc", version)]
+    if inst.pcc:
+        rows.append(("point of common coupling", ", ".join(f"{k} = {v}" for k, v in
+                                                           sorted(inst.pcc.items()))))
+    doc.table([Col("item", 2.0), Col("value", 4.8, wrap=True)], rows, title="Supply and analysis")
+    frows = []
+    for fid, f in inst.fixtures.items():
+        if f.measured:
+            kind = f"measured: {f.capture}"
+        else:
+            kind = f"model {f.model}"
+        params = ", ".join(f"{k} = {v:g}" for k, v in f.params) or "model defaults"
+        if f.measured:
+            params = "as recorded"
+        frows.append((fid, kind, fmt_num(f.power_w, "g"),
+                      f"{f.min_conduction_deg:g}..{f.max_conduction_deg:g}", params,
+                      f.description))
+    doc.table([Col("fixture type", 1.3), Col("source", 1.6, wrap=True), Col("P [W]", 0.5, "right"),
+               Col("conduction [deg]", 0.8), Col("parameters (SI)", 1.5, wrap=True),
+               Col("description", 1.4, wrap=True)], frows, title="Fixture types")
+    drows = []
+    for c in inst.circuits:
+        sett = ("knob " + "/".join(f"{k:g}" for k in c.knob)) if c.knob else \
+            "/".join(f"{x:g}" for x in c.conduction_deg) + " deg"
+        if c.dimmer == "none":
+            sett = "-"
+        dp = ", ".join(f"{k} = {v:g}" for k, v in c.dimmer_params)
+        drows.append((c.id, c.panel, c.phase, f"{c.breaker_a:g} A {c.breaker_curve}",
+                      c.dimmer, sett, fmt_num(c.dimmer_rating_w, "g"), dp or "-",
+                      ", ".join(f"{g.count} x {g.fixture}" for g in c.groups)))
+    doc.table([Col("circuit", 0.7), Col("panel", 0.7), Col("line", 0.35), Col("breaker", 0.6),
+               Col("dimmer", 0.9), Col("settings", 1.0, wrap=True),
+               Col("rating [W]", 0.55, "right"), Col("dimmer parameters", 0.9, wrap=True),
+               Col("fixtures", 1.3, wrap=True)], drows, title="Circuits and dimmers")
+    notes = list(dict.fromkeys(n for sc in a.scenarios for c in sc.circuits for n in c.notes))
+    if notes:
+        doc.heading("Notes from the calculation", level=3)
+        doc.bullets(notes, size=8)
+
+
+# -------------------------------------------------------------------------- standards
+def standards_section(doc: Doc, a: Assessment, lineup: Sequence[LineupEntry]) -> None:
+    doc.heading(SECTION_TITLES[4], new_page=True)
+    doc.para("Every rule source the checks and the lineup cite, as cited (standard, edition, "
+             "table or clause). Where a rule rests on memory rather than a text seen, the "
+             "cautions say so.", size=8.5, color=_GREY)
+    doc.table([Col("standard, edition, table or clause", 4.2, wrap=True),
+               Col("used for", 2.6, wrap=True)], standards_applied(a, lineup),
+              title="Sources applied")
+    from ..standards import load_limits
+
+    rows = []
+    keys = ["iec61000-3-2:class-c", "iec61000-3-2:class-c:5-25w", "iec61000-3-2:class-d"]
+    ed = {str(c.details.get("edition")) for sc in a.scenarios for c in sc.checks
+          if c.name == "IEEE 519 at the PCC" and c.details}
+    keys += [f"ieee519:{e}:current" for e in sorted(ed) if e and e != "None"]
+    for k in keys:
+        try:
+            src = load_limits(k).source
+        except Exception:  # a table that is not shipped is simply not listed
+            continue
+        rows.append((src.standard, src.edition, src.table, src.certainty))
+    doc.table([Col("standard", 1.3), Col("edition", 2.0, wrap=True),
+               Col("table or clause", 2.6, wrap=True), Col("values", 0.9)], rows,
+              title="Limit tables shipped with pqcalc and used here")
+
+
+def cautions(doc: Doc, a: Assessment, lineup: Sequence[LineupEntry]) -> None:
+    from ..plotting.style import CAUTION as FIG_CAUTION
+    from ..standards import CAUTION as STD_CAUTION
+    from ..standards import DIMMED_RULE_NOTE
+
+    doc.heading(SECTION_TITLES[5], new_page=doc.y < 4.0)
+    items = [a.caution, STD_CAUTION, FIG_CAUTION,
+             "The currents are computed from circuit models with typical component values, "
+             "or from captures used at their recorded conditions; measure the installed "
+             "fixtures before relying on a margin that is small.",
+             "Neutral and transformer figures assume line-to-neutral loads on the panel as "
+             "modelled; loads not in the installation file are not included."]
+    lnotes = list(dict.fromkeys(n for e in lineup for s in e.states for n in s.result.notes))
+    if lineup and DIMMED_RULE_NOTE not in lnotes and any(len(e.states) > 1 for e in lineup):
+        lnotes.append(DIMMED_RULE_NOTE)
+    doc.bullets(items, size=9)
+    if lnotes:
+        doc.heading("Notes on the compliance rules", level=3)
+        doc.bullets(lnotes, size=8.5)
+    if np.isfinite(a.installation.supply.short_circuit_a):
+        return
+    doc.para("No source impedance was given: the supply was taken as stiff.", size=8.5)
