@@ -196,3 +196,23 @@ def test_config_1991_without_revision():
     c = parse_config("st,dev\n1,1A,0D\n1,I,,,A,1,0,0,-32767,32767\n60\n1\n3840,100\n"
                      "01/01/1995,00:00:00.000000\n01/01/1995,00:00:00.000000\nASCII\n")
     assert c.rev_year == 1991 and c.analog[0].name == "I" and c.rates == ((3840.0, 100),)
+
+
+@pytest.mark.parametrize(
+    "rev,ft", [(1999, "ASCII"), (1999, "BINARY"), (2013, "BINARY32"), (2013, "FLOAT32")]
+)
+def test_agrees_with_an_independent_reader(tmp_path, rev, ft):
+    # The 'comtrade' package of the Python package index (an independent implementation of
+    # C37.111) reads the same files to the same values. It converts in single precision,
+    # hence 1e-7 of full scale (float32 has a 6e-8 relative step).
+    ext = pytest.importorskip("comtrade")
+    i, v = _signals()
+    cfg = tmp_path / f"x_{rev}_{ft}.cfg"
+    write_comtrade(cfg, {"IL1": ("A", i), "UL1": ("V", v)}, FS, rev, ft, n_digital=2)
+    ours = read_comtrade(cfg)
+    theirs = ext.load(str(cfg), str(cfg.with_suffix(".dat")))
+    assert theirs.cfg.sample_rates[0][0] == ours.sample_rate_hz
+    np.testing.assert_allclose(np.asarray(theirs.analog[0]), ours.current_a, rtol=0,
+                               atol=1e-7 * np.max(np.abs(i)))
+    np.testing.assert_allclose(np.asarray(theirs.analog[1]), ours.voltage_v, rtol=0,
+                               atol=1e-7 * np.max(np.abs(v)))

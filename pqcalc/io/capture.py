@@ -184,6 +184,14 @@ class CsvStream:
             raise InputError(f"{p}: looks like a binary file; expected delimited text")
         self.path, self.options, self.source = p, o, str(p)
         self._fh = open(p, encoding=self._encoding, errors="replace", newline="")
+        try:
+            self._open(first_block)
+        except BaseException:
+            self._fh.close()
+            raise
+
+    def _open(self, first_block: int) -> None:
+        o, p = self.options, self.path
         self._line_no = 0
         self._lines = self._numbered_lines()
         first_rows = []
@@ -192,7 +200,6 @@ class CsvStream:
             if len(first_rows) >= 50:
                 break
         if not first_rows:
-            self._fh.close()
             raise InputError(f"{p}: no numeric rows; expected samples (and an optional header)")
         delim = o.delimiter or _sniff_delimiter("\n".join(t for _, t in first_rows))
         if o.decimal == "," and delim == ",":
@@ -243,6 +250,7 @@ class CsvStream:
         if self._first is None:
             raise InputError(f"{p}: no numeric rows; expected samples after the header")
         t0 = self._first_t
+        self.t_first_s = None if t0 is None else float(t0[0])
         if ti is not None:
             if t0.size < 2:
                 raise InputError(f"{p}: one sample only; expected a record of several cycles")
@@ -439,7 +447,7 @@ def read_csv(path: str | os.PathLike, options: CsvOptions | None = None) -> RawR
     """
     st = CsvStream(path, options)
     cur, vol = [], []
-    t_first = st._first_t[0] if st._first_t is not None else None
+    t_first = st.t_first_s
     for c, v in st.chunks(1 << 18):
         cur.append(c)
         if v is not None:
