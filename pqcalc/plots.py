@@ -3,9 +3,13 @@
 Every function here is pure and data-first: it takes plain numbers (arrays, mappings, a
 :class:`~pqcalc.spectrum.Spectrum` or :class:`~pqcalc.waveform.Waveform`) and returns a
 :class:`matplotlib.figure.Figure` built with the object-oriented API. Nothing touches the
-pyplot state machine or opens a window, so the module works on any backend, in threads and
-on servers. :func:`save_figure` writes PNG, SVG or PDF, chosen by the file suffix, through a
-temporary file and a rename (never a half-written file).
+pyplot state machine or opens a window, so the module works on any backend and on servers.
+:func:`save_figure` writes PNG, SVG or PDF, chosen by the file suffix, through a temporary
+file and a rename (never a half-written file); use it rather than ``Figure.savefig``, since
+it applies the house style while rendering too (hatch widths and font embedding are read at
+render time). The style goes through :func:`matplotlib.rc_context`, which sets matplotlib's
+global parameters for its duration: build figures in one thread at a time (dask workers in
+separate processes are fine).
 
 The look is one house style, :data:`STYLE`, applied through :func:`matplotlib.rc_context`
 while a figure is built and while it is saved: sized for the text width of an A4 or letter

@@ -178,6 +178,11 @@ def test_spectrum_accepts_plain_magnitudes_and_dataarray():
     for f in (f1, f2):
         assert bar_hatches(f.axes[0]) == {2: None, 3: "////", 4: None, 5: None}
     assert bar_hatches(f3.axes[0]) == {3: "////", 5: None}
+    legend = [t.get_text() for t in f1.legends[0].get_texts()]
+    assert legend == ["within limit", "no limit for the order", "over limit", "limit"]
+    # only the categories present are named: every limited order over, no unlimited order
+    f4 = plots.spectrum_figure({1: 2.0, 3: 0.6}, {3: 0.5}, max_order=3, min_order=3)
+    assert [t.get_text() for t in f4.legends[0].get_texts()] == ["over limit", "limit"]
     # THD over 2..5 = sqrt(0.6^2 + 0.1^2) / 2 = 30.41 % (closed form), printed in the title
     assert "30.4 %" in f1.axes[0].get_title(loc="left")
 

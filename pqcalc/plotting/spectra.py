@@ -223,7 +223,7 @@ def spectrum_figure(
     log: bool = False,
     max_order: int = 40,
     title: str | None = None,
-    limits_label: str = "limit",
+    limits_label: str | None = None,
     min_order: int = 2,
     disregarded: Collection[int] = (),
 ) -> Figure:
@@ -294,8 +294,10 @@ def spectrum_figure(
             b.set_gid(f"order-{hh}")
             if o:
                 b.set_hatch("////")
-        handles = [_mpl().Patch(facecolor=LIGHT, edgecolor=INK, linewidth=0.5,
-                                label="within limit" if lims else "harmonic current")]
+        handles = []
+        if not lims or (limited & ~over).any():
+            handles.append(_mpl().Patch(facecolor=LIGHT, edgecolor=INK, linewidth=0.5,
+                                        label="within limit" if lims else "harmonic current"))
         if lims:
             if not limited.all():
                 handles.append(_mpl().Patch(facecolor="white", edgecolor=INK, linewidth=0.5,
@@ -303,7 +305,8 @@ def spectrum_figure(
             if over.any():
                 handles.append(_mpl().Patch(facecolor=DARK, edgecolor=INK, hatch="////",
                                             linewidth=0.5, label="over limit"))
-            mark = _draw_limit_marks(ax, h, lims, width, f"limit: {limits_label}")
+            mark = _draw_limit_marks(ax, h, lims, width,
+                                     f"limit: {limits_label}" if limits_label else "limit")
             if mark is not None:
                 handles.append(mark)
         if not log:
