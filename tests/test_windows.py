@@ -182,3 +182,33 @@ def test_shorter_than_a_window():
     i, _ = tones(fs, 0.15, [(50, 1.0, 0)])
     with pytest.raises(InputError, match="10-cycle window"):
         analyze_windows(blocks_from_arrays(i, fs, source="short.csv"))
+
+
+@pytest.mark.parametrize("cycles,f", [(10, 50.0), (12, 60.0)])
+def test_batched_groups_equal_single_window_function(cycles, f):
+    # The streaming kernel and pqcalc.spectrum.harmonic_groups both implement eq. 8/9 of
+    # IEC 61000-4-7; on a noisy window they must agree to round-off.
+    from pqcalc.spectrum import harmonic_groups
+
+    fs = 128 * f
+    rng = np.random.default_rng(11)
+    x = rng.normal(size=cycles * 128) + np.sin(2 * np.pi * np.arange(cycles * 128) / 128)
+    b = next(iter_windows(blocks_from_arrays(x, fs), nominal_hz=f, frequency_hz=f))
+    for kind, got in (("group", b.i_group_a[0]), ("subgroup", b.i_subgroup_a[0])):
+        want = harmonic_groups(x, cycles, kind, max_order=got.size - 1)
+        np.testing.assert_allclose(got[1:], want[1:], rtol=1e-10)
+
+
+def test_current_only_dimmed_lamp_is_tracked():
+    # No voltage: the frequency is tracked on the current's own fundamental line. A
+    # phase-cut resistive current (conduction from 90 deg to 180 deg each half cycle) at
+    # 50.04 Hz; its I3/I1 = 53.70 % (Fourier series of the phase-controlled sine, textbook
+    # AC voltage controller) must come out of every window within 0.1 % of I1.
+    fs, f = 10000.0, 50.04
+    t = np.arange(int(4 * fs)) / fs
+    ph = (2 * np.pi * f * t) % np.pi
+    i = np.where(ph >= np.pi / 2, np.sin(2 * np.pi * f * t), 0.0)
+    w = analyze_windows(blocks_from_arrays(i, fs), chunk_samples=9000).windows
+    assert np.max(np.abs(w.frequency_hz - f)) < 0.01
+    ratio = w.i_group_a[:, 3] / w.i_group_a[:, 1]
+    assert np.max(np.abs(ratio - 0.5370)) < 1e-3
