@@ -1,0 +1,272 @@
+"""Phase-cut dimmers: the switch between the line and the lamps, and its firing logic.
+
+- **leading edge, triac**: fired by an RC timing network and a bidirectional trigger diode
+  (breakover about 32 V, breakback a few volts; common practice) when the setting is a knob
+  position, or by an ideal trigger at ``180 - conduction_deg`` when the setting is an angle.
+  The triac conducts during the gate pulse; it stays on only if its current has reached the
+  latching current by the pulse's end, and turns off when its current falls below the
+  holding current. With both currents 0 it is an ideal switch that opens at current zero.
+  A snubber and the dimmer's own supply (a two-wire electronic dimmer draws it through the
+  load while off) leak current into the lamps.
+- **leading edge, transistor**: conducts from the firing angle to the zero crossing.
+- **trailing edge** (transistor): conducts from the zero crossing to the set angle, then
+  turns off along a ramp (``turn_off_s``; the switch conductance falls in three steps).
+- **none**: the line straight to the lamps.
+
+Misfires, re-firing within a half cycle, asymmetric half cycles and firing every few half
+cycles come out of the simulation (:mod:`pqcalc.circuits.pwl`), they are not assumed.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+
+from ..errors import InputError
+from .network import Network
+from .pwl import Automaton
+from .spec import DimmerSpec, Supply
+
+__all__ = ["dimmer_params", "resolve_dimmer", "build_dimmer", "conduction_from_knob"]
+
+SWITCH = "dim.S"
+
+
+def dimmer_params(spec_kind: str, switch: str, supply: Supply) -> list[dict]:
+    """Names, units, meaning and defaults of a dimmer's components."""
+    v, f = supply.v_rms_v, supply.frequency_hz
+    common = [
+        ("r_on_ohm", "ohm", "on-state resistance of the switch", 0.05),
+        ("r_off_ohm", "ohm", "off-state resistance of the switch", 1e8),
+    ]
+    if spec_kind == "none":
+        return [dict(name=n, unit=u, doc=d, default=x) for n, u, d, x in common[:1]]
+    if spec_kind == "leading-edge" and switch == "triac":
+        rows = common + [
+            ("holding_current_a", "A", "triac holding current (common practice ~50 mA)", 0.05),
+            ("latching_current_a", "A", "triac latching current", 0.07),
+            ("gate_pulse_s", "s", "trigger pulse length", 20e-6),
+            ("breakover_v", "V", "trigger diode breakover voltage", 32.0),
+            ("breakback_v", "V", "trigger diode voltage drop on firing", 8.0),
+            ("c_timing_f", "F", "timing capacitor", 100e-9),
+            ("r_min_ohm", "ohm", "fixed timing resistance (knob at 1)", 3.3e3),
+            ("r_pot_ohm", "ohm", "potentiometer (knob at 0 adds all of it)",
+             250e3 * (v / 230.0) * (50.0 / f)),
+            ("c_snubber_f", "F", "snubber capacitor across the triac", 47e-9),
+            ("r_snubber_ohm", "ohm", "snubber resistor", 100.0),
+            ("r_supply_ohm", "ohm", "the dimmer's own supply drawn through the load", 330e3),
+        ]
+    else:
+        rows = common + [
+            ("min_conduction_deg", "deg", "conduction angle at knob 0", 20.0),
+            ("max_conduction_deg", "deg", "conduction angle at knob 1", 170.0),
+            ("r_supply_ohm", "ohm", "the dimmer's own supply drawn through the load (0: none)",
+             0.0),
+        ]
+        if spec_kind == "trailing-edge":
+            rows.append(("turn_off_s", "s", "turn-off ramp of the transistor", 20e-6))
+    return [dict(name=n, unit=u, doc=d, default=x) for n, u, d, x in rows]
+
+
+def resolve_dimmer(spec: DimmerSpec, supply: Supply) -> dict:
+    rows = dimmer_params(spec.kind, spec.switch, supply)
+    names = [r["name"] for r in rows]
+    given = spec.param_dict()
+    for k in given:
+        if k not in names:
+            raise InputError(f"dimmer {spec.kind}: unknown parameter {k!r}; expected one of "
+                             f"{', '.join(names)}")
+    out = {}
+    zero_ok = {"holding_current_a", "latching_current_a", "breakback_v", "r_supply_ohm",
+               "turn_off_s", "min_conduction_deg", "c_snubber_f"}
+    for r in rows:
+        val = float(given.get(r["name"], r["default"]))
+        if not np.isfinite(val) or val < 0 or (val == 0 and r["name"] not in zero_ok):
+            raise InputError(f"dimmer {r['name']}: expected a value "
+                             f"{'>= 0' if r['name'] in zero_ok else '> 0'} [{r['unit']}], got "
+                             f"{val:g}")
+        out[r["name"]] = val
+    if "max_conduction_deg" in out:
+        if not out["min_conduction_deg"] < out["max_conduction_deg"] <= 180:
+            raise InputError("dimmer max_conduction_deg: expected above min_conduction_deg and "
+                             "at most 180")
+    return out
+
+
+def conduction_from_knob(spec: DimmerSpec, p: dict) -> float | None:
+    """Set conduction angle [deg] of a transistor dimmer; None for a triac on its knob."""
+    if spec.conduction_deg is not None:
+        return spec.conduction_deg
+    if spec.kind == "none":
+        return 180.0
+    if spec.uses_triac:
+        return None
+    lo, hi = p["min_conduction_deg"], p["max_conduction_deg"]
+    return lo + spec.knob * (hi - lo)
+
+
+class WindowSwitch(Automaton):
+    """Transistor dimmer: on over a fixed window of each half cycle (index 0 off, 1 on,
+    2.. the steps of the turn-off ramp)."""
+
+    def __init__(self, half_s: float, on_s: float, off_s: float, ramp_s: float,
+                 n_ramp: int) -> None:
+        self.H, self.a, self.b = half_s, on_s, off_s
+        self.ramp, self.nr = ramp_s, n_ramp
+        self.edges = [(self.a, 1)]
+        if n_ramp:
+            for k in range(n_ramp):
+                self.edges.append((self.b + k * ramp_s / n_ramp, 2 + k))
+            self.edges.append((self.b + ramp_s, 0))
+        else:
+            self.edges.append((self.b, 0))
+        self.always = None
+        if self.b - self.a >= half_s - 1e-12:
+            self.always = 1
+        elif self.b <= self.a:
+            self.always = 0
+        self.initial = self.state_at(0.0)
+
+    def state_at(self, t):
+        if self.always is not None:
+            return self.always
+        tau = t % self.H
+        s = 0
+        for te, st in self.edges:
+            if tau >= te - 1e-15:
+                s = st
+        return s if tau < self.edges[-1][0] else 0
+
+    def switches(self, s):
+        return {SWITCH: int(s)}
+
+    def next_time(self, s, t):
+        if self.always is not None:
+            return np.inf, None
+        k = np.floor(t / self.H)
+        best = np.inf, None
+        for kk in (k, k + 1):
+            for te, st in self.edges:
+                tt = kk * self.H + te
+                if tt > t + 1e-13 and tt < best[0]:
+                    best = tt, st
+        return best
+
+    def fire(self, tag, s, t, x, value):
+        return tag, x
+
+
+class Triac(Automaton):
+    """Triac with latching and holding, fired by the RC network's trigger diode or by an
+    ideal trigger at a fixed angle. States: ``("off",)``, ``("gate", t_end, sign)``,
+    ``("on", sign)``."""
+
+    def __init__(self, p: dict, half_s: float, fire_s: float | None, ct_state: int | None,
+                 n_x: int, n_u: int, i_row_fn, v_row_fn) -> None:
+        self.p = p
+        self.H = half_s
+        self.fire_at = fire_s
+        self.j = ct_state
+        self.n = n_x + n_u
+        self.nx = n_x
+        self.i_row = i_row_fn
+        self.v_row = v_row_fn
+        self.initial = ("off",)
+
+    def switches(self, s):
+        return {SWITCH: 0 if s[0] == "off" else 1}
+
+    def guards(self, s, net, ms):
+        if s[0] == "on":
+            row = -s[1] * self.i_row(ms)
+            return [(row, -self.p["holding_current_a"], "release")]
+        if s[0] == "off" and self.j is not None:
+            r = np.zeros(self.n)
+            r[self.j] = 1.0
+            vbo = self.p["breakover_v"]
+            return [(r, vbo, "fire+"), (-r, vbo, "fire-")]
+        return []
+
+    def next_time(self, s, t):
+        if s[0] == "gate":
+            return s[1], "gate-end"
+        if s[0] == "off" and self.fire_at is not None:
+            k = np.floor(t / self.H)
+            for kk in (k, k + 1):
+                tt = kk * self.H + self.fire_at
+                if tt > t + 1e-13:
+                    return tt, "fire"
+        return np.inf, None
+
+    def fire(self, tag, s, t, x, value):
+        p = self.p
+        if tag in ("fire+", "fire-", "fire"):
+            if s[0] != "off":
+                return s, x
+            if tag == "fire":
+                sign = 1.0 if (t % (2 * self.H)) < self.H else -1.0
+            else:
+                sign = 1.0 if tag == "fire+" else -1.0
+                x = x.copy()
+                x[self.j] -= sign * p["breakback_v"]
+            return ("gate", t + p["gate_pulse_s"], sign), x
+        if tag == "gate-end":
+            i = value(self.i_row)
+            if abs(i) >= p["latching_current_a"]:
+                return ("on", 1.0 if i >= 0 else -1.0), x
+            return ("off",), x
+        if tag == "release":
+            return ("off",), x
+        return s, x
+
+
+def build_dimmer(net: Network, spec: DimmerSpec, p: dict, supply: Supply, din: str,
+                 dout: str):
+    """Add the dimmer's elements between ``din`` (line) and ``dout`` (to the lamps).
+
+    Returns a function that makes the automaton once the network is final.
+    """
+    ron, goff = p["r_on_ohm"], 1.0 / p.get("r_off_ohm", 1e8)
+    half = 0.5 / supply.frequency_hz
+    if spec.kind == "none":
+        net.G(SWITCH, din, dout, [(goff, 0.0), (1.0 / ron, 0.0)])
+        return lambda: WindowSwitch(half, 0.0, half, 0.0, 0)
+    nr = 3
+    if spec.kind == "trailing-edge":
+        ramp = p["turn_off_s"]
+        g_on = 1.0 / ron
+        steps = [(g_on * (goff / g_on) ** ((k + 1) / (nr + 1)), 0.0) for k in range(nr)]
+        net.G(SWITCH, din, dout, [(goff, 0.0), (g_on, 0.0)] + (steps if ramp > 0 else []))
+    else:
+        net.G(SWITCH, din, dout, [(goff, 0.0), (1.0 / ron, 0.0)])
+    if p.get("r_supply_ohm", 0.0) > 0:
+        net.R("dim.R_supply", din, dout, p["r_supply_ohm"])
+    cond = conduction_from_knob(spec, p)
+    if spec.kind == "trailing-edge":
+        b = cond / 180.0 * half
+        ramp = p["turn_off_s"]
+        return lambda: WindowSwitch(half, 0.0, b, ramp, nr if ramp > 0 else 0)
+    if not spec.uses_triac:
+        a = (180.0 - cond) / 180.0 * half
+        return lambda: WindowSwitch(half, a, half, 0.0, 0)
+    # triac
+    if p["c_snubber_f"] > 0:
+        net.R("dim.R_snubber", din, "dim.sn", p["r_snubber_ohm"])
+        net.C("dim.C_snubber", "dim.sn", dout, p["c_snubber_f"])
+    fire_s = None
+    if spec.knob is not None:
+        r_t = p["r_min_ohm"] + (1.0 - spec.knob) * p["r_pot_ohm"]
+        net.R("dim.R_timing", din, "dim.gt", r_t)
+        net.C("dim.C_timing", "dim.gt", dout, p["c_timing_f"])
+    else:
+        fire_s = (180.0 - cond) / 180.0 * half
+        if cond <= 0:
+            fire_s = None
+
+    def make():
+        ct = net.state_of.get("dim.C_timing")
+        idx = net.index[SWITCH]
+        tr = Triac(p, half, fire_s, ct, net.n_x, net.n_u,
+                   lambda ms: ms.Q[idx], lambda ms: ms.Q[net.n_e + idx])
+        return tr
+
+    return make

@@ -1,0 +1,425 @@
+"""LED driver front ends (and the filament reference) as circuits of named components.
+
+Each model has typical component values that scale with the rated input power and the
+supply (every one overridable by name, units in the name), and a builder that adds its
+elements to a :class:`~pqcalc.circuits.network.Network` for ``m`` identical lamps in
+parallel (admittances times ``m``: the state count does not grow with the lamp count).
+
+Models (ids are stable): ``resistive``, ``dropper``, ``bulk-cap``, ``sine-follow``, ``pfc``,
+``pwm-detect``. Defaults are typical values of the trade (common practice), not any product.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+from typing import Callable, Literal, get_args
+
+import numpy as np
+
+from ..errors import InputError
+from .network import Network
+from .pwl import Automaton
+
+__all__ = ["MODELS", "ModelId", "ParamSpec", "model_params", "resolve_params", "GroupBuild",
+           "build_group", "DIODE_V_ON_V", "DIODE_R_ON_OHM", "G_OFF_S", "dim_fraction"]
+
+ModelId = Literal["resistive", "dropper", "bulk-cap", "sine-follow", "pfc", "pwm-detect"]
+MODELS: tuple[str, ...] = get_args(ModelId)
+
+#: rectifier diode, piecewise linear: forward threshold [V], on resistance [ohm], off
+#: conductance [S] (a small-signal fit of a 1 A silicon rectifier; common practice)
+DIODE_V_ON_V = 0.65
+DIODE_R_ON_OHM = 0.08
+G_OFF_S = 1e-9
+
+
+@dataclass(frozen=True)
+class ParamSpec:
+    """One component value of a model: name with unit, meaning, default rule."""
+
+    name: str
+    unit: str
+    doc: str
+    default: Callable[[float, float, float], float | None]  # (power_w, v_rms_v, f_hz)
+    zero_ok: bool = False
+
+    def value(self, p, v, f):
+        return self.default(p, v, f)
+
+
+def _vpk(v):
+    return np.sqrt(2) * v
+
+
+def _dropper_c(p, v, f):
+    vs = 0.6 * _vpk(v)
+    return p / (4 * f * vs * (_vpk(v) - vs))  # average current 4 f C (Vpk - Vs)
+
+
+def _sine_follow_imax(p, v, f, n=3, vseg_frac=0.8):
+    """Top regulator current [A] that gives the rated input power on an ideal sine."""
+    th = np.linspace(0, np.pi, 20001)
+    vv = _vpk(v) * np.sin(th)
+    shape = _sf_shape(vv, n, vseg_frac * _vpk(v) / n, 1.0, 0.0)
+    return p / np.mean(vv * shape)
+
+
+def _sf_levels(n, imax):
+    return [imax * k / n for k in range(1, n + 1)]
+
+
+def _sf_shape(vv, n, vseg, imax, r_dyn):
+    levels = _sf_levels(n, imax)
+    i = np.zeros_like(vv)
+    for k in range(n):
+        on = vv >= (k + 1) * vseg
+        i = np.where(on, levels[k], i)
+    return i
+
+
+_P = ParamSpec
+PARAMS: dict[str, tuple[ParamSpec, ...]] = {
+    "resistive": (
+        _P("r_ohm", "ohm", "hot filament resistance", lambda p, v, f: v * v / p),
+        _P("r_cold_ohm", "ohm", "cold filament resistance (inrush); tungsten about 1/12 of hot",
+           lambda p, v, f: v * v / p / 12.0),
+        _P("tau_thermal_s", "s", "filament thermal time constant (smooths light ripple)",
+           lambda p, v, f: 0.025),
+    ),
+    "dropper": (
+        _P("c_series_f", "F", "series dropping capacitor", _dropper_c),
+        _P("r_bleed_ohm", "ohm", "bleed resistor across the series capacitor",
+           lambda p, v, f: 1e6),
+        _P("r_surge_ohm", "ohm", "series surge-limiting resistor", lambda p, v, f: 100.0),
+        _P("v_string_v", "V", "LED string forward voltage", lambda p, v, f: 0.6 * _vpk(v)),
+        _P("r_string_ohm", "ohm", "LED string dynamic resistance", lambda p, v, f: 50.0),
+        _P("c_string_f", "F", "smoothing capacitor across the string (0: none)",
+           lambda p, v, f: 0.5e-6 * p, zero_ok=True),
+    ),
+    "bulk-cap": (
+        _P("r_series_ohm", "ohm", "fusible series resistor", lambda p, v, f: 10.0),
+        _P("c_bulk_f", "F", "bulk capacitor (about 1 uF/W at 230 V)",
+           lambda p, v, f: 1e-6 * p * 230.0 / v),
+        _P("r_load_ohm", "ohm", "plain DC load replacing the converter (reference case)",
+           lambda p, v, f: None),
+        _P("r_bleed_ohm", "ohm", "discharge resistor across the bulk capacitor",
+           lambda p, v, f: 1e6),
+        _P("v_uvlo_on_v", "V", "converter starts above this bulk voltage",
+           lambda p, v, f: 0.5 * _vpk(v)),
+        _P("v_uvlo_off_v", "V", "converter stops below this bulk voltage",
+           lambda p, v, f: 0.3 * _vpk(v)),
+        _P("i_led_a", "A", "LED current at full output", lambda p, v, f: 0.85 * p / 36.0),
+    ),
+    "sine-follow": (
+        _P("n_segments", "-", "LED string segments switched in by the tapped regulator",
+           lambda p, v, f: 3.0),
+        _P("v_segment_v", "V", "forward voltage of one segment",
+           lambda p, v, f: 0.8 * _vpk(v) / 3.0),
+        _P("i_max_a", "A", "regulator current with all segments lit",
+           lambda p, v, f: _sine_follow_imax(p, v, f)),
+        _P("r_dyn_ohm", "ohm", "resistance of a segment's ramp (LED and regulator)",
+           lambda p, v, f: 0.02 * 0.8 * _vpk(v) / 3.0 / _sine_follow_imax(p, v, f)),
+        _P("c_in_f", "F", "filter capacitor after the bridge", lambda p, v, f: 47e-9),
+        _P("r_bleed_ohm", "ohm", "bleed resistor after the bridge", lambda p, v, f: 1e6),
+    ),
+    "pfc": (
+        _P("c_emi_f", "F", "EMI capacitor across the input", lambda p, v, f: 47e-9 + 2e-9 * p),
+        _P("r_bleed_ohm", "ohm", "bleeder across the rectified input",
+           lambda p, v, f: 40.0 * v * v / p),
+        _P("c_dc_f", "F", "high-frequency capacitor after the bridge",
+           lambda p, v, f: 10e-9 * p * 230.0 / v),
+        _P("min_conduction_deg", "deg", "conduction angle read as minimum output",
+           lambda p, v, f: 40.0),
+        _P("full_conduction_deg", "deg", "conduction angle read as full output",
+           lambda p, v, f: 150.0),
+        _P("min_output", "-", "relative output at the minimum angle", lambda p, v, f: 0.02),
+    ),
+    "pwm-detect": (
+        _P("r_series_ohm", "ohm", "fusible series resistor", lambda p, v, f: 10.0),
+        _P("c_bulk_f", "F", "bulk capacitor", lambda p, v, f: 1e-6 * p * 230.0 / v),
+        _P("r_bleed_ohm", "ohm", "input bleeder (holds the dimmer)",
+           lambda p, v, f: 60.0 * v * v / p),
+        _P("v_uvlo_on_v", "V", "converter starts above this bulk voltage",
+           lambda p, v, f: 0.5 * _vpk(v)),
+        _P("v_uvlo_off_v", "V", "converter stops below this bulk voltage",
+           lambda p, v, f: 0.3 * _vpk(v)),
+        _P("pwm_frequency_hz", "Hz", "LED PWM frequency", lambda p, v, f: 1000.0),
+        _P("min_conduction_deg", "deg", "conduction angle read as minimum duty",
+           lambda p, v, f: 40.0),
+        _P("full_conduction_deg", "deg", "conduction angle read as full duty",
+           lambda p, v, f: 150.0),
+        _P("min_output", "-", "duty at the minimum angle", lambda p, v, f: 0.02),
+        _P("standby_w", "W", "controller power at zero duty", lambda p, v, f: 0.03 * p),
+        _P("i_led_a", "A", "LED current during the PWM on-time", lambda p, v, f: 0.85 * p / 36.0),
+    ),
+}
+
+#: sensible rated input power per lamp [W]
+POWER_RANGE_W: dict[str, tuple[float, float]] = {
+    "resistive": (1.0, 2000.0),
+    "dropper": (0.2, 15.0),
+    "bulk-cap": (0.5, 25.0),
+    "sine-follow": (1.0, 100.0),
+    "pfc": (5.0, 300.0),
+    "pwm-detect": (2.0, 75.0),
+}
+
+
+def model_params(model: str, power_w: float | None = None, v_rms_v: float = 230.0,
+                 frequency_hz: float = 50.0) -> list[dict]:
+    """Parameter names, units, meaning and default of ``model`` (at ``power_w`` if given)."""
+    if model not in PARAMS:
+        raise InputError(f"model: unknown {model!r}; expected one of {', '.join(MODELS)}")
+    out = []
+    for ps in PARAMS[model]:
+        d = None if power_w is None else ps.value(power_w, v_rms_v, frequency_hz)
+        out.append({"name": ps.name, "unit": ps.unit, "doc": ps.doc, "default": d})
+    return out
+
+
+def resolve_params(model: str, power_w: float, v_rms_v: float, frequency_hz: float,
+                   overrides: dict) -> dict:
+    """Defaults completed by ``overrides``; unknown names and bad values raise InputError."""
+    specs = {ps.name: ps for ps in PARAMS[model]}
+    lo, hi = POWER_RANGE_W[model]
+    if not lo <= power_w <= hi:
+        raise InputError(f"{model} power_w: expected {lo:g} to {hi:g} W for this model, got "
+                         f"{power_w:g}")
+    for k in overrides:
+        if k not in specs:
+            raise InputError(f"{model}: unknown parameter {k!r}; expected one of "
+                             f"{', '.join(specs)}")
+    out = {}
+    for name, ps in specs.items():
+        val = overrides.get(name, ps.value(power_w, v_rms_v, frequency_hz))
+        if val is not None:
+            val = float(val)
+            if not np.isfinite(val) or val < 0 or (val == 0 and not ps.zero_ok):
+                need = ">= 0" if ps.zero_ok else "> 0"
+                raise InputError(f"{model} {name}: expected a value {need} [{ps.unit}], got "
+                                 f"{val:g}")
+        out[name] = val
+    if model in ("bulk-cap", "pwm-detect") and out["v_uvlo_off_v"] >= out["v_uvlo_on_v"]:
+        raise InputError(f"{model} v_uvlo_off_v: expected below v_uvlo_on_v "
+                         f"({out['v_uvlo_on_v']:g} V), got {out['v_uvlo_off_v']:g}")
+    if model == "sine-follow":
+        n = out["n_segments"]
+        if n != int(n) or not 1 <= n <= 8:
+            raise InputError(f"sine-follow n_segments: expected a whole number 1..8, got {n:g}")
+    for key in ("min_conduction_deg", "full_conduction_deg"):
+        if key in out and not 0 < out[key] <= 180:
+            raise InputError(f"{model} {key}: expected 0 to 180 deg, got {out[key]:g}")
+    if "min_conduction_deg" in out and out["min_conduction_deg"] >= out["full_conduction_deg"]:
+        raise InputError(f"{model} min_conduction_deg: expected below full_conduction_deg")
+    if "min_output" in out and not out["min_output"] <= 1:
+        raise InputError(f"{model} min_output: expected 0 to 1, got {out['min_output']:g}")
+    return out
+
+
+def dim_fraction(conduction_deg: float, p: dict) -> float:
+    """Relative output a phase-detecting driver sets for a measured conduction angle [-]:
+    linear from ``min_output`` at ``min_conduction_deg`` to 1 at ``full_conduction_deg``;
+    zero below the minimum angle (the driver reads "off")."""
+    lo, hi, m = p["min_conduction_deg"], p["full_conduction_deg"], p["min_output"]
+    if conduction_deg < lo:
+        return 0.0
+    return float(min(1.0, m + (1 - m) * (conduction_deg - lo) / (hi - lo)))
+
+
+# ---------------------------------------------------------------------- automata
+class ConverterUVLO(Automaton):
+    """A constant-power converter across a capacitor, with under-voltage lock-out.
+
+    Running, it draws ``i = P / v`` from the capacitor; it stops below ``v_off`` and
+    restarts above ``v_on`` (hysteresis). States: True (running), False.
+    """
+
+    def __init__(self, cap_state: int, channel: int, power_w: float, v_on: float,
+                 v_off: float, n_x: int, n_u: int) -> None:
+        self.j, self.ch, self.p = cap_state, channel, power_w
+        self.v_on, self.v_off = v_on, v_off
+        self.n_x, self.n_u = n_x, n_u
+        self.initial = False
+
+    def _row(self, sign):
+        r = np.zeros(self.n_x + self.n_u)
+        r[self.j] = sign
+        return r
+
+    def nonlinear(self, s):
+        if not s or self.p <= 0:
+            return []
+        j, p = self.j, self.p
+
+        def f(x):
+            return p / max(x[j], 1e-3)
+
+        def df(x):
+            d = np.zeros(x.size)
+            d[j] = -p / max(x[j], 1e-3) ** 2
+            return d
+
+        return [(self.ch, f, df)]
+
+    def guards(self, s, net, ms):
+        if s:
+            return [(self._row(-1.0), -self.v_off, "stop")]
+        return [(self._row(1.0), self.v_on, "start")]
+
+    def fire(self, tag, s, t, x, value):
+        return tag == "start", x
+
+
+class TapLevels(Automaton):
+    """Segment index of the tapped linear regulator's piecewise-affine characteristic."""
+
+    def __init__(self, element: str, breaks: list[float], n_x: int, n_u: int,
+                 v_index: int) -> None:
+        self.el, self.breaks = element, breaks  # breaks[k]: lower voltage of segment k+1
+        self.vi = v_index
+        self.n = n_x + n_u
+        self.initial = 0
+
+    def switches(self, s):
+        return {self.el: int(s)}
+
+    def guards(self, s, net, ms):
+        row = ms.Q[self.vi]
+        out = []
+        if s < len(self.breaks):
+            out.append((row, self.breaks[s], "up"))
+        if s > 0:
+            out.append((-row, -self.breaks[s - 1], "down"))
+        return out
+
+    def fire(self, tag, s, t, x, value):
+        return (s + 1 if tag == "up" else s - 1), x
+
+
+# ---------------------------------------------------------------------- building
+@dataclass
+class GroupBuild:
+    """What a model added to the network, for reading its results back."""
+
+    model: str
+    prefix: str
+    m: int
+    params: dict
+    sense: str  # zero-volt source in series with the group input
+    caps: list[str]
+    resistors: list[str]
+    led: str | None  # element carrying the LED current (or None: set by a converter)
+    automata: list
+    light: str  # how the light is computed: filament | led-current | converter | tap | pfc | pwm
+    extra: dict
+
+
+def bridge(net: Network, pre: str, ac1: str, ac2: str, p: str, n: str, m: int) -> None:
+    ron, goff = DIODE_R_ON_OHM / m, G_OFF_S * m
+    net.D(pre + "D1", ac1, p, DIODE_V_ON_V, ron, goff)
+    net.D(pre + "D2", ac2, p, DIODE_V_ON_V, ron, goff)
+    net.D(pre + "D3", n, ac1, DIODE_V_ON_V, ron, goff)
+    net.D(pre + "D4", n, ac2, DIODE_V_ON_V, ron, goff)
+
+
+def build_group(net: Network, k: int, model: str, power_w: float, m: int, p: dict,
+                node_in: str, dim_level: float = 1.0, inrush: bool = False) -> GroupBuild:
+    """Add group ``k`` (``m`` lamps of ``model``) between ``node_in`` and the neutral."""
+    pre = f"g{k}."
+    nd = {s: pre + s for s in ("in", "a", "b", "p", "n", "c")}
+    sense = pre + "A"
+    net.V(sense, node_in, nd["in"], 1, 0.0)
+    caps, res, aut, extra = [], [], [], {}
+    led = None
+    if model == "resistive":
+        r = p["r_cold_ohm"] if inrush else p["r_ohm"]
+        net.R(pre + "R_lamp", nd["in"], "0", r / m)
+        res.append(pre + "R_lamp")
+        light = "filament"
+    elif model == "dropper":
+        net.C(pre + "C_series", nd["in"], nd["a"], p["c_series_f"] * m)
+        net.R(pre + "R_bleed", nd["in"], nd["a"], p["r_bleed_ohm"] / m)
+        net.R(pre + "R_surge", nd["a"], nd["b"], p["r_surge_ohm"] / m)
+        bridge(net, pre, nd["b"], "0", nd["p"], nd["n"], m)
+        net.D(pre + "D_string", nd["p"], nd["n"], p["v_string_v"], p["r_string_ohm"] / m,
+              G_OFF_S * m)
+        if p["c_string_f"] > 0:
+            net.C(pre + "C_string", nd["p"], nd["n"], p["c_string_f"] * m)
+            caps.append(pre + "C_string")
+        caps.insert(0, pre + "C_series")
+        res += [pre + "R_surge", pre + "R_bleed"]
+        led = pre + "D_string"
+        light = "led-current"
+    elif model in ("bulk-cap", "pwm-detect"):
+        net.R(pre + "R_series", nd["in"], nd["b"], p["r_series_ohm"] / m)
+        res.append(pre + "R_series")
+        if model == "pwm-detect":
+            net.R(pre + "R_input_bleed", nd["b"], "0", p["r_bleed_ohm"] / m)
+            res.append(pre + "R_input_bleed")
+        bridge(net, pre, nd["b"], "0", nd["p"], nd["n"], m)
+        net.C(pre + "C_bulk", nd["p"], nd["n"], p["c_bulk_f"] * m)
+        caps.append(pre + "C_bulk")
+        if model == "bulk-cap" and p.get("r_load_ohm") is None:
+            net.R(pre + "R_bleed", nd["p"], nd["n"], p["r_bleed_ohm"] / m)
+        if model == "bulk-cap" and p.get("r_load_ohm") is not None:
+            net.R(pre + "R_load", nd["p"], nd["n"], p["r_load_ohm"] / m)
+            res.append(pre + "R_load")
+            light = "dc-load"
+        else:
+            ch = net.n_channels
+            net.n_channels += 1
+            net.I(pre + "I_conv", nd["p"], nd["n"], ch, 1.0)
+            if model == "bulk-cap":
+                pw = power_w
+            else:
+                pw = p["standby_w"] + (power_w - p["standby_w"]) * dim_level
+            if inrush:
+                pw = 0.0
+            extra.update(channel=ch, power_w=pw * m, cap=pre + "C_bulk")
+            light = "converter" if model == "bulk-cap" else "pwm"
+    elif model == "sine-follow":
+        bridge(net, pre, nd["in"], "0", nd["p"], nd["n"], m)
+        net.C(pre + "C_in", nd["p"], nd["n"], p["c_in_f"] * m)
+        net.R(pre + "R_bleed", nd["p"], nd["n"], p["r_bleed_ohm"] / m)
+        caps.append(pre + "C_in")
+        n = int(p["n_segments"])
+        vseg, imax, rd = p["v_segment_v"], p["i_max_a"], p["r_dyn_ohm"]
+        levels = [0.0] + _sf_levels(n, imax)
+        table, breaks, lit = [(G_OFF_S * m, 0.0)], [], [0]
+        v_lo = vseg
+        for kk in range(1, n + 1):
+            # ramp from the previous level, i = I_{k-1} + (v - k vseg) / r
+            g = 1.0 / rd
+            table.append((g * m, (levels[kk - 1] - kk * vseg * g) * m))
+            breaks.append(kk * vseg)
+            lit.append(kk)
+            v_flat = kk * vseg + (levels[kk] - levels[kk - 1]) * rd
+            table.append((G_OFF_S * m, (levels[kk] - v_flat * G_OFF_S) * m))
+            breaks.append(v_flat)
+            lit.append(kk)
+            v_lo = v_flat
+        del v_lo
+        # the next ramp starts where its segment lights, above the flat's end
+        fixed = []
+        for kk, b in enumerate(breaks):
+            fixed.append(max(b, fixed[-1] + 1e-3) if fixed else b)
+        net.G(pre + "G_reg", nd["p"], nd["n"], table)
+        extra.update(table=table, lit=lit, vseg=vseg, breaks=fixed)
+        aut.append(("taps", pre + "G_reg", fixed))
+        led = pre + "G_reg"
+        light = "tap"
+    elif model == "pfc":
+        net.C(pre + "C_emi", nd["in"], "0", p["c_emi_f"] * m)
+        caps.append(pre + "C_emi")
+        bridge(net, pre, nd["in"], "0", nd["p"], nd["n"], m)
+        net.C(pre + "C_dc", nd["p"], nd["n"], p["c_dc_f"] * m)
+        caps.append(pre + "C_dc")
+        net.R(pre + "R_bleed", nd["p"], nd["n"], p["r_bleed_ohm"] / m)
+        res.append(pre + "R_bleed")
+        re = p["_r_emulated_ohm"]
+        net.R(pre + "R_emulated", nd["p"], nd["n"], re / m)
+        led = None
+        light = "pfc"
+    else:  # pragma: no cover - guarded by LoadGroup
+        raise InputError(f"model: unknown {model!r}")
+    return GroupBuild(model, pre, m, p, sense, caps, res, led, aut, light, extra)

@@ -1,0 +1,262 @@
+"""Piecewise-linear circuit networks and their state equations in each switching mode.
+
+A :class:`Network` is a list of two-terminal elements between named nodes (``"0"`` is
+ground, the neutral): resistors, capacitors, inductors, piecewise-linear diodes, switches,
+voltage sources and current sources driven by an input channel. In every *mode* (each diode
+and switch either conducting or blocking) the circuit is linear; :meth:`Network.mode` gives
+
+    x' = A x + B u,        x = [capacitor voltages, inductor currents],
+    u = [source voltage v_s(t), 1, nonlinear channels ...],
+
+and a matrix ``Q`` whose rows are every element's current and voltage as linear functions of
+``[x, u]``. The equations come from modified nodal analysis of the resistive network that
+remains when each capacitor is replaced by a voltage source of its voltage and each inductor
+by a current source of its current (every capacitor needs a resistive path and no loop may
+hold only capacitors and voltage sources; large shunt resistances keep floating nodes
+defined, as in any SPICE netlist).
+
+Diodes are piecewise linear: conducting, ``i = (v - v_on) / r_on``; blocking, ``i = g_off v``.
+``n`` identical lamps in parallel are one element set with admittances scaled by ``n``
+(see :func:`pqcalc.circuits.drivers.build_group`): the state count does not grow with lamps.
+
+References
+----------
+C.-W. Ho, A. Ruehli, P. Brennan, "The modified nodal approach to network analysis",
+IEEE Trans. Circuits Syst. 22(6), 1975.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import numpy as np
+
+from ..errors import InputError
+
+__all__ = ["Network", "Element", "ModeSystem", "CH_SOURCE", "CH_ONE"]
+
+#: input channel of the mains source voltage [V] and of the constant 1 [-]
+CH_SOURCE = 0
+CH_ONE = 1
+
+
+@dataclass(frozen=True)
+class Element:
+    """One two-terminal element; current is positive from node ``a`` through it to ``b``."""
+
+    kind: str  # R C L D S V I
+    name: str
+    a: int
+    b: int
+    value: float = 0.0  # R [ohm], C [F], L [H], V/I gain [-]
+    v_on: float = 0.0  # diode forward threshold [V]
+    r_on: float = 0.0  # diode / switch on resistance [ohm]
+    g_off: float = 0.0  # diode / switch off conductance [S]
+    channel: int = 0  # input channel of a V or I source
+    table: tuple = ()  # (g, i0) segments of a piecewise-affine element
+
+
+@dataclass(frozen=True)
+class ModeSystem:
+    """Linear state equations of one mode: ``x' = A x + B u``; ``Q @ [x, u]`` gives element
+    currents (rows ``0..ne-1``) and voltages (rows ``ne..2ne-1``)."""
+
+    A: np.ndarray
+    B: np.ndarray
+    Q: np.ndarray
+
+
+class Network:
+    """A circuit under construction; call :meth:`finalize` before :meth:`mode`."""
+
+    def __init__(self, n_channels: int = 2) -> None:
+        self.node_index: dict[str, int] = {"0": 0}
+        self.elements: list[Element] = []
+        self.n_channels = n_channels
+        self._final = False
+        self._cache: dict[tuple, ModeSystem] = {}
+
+    # ------------------------------------------------------------------ building
+    def node(self, name: str) -> int:
+        if name not in self.node_index:
+            self.node_index[name] = len(self.node_index)
+        return self.node_index[name]
+
+    def _add(self, kind: str, name: str, a: str, b: str, **kw) -> None:
+        if any(e.name == name for e in self.elements):
+            raise ValueError(f"internal: element {name!r} defined twice")
+        self.elements.append(Element(kind, name, self.node(a), self.node(b), **kw))
+
+    def R(self, name: str, a: str, b: str, r_ohm: float) -> None:
+        _positive(name, r_ohm)
+        self._add("R", name, a, b, value=float(r_ohm))
+
+    def C(self, name: str, a: str, b: str, c_f: float) -> None:
+        _positive(name, c_f)
+        self._add("C", name, a, b, value=float(c_f))
+
+    def L(self, name: str, a: str, b: str, l_h: float) -> None:
+        _positive(name, l_h)
+        self._add("L", name, a, b, value=float(l_h))
+
+    def D(self, name: str, a: str, b: str, v_on: float, r_on: float, g_off: float) -> None:
+        """Diode from anode ``a`` to cathode ``b`` (piecewise linear)."""
+        _positive(name, r_on)
+        self._add("D", name, a, b, v_on=float(v_on), r_on=float(r_on), g_off=float(g_off))
+
+    def S(self, name: str, a: str, b: str, r_on: float, g_off: float) -> None:
+        """Switch whose state is set by a controller."""
+        _positive(name, r_on)
+        self._add("S", name, a, b, r_on=float(r_on), g_off=float(g_off))
+
+    def G(self, name: str, a: str, b: str, table) -> None:
+        """Piecewise-affine element ``i = g_k v + i0_k``, the segment ``k`` set by a
+        controller; ``table`` is a sequence of ``(g_k [S], i0_k [A])``."""
+        tab = tuple((float(g), float(i0)) for g, i0 in table)
+        self._add("G", name, a, b, table=tab)
+
+    def V(self, name: str, a: str, b: str, channel: int, gain: float = 1.0) -> None:
+        """Voltage source ``v_a - v_b = gain * u[channel]``."""
+        self._add("V", name, a, b, value=float(gain), channel=channel)
+
+    def I(self, name: str, a: str, b: str, channel: int, gain: float = 1.0) -> None:  # noqa: E743
+        """Current source ``gain * u[channel]`` flowing from ``a`` through it to ``b``."""
+        self._add("I", name, a, b, value=float(gain), channel=channel)
+
+    def finalize(self) -> Network:
+        self.caps = [i for i, e in enumerate(self.elements) if e.kind == "C"]
+        self.inds = [i for i, e in enumerate(self.elements) if e.kind == "L"]
+        self.diodes = [i for i, e in enumerate(self.elements) if e.kind == "D"]
+        self.switches = [i for i, e in enumerate(self.elements) if e.kind in "SG"]
+        self.switchable = self.diodes + self.switches
+        self.n_x = len(self.caps) + len(self.inds)
+        self.n_u = self.n_channels
+        self.n_e = len(self.elements)
+        self.index = {e.name: i for i, e in enumerate(self.elements)}
+        self.state_of = {self.elements[k].name: j for j, k in enumerate(self.caps + self.inds)}
+        self._final = True
+        return self
+
+    # ------------------------------------------------------------------ queries
+    def i_row(self, ms: ModeSystem, name: str) -> np.ndarray:
+        """Row over ``[x, u]`` giving the current of element ``name`` [A]."""
+        return ms.Q[self.index[name]]
+
+    def v_row(self, ms: ModeSystem, name: str) -> np.ndarray:
+        """Row over ``[x, u]`` giving the voltage across element ``name`` [V]."""
+        return ms.Q[self.n_e + self.index[name]]
+
+    def mode(self, on: tuple[bool, ...]) -> ModeSystem:
+        """State equations with the switchable elements (diodes, then switches and
+        piecewise-affine elements, in the order they were added) conducting where ``on`` is
+        True (for a piecewise-affine element: the segment index)."""
+        key = tuple(on)
+        ms = self._cache.get(key)
+        if ms is None:
+            ms = self._build(key)
+            self._cache[key] = ms
+        return ms
+
+    def _build(self, on: tuple[bool, ...]) -> ModeSystem:
+        els = self.elements
+        nn = len(self.node_index) - 1
+        vsrc = [i for i, e in enumerate(els) if e.kind in "CV"]
+        nb = len(vsrc)
+        nz = nn + nb
+        ncol = self.n_x + self.n_u
+        M = np.zeros((nz, nz))
+        Rhs = np.zeros((nz, ncol))
+        state_col = {k: j for j, k in enumerate(self.caps + self.inds)}
+        sw_on = dict(zip(self.switchable, on))
+        g_of = {}
+
+        def stamp_g(a, b, g):
+            if a:
+                M[a - 1, a - 1] += g
+            if b:
+                M[b - 1, b - 1] += g
+            if a and b:
+                M[a - 1, b - 1] -= g
+                M[b - 1, a - 1] -= g
+
+        def inject(a, b, col, gain):
+            # a current gain*[x,u][col] leaves node a, enters node b
+            if a:
+                Rhs[a - 1, col] -= gain
+            if b:
+                Rhs[b - 1, col] += gain
+
+        for i, e in enumerate(els):
+            if e.kind == "R":
+                g_of[i] = 1.0 / e.value
+                stamp_g(e.a, e.b, g_of[i])
+            elif e.kind in "DS":
+                g = 1.0 / e.r_on if sw_on[i] else e.g_off
+                g_of[i] = g
+                stamp_g(e.a, e.b, g)
+                if e.kind == "D" and sw_on[i] and e.v_on != 0.0:
+                    # i = g (v - v_on): a Norton source g*v_on from b to a
+                    inject(e.a, e.b, self.n_x + CH_ONE, -g * e.v_on)
+            elif e.kind == "G":
+                g, i0 = e.table[int(sw_on[i])]
+                g_of[i] = g
+                stamp_g(e.a, e.b, g)
+                if i0:
+                    inject(e.a, e.b, self.n_x + CH_ONE, i0)
+            elif e.kind == "L":
+                inject(e.a, e.b, state_col[i], 1.0)
+            elif e.kind == "I":
+                inject(e.a, e.b, self.n_x + e.channel, e.value)
+        for j, i in enumerate(vsrc):
+            e = els[i]
+            r = nn + j
+            if e.a:
+                M[e.a - 1, r] += 1.0
+                M[r, e.a - 1] += 1.0
+            if e.b:
+                M[e.b - 1, r] -= 1.0
+                M[r, e.b - 1] -= 1.0
+            if e.kind == "C":
+                Rhs[r, state_col[i]] = 1.0
+            else:
+                Rhs[r, self.n_x + e.channel] = e.value
+        try:
+            Z = np.linalg.solve(M, Rhs)
+        except np.linalg.LinAlgError as err:
+            raise InputError(
+                "the circuit has a floating node or a loop of capacitors and sources; "
+                "check the component values"
+            ) from err
+
+        def vnode(k):
+            return Z[k - 1] if k else np.zeros(ncol)
+
+        Q = np.zeros((2 * self.n_e, ncol))
+        bidx = {i: nn + j for j, i in enumerate(vsrc)}
+        for i, e in enumerate(els):
+            v = vnode(e.a) - vnode(e.b)
+            Q[self.n_e + i] = v
+            if e.kind in "RDSG":
+                cur = g_of[i] * v
+                if e.kind == "D" and sw_on[i] and e.v_on != 0.0:
+                    cur[self.n_x + CH_ONE] -= g_of[i] * e.v_on
+                if e.kind == "G":
+                    cur[self.n_x + CH_ONE] += e.table[int(sw_on[i])][1]
+                Q[i] = cur
+            elif e.kind in "CV":
+                Q[i] = Z[bidx[i]]
+            elif e.kind == "L":
+                Q[i, state_col[i]] = 1.0
+            elif e.kind == "I":
+                Q[i, self.n_x + e.channel] = e.value
+        AB = np.zeros((self.n_x, ncol))
+        for j, i in enumerate(self.caps):
+            AB[j] = Q[i] / els[i].value
+        for j, i in enumerate(self.inds):
+            AB[len(self.caps) + j] = Q[self.n_e + i] / els[i].value
+        return ModeSystem(AB[:, : self.n_x].copy(), AB[:, self.n_x :].copy(), Q)
+
+
+def _positive(name: str, x: float) -> None:
+    if not (np.isfinite(x) and x > 0):
+        raise InputError(f"{name}: expected a positive finite value, got {x}")

@@ -1,0 +1,474 @@
+"""One steady-state solve of a supply, a dimmer and the lamp groups behind it."""
+
+from __future__ import annotations
+
+import functools
+from dataclasses import dataclass
+from typing import Literal, get_args
+
+import numpy as np
+
+from ..errors import ConvergenceError, InputError
+from ..waveform import Waveform
+from .dimmers import SWITCH, Triac, build_dimmer, conduction_from_knob, resolve_dimmer
+from .drivers import ConverterUVLO, TapLevels, build_group, dim_fraction, resolve_params
+from .network import CH_ONE, CH_SOURCE, Network
+from .pwl import Engine, Source
+from .spec import DimmerSpec, LoadGroup, Supply
+
+__all__ = ["solve_circuit", "Solution", "GroupResult", "Stresses", "Flag", "FLAGS",
+           "SAMPLES_PER_CYCLE"]
+
+Flag = Literal["no-latch", "misfire", "re-fire", "subharmonic", "asymmetric", "drop-out",
+               "glow-when-off"]
+FLAGS: tuple[str, ...] = get_args(Flag)
+SAMPLES_PER_CYCLE = 4096
+#: incandescent light against filament power, L ~ P^(3.4/1.6) from L ~ V^3.4 and P ~ V^1.6
+#: (common practice; exponents from memory)
+FILAMENT_LIGHT_EXPONENT = 3.4 / 1.6
+
+
+@dataclass(frozen=True)
+class Stresses:
+    """Component stresses of ONE lamp."""
+
+    i_peak_a: float  # largest input current in steady state [A]
+    inrush_peak_a: float | None  # largest input current when switched on at the crest [A]
+    cap_rms_a: tuple[tuple[str, float], ...]  # capacitor rms currents [A]
+    resistor_w: tuple[tuple[str, float], ...]  # resistor dissipation [W]
+
+
+@dataclass(frozen=True)
+class GroupResult:
+    """Results of one lamp of a :class:`LoadGroup` (the group draws ``count`` times this)."""
+
+    group: LoadGroup
+    params: tuple[tuple[str, float | None], ...]
+    waveform: Waveform  # current of ONE lamp and the line voltage
+    led_current_a: np.ndarray  # LED current of one lamp [A]
+    light: np.ndarray  # relative light output, 1.0 = rated full output [-]
+    stresses: Stresses
+
+    @property
+    def light_mean(self) -> float:
+        return float(np.mean(self.light))
+
+    @property
+    def p_w(self) -> float:
+        return float(self.waveform.p_w)
+
+
+@dataclass(frozen=True)
+class Solution:
+    """Periodic steady state of one (supply, dimmer, loads) case."""
+
+    waveform: Waveform  # total input current and the voltage at the dimmer's line terminal
+    groups: tuple[GroupResult, ...]
+    flags: tuple[str, ...]
+    period_cycles: int
+    converged: bool
+    iterations: int
+    conduction_deg: tuple[float, ...]  # measured conduction of each half cycle [deg]
+    firings: tuple[int, ...]  # trigger events per half cycle (leading-edge triac)
+    dimmer_p: tuple[tuple[str, float], ...] = ()
+
+
+# ---------------------------------------------------------------------- building
+@dataclass
+class _Case:
+    net: Network
+    eng: Engine
+    builds: list
+    scale: np.ndarray
+
+
+def _build(supply: Supply, dimmer: DimmerSpec, dp: dict, loads, gparams, levels,
+           inrush: bool = False, grid: int = 2048) -> _Case:
+    net = Network()
+    net.V("src", "src", "0", CH_SOURCE)
+    node = "src"
+    if supply.source_r_ohm > 0:
+        net.R("R_source", node, "sa", supply.source_r_ohm)
+        node = "sa"
+    if supply.source_l_h > 0:
+        net.L("L_source", node, "line", supply.source_l_h)
+        net.R("R_damp", node, "line", supply.source_damping_ohm)
+        node = "line"
+    elif node != "line":
+        net.R("R_link", node, "line", 1e-6)
+    net.R("R_vline", "line", "0", 1e12)
+    net.V("A_line", "line", "din", CH_ONE, 0.0)
+    make_dim = build_dimmer(net, dimmer if not inrush else DimmerSpec("none", params=()),
+                            dp if not inrush else {"r_on_ohm": dp["r_on_ohm"]}, supply,
+                            "din", "dout")
+    builds = []
+    for k, (g, p) in enumerate(zip(loads, gparams)):
+        builds.append(build_group(net, k, g.model, g.power_w, g.count, p, "dout",
+                                  dim_level=levels[k], inrush=inrush))
+    net.finalize()
+    autos = [make_dim()]
+    for b in builds:
+        if "channel" in b.extra:
+            pp = b.params
+            autos.append(ConverterUVLO(net.state_of[b.extra["cap"]], b.extra["channel"],
+                                       b.extra["power_w"], pp["v_uvlo_on_v"],
+                                       pp["v_uvlo_off_v"], net.n_x, net.n_u))
+        for a in b.automata:
+            if a[0] == "taps":
+                autos.append(TapLevels(a[1], a[2], net.n_x, net.n_u,
+                                       net.n_e + net.index[a[1]]))
+    terms, dc = supply.source_terms()
+    eng = Engine(net, Source.from_sines(supply.frequency_hz, terms, dc), autos, grid)
+    vpk = np.sqrt(2) * supply.v_rms_v
+    iscale = sum(g.power_w * g.count for g in loads) / supply.v_rms_v
+    scale = np.zeros(net.n_x)
+    for name, j in net.state_of.items():
+        scale[j] = 1e-4 * (vpk if net.elements[net.index[name]].kind == "C" else iscale)
+    eng._floor = scale
+    return _Case(net, eng, builds, scale)
+
+
+def _initial(case: _Case, supply: Supply):
+    net = case.net
+    x0 = np.zeros(net.n_x)
+    vpk = np.sqrt(2) * supply.v_rms_v
+    for b in case.builds:
+        if b.model in ("bulk-cap", "pwm-detect"):
+            x0[net.state_of[b.prefix + "C_bulk"]] = 0.9 * vpk
+    autos0 = []
+    for a in case.eng.automata:
+        s = a.initial
+        if isinstance(a, ConverterUVLO):
+            s = x0[a.j] > a.v_on
+        autos0.append(s)
+    return x0, (tuple([False] * len(net.diodes)), tuple(autos0))
+
+
+def _stable(eng: Engine, tr, cycles: int, scale: np.ndarray) -> bool:
+    """A small perturbation of the periodic state decays over two periods."""
+    T = cycles * eng.T1
+    if tr.x0.size == 0:
+        return True
+    d0 = 1e-3 * (np.abs(tr.x0) + 1e3 * scale)
+    a = eng.run(0.0, T, tr.x0 + d0, tr.s0)
+    b = eng.run(0.0, T, a.xT, a.sT)
+    e1 = np.max(np.abs(a.xT - tr.x0) / (np.abs(tr.x0) + 1e3 * scale))
+    e2 = np.max(np.abs(b.xT - tr.x0) / (np.abs(tr.x0) + 1e3 * scale))
+    return bool(e2 <= max(1.05 * e1, 1e-7) and b.sT == tr.s0)
+
+
+def _steady(case: _Case, supply: Supply, check_stability: bool, max_period: int = 4):
+    eng = case.eng
+    x0, d0 = _initial(case, supply)
+    # two cycles from the initial guess give Newton a state near the orbit
+    warm = eng.run(0.0, eng.T1, x0, d0)
+    x0, d0 = warm.xT, warm.sT
+    tried = []
+    total = 0
+    for k in range(1, max_period + 1):
+        try:
+            tr, it, ok = eng.periodic(k, x0, d0)
+        except ConvergenceError as e:
+            tried.append(f"{k}-cycle period: {e}")
+            continue
+        total += it
+        if ok and (not check_stability or _stable(eng, tr, k, case.scale)):
+            return tr, k, total, True
+        tried.append(f"{k}-cycle period: {'unstable' if ok else 'no convergence'} after "
+                     f"{it} Newton iterations")
+        x0, d0 = tr.xT, tr.sT
+    raise ConvergenceError(
+        "no periodic steady state found; tried shooting (Newton on the state at the cycle "
+        "start) over " + "; ".join(tried)
+    )
+
+
+def _conduction(tr, eng: Engine, cycles: int):
+    """Switch on-time per half cycle [deg] and trigger events per half cycle."""
+    H = eng.T1 / 2
+    nh = 2 * cycles
+    on = np.zeros(nh)
+    idx = eng.net.switches.index(eng.net.index[SWITCH]) + len(eng.net.diodes)
+    for sg in tr.segments:
+        if sg.md.key[idx]:
+            t0, t1 = sg.t0, sg.t1
+            k0 = int(np.floor(t0 / H + 1e-12))
+            while t0 < t1 - 1e-15 and k0 < nh:
+                e = min(t1, (k0 + 1) * H)
+                on[k0] += e - t0
+                t0 = e
+                k0 += 1
+    fires = np.zeros(nh, dtype=int)
+    nolatch = False
+    for t, tag in tr.events:
+        name = tag[-1]
+        if tag[0] in "AT" and tag[1] == 0 and name in ("fire+", "fire-", "fire"):
+            fires[min(int(t / H), nh - 1)] += 1
+    for i, (_t, tag) in enumerate(tr.events):
+        if tag[0] == "T" and tag[1] == 0 and tag[-1] == "gate-end":
+            nolatch |= _latched_after(tr, i) is False
+    return tuple(float(v) for v in on / H * 180.0), tuple(int(v) for v in fires), nolatch
+
+
+def _latched_after(tr, i):
+    for t, tag in tr.events[i + 1:]:
+        return not (tag[0] == "A" and tag[1] == 0 and tag[-1] == "release" and t == tr.events[i][0])
+    return None
+
+
+def _thermal_light(p_w: np.ndarray, rated_w: float, tau_s: float, f_hz: float,
+                   cycles: int) -> np.ndarray:
+    """Filament light from its power: first-order thermal low-pass, L ~ P^2.1."""
+    n = p_w.size
+    X = np.fft.rfft(p_w)
+    fk = np.arange(X.size) * f_hz / cycles
+    Pf = np.fft.irfft(X / (1 + 2j * np.pi * fk * tau_s), n)
+    return (np.maximum(Pf, 0.0) / rated_w) ** FILAMENT_LIGHT_EXPONENT
+
+
+# ---------------------------------------------------------------------- public
+def solve_circuit(supply: Supply, dimmer: DimmerSpec, loads, samples_per_cycle: int =
+                  SAMPLES_PER_CYCLE, extras: bool = True) -> Solution:
+    """The periodic steady state of all lamp groups behind one dimmer on one supply.
+
+    One solve: the triac or transistor sees the summed current of every group (holding and
+    latching depend on it); ``count`` identical lamps cost the same as one.
+
+    Parameters
+    ----------
+    supply, dimmer
+        :class:`Supply`, :class:`DimmerSpec`.
+    loads
+        Sequence of :class:`LoadGroup`.
+    samples_per_cycle
+        Samples per mains cycle of the returned waveforms (>= 4096 recommended).
+    extras
+        Also compute the inrush peak (a second transient solve) and the light normalisation
+        of models whose rated LED output needs a reference solve. ``False`` returns the
+        waveforms only (with ``light`` and ``inrush_peak_a`` left out), for speed.
+
+    Raises
+    ------
+    InputError
+        A bad parameter (the message names it and lists the valid ones).
+    ConvergenceError
+        No periodic state found (the message says what was tried).
+    """
+    loads = tuple(loads)
+    if not loads:
+        raise InputError("loads: expected at least one LoadGroup")
+    for g in loads:
+        if not isinstance(g, LoadGroup):
+            raise InputError(f"loads: expected LoadGroup items, got {type(g).__name__}")
+    if int(samples_per_cycle) < 64:
+        raise InputError("samples_per_cycle: expected at least 64")
+    return _solve_cached(supply, dimmer, loads, int(samples_per_cycle), bool(extras), False)
+
+
+@functools.lru_cache(maxsize=256)
+def _solve_cached(supply, dimmer, loads, spc, extras, reference) -> Solution:
+    dp = resolve_dimmer(dimmer, supply)
+    gparams = [resolve_params(g.model, g.power_w, supply.v_rms_v, supply.frequency_hz,
+                              g.param_dict()) for g in loads]
+    cond_set = conduction_from_knob(dimmer, dp)
+    cond_guess = 180.0 if cond_set is None else cond_set
+    phase_detect = any(g.model in ("pfc", "pwm-detect") for g in loads)
+    check = dimmer.uses_triac or any(g.model in ("bulk-cap", "pwm-detect", "sine-follow")
+                                     and gparams[i].get("r_load_ohm") is None
+                                     for i, g in enumerate(loads))
+    # phase-detecting drivers: their output follows the conduction angle they measure,
+    # which follows the dimmer; iterate the pair (a fixed point, a few passes)
+    cond = cond_guess
+    for _pass in range(6):
+        levels = [dim_fraction(cond, p) if g.model in ("pfc", "pwm-detect") else 1.0
+                  for g, p in zip(loads, gparams)]
+        for g, p, lv in zip(loads, gparams, levels):
+            if g.model == "pfc":
+                p["_dim_level"] = lv
+                p.setdefault("_r_emulated_ohm", supply.v_rms_v ** 2 / max(g.power_w * lv,
+                                                                        1e-3 * g.power_w))
+        for _k in range(8 if any(g.model == "pfc" for g in loads) else 1):
+            case = _build(supply, dimmer, dp, loads, gparams, levels)
+            tr, period, iters, ok = _steady(case, supply, check)
+            again = False
+            for b, g, p in zip(case.builds, loads, gparams):
+                if g.model != "pfc":
+                    continue
+                target = max(g.power_w * p["_dim_level"], 1e-4 * g.power_w)
+                got = _mean_power(case, tr, b, period, "R_emulated")
+                if got <= 0:
+                    continue
+                new = p["_r_emulated_ohm"] * got / target
+                new = min(max(new, 0.2 * supply.v_rms_v ** 2 / g.power_w), 1e4 *
+                          supply.v_rms_v ** 2 / g.power_w)
+                if abs(new / p["_r_emulated_ohm"] - 1) > 1e-4:
+                    again = True
+                p["_r_emulated_ohm"] = new
+            if not again:
+                break
+        measured, fires, nolatch = _conduction(tr, case.eng, period)
+        if not phase_detect:
+            break
+        new_cond = float(np.mean(measured))
+        if abs(new_cond - cond) < 0.5:
+            break
+        cond = new_cond
+    return _assemble(supply, dimmer, dp, loads, gparams, levels, case, tr, period, iters, ok,
+                     spc, extras, measured, fires, nolatch, cond_set, reference)
+
+
+def _mean_power(case, tr, b, period, el):
+    eng = case.eng
+    ts = np.arange(1024 * period) / (1024 * eng.src.frequency_hz)
+    Y, _ = eng.sample(tr, ts, [(b.prefix + el, "i"), (b.prefix + el, "v")])
+    return float(np.mean(Y[0] * Y[1])) / b.m
+
+
+def _assemble(supply, dimmer, dp, loads, gparams, levels, case, tr, period, iters, ok, spc,
+              extras, measured, fires, nolatch, cond_set, reference) -> Solution:
+    eng, net = case.eng, case.net
+    f = supply.frequency_hz
+    n = spc * period
+    ts = np.arange(n) / (spc * f)
+    outs = [("A_line", "i"), ("R_vline", "v")]
+    for b in case.builds:
+        outs.append((b.sense, "i"))
+        if b.led:
+            outs.append((b.led, "i"))
+            outs.append((b.led, "v"))
+        outs += [(c, "i") for c in b.caps]
+        outs += [(r, "i") for r in b.resistors]
+        outs += [(r, "v") for r in b.resistors]
+    Y, X = eng.sample(tr, ts, outs)
+    col = {o: i for i, o in enumerate(outs)}
+    seg_state = _segment_states(tr, ts)
+    fs = spc * f
+    vline = Y[col[("A_line", "i")] + 1]
+    wf = Waveform(Y[col[("A_line", "i")]], fs, f, vline, period, label="dimmer input")
+    flags = set()
+    if period > 1:
+        flags.add("subharmonic")
+    if nolatch:
+        flags.add("no-latch")
+    nh = 2 * period
+    if dimmer.kind == "leading-edge" and dimmer.uses_triac:
+        if any(k > 1 for k in fires):
+            flags.add("re-fire")
+        wants = (cond_set is None and (dimmer.knob or 0) > 0) or (cond_set or 0) > 0
+        if wants and any(c < 1e-3 for c in measured):
+            flags.add("misfire")
+    pos = measured[0::2]
+    neg = measured[1::2]
+    if abs(np.mean(pos) - np.mean(neg)) > 5.0 and max(measured) > 1:
+        flags.add("asymmetric")
+    dimmer_off = max(measured) < 1e-3
+    groups = []
+    for k, (b, g, p) in enumerate(zip(case.builds, loads, gparams)):
+        m = b.m
+        i1 = Y[col[(b.sense, "i")]] / m
+        gw = Waveform(i1, fs, f, vline, period, label=f"{g.model} {g.power_w:g} W")
+        led, light = _light(case, b, g, p, Y, col, seg_state, ts, supply, period, levels[k],
+                            reference)
+        caps = tuple((c.removeprefix(b.prefix),
+                      float(np.sqrt(np.mean((Y[col[(c, "i")]] / m) ** 2))))
+                     for c in b.caps)
+        res = tuple((r.removeprefix(b.prefix),
+                     float(np.mean(Y[col[(r, "i")]] * Y[col[(r, "v")]]) / m))
+                    for r in b.resistors)
+        inrush = _inrush(supply, dimmer, dp, loads, gparams, levels, k) if extras else None
+        st = Stresses(float(np.max(np.abs(i1))), inrush, caps, res)
+        if "channel" in b.extra:
+            ia = [i for i, a in enumerate(eng.automata) if isinstance(a, ConverterUVLO)
+                  and a.ch == b.extra["channel"]][0]
+            running = np.array([s[1][ia] for s in seg_state])
+            if not running.all() and not dimmer_off:
+                flags.add("drop-out")
+        if dimmer_off and np.max(light) > 1e-3:
+            flags.add("glow-when-off")
+        pub = tuple((kk, v) for kk, v in p.items() if not kk.startswith("_"))
+        groups.append(GroupResult(g, pub, gw, led, light, st))
+    for arr in [wf.current_a] + [gr.light for gr in groups]:
+        if not np.all(np.isfinite(arr)):
+            raise ConvergenceError("the solution holds non-finite values; the solver failed")
+    return Solution(wf, tuple(groups), tuple(fl for fl in FLAGS if fl in flags), period, ok,
+                    iters, measured, fires, tuple(sorted(dp.items())))
+
+
+def _segment_states(tr, ts):
+    out = []
+    k = 0
+    segs = tr.segments
+    for t in ts:
+        while k < len(segs) - 1 and t >= segs[k].t1:
+            k += 1
+        out.append(segs[k].disc)
+    return out
+
+
+def _light(case, b, g, p, Y, col, seg_state, ts, supply, period, level, reference):
+    m = b.m
+    f = supply.frequency_hz
+    if b.light == "filament":
+        r = b.resistors[0]
+        pw = Y[col[(r, "i")]] * Y[col[(r, "v")]] / m
+        light = _thermal_light(pw, g.power_w, p["tau_thermal_s"], f, period)
+        return np.sqrt(np.maximum(pw, 0) / p["r_ohm"]), light
+    if b.light in ("converter", "pwm"):
+        ia = [i for i, a in enumerate(case.eng.automata) if isinstance(a, ConverterUVLO)
+              and a.ch == b.extra["channel"]][0]
+        running = np.array([1.0 if s[1][ia] else 0.0 for s in seg_state])
+        if b.light == "pwm":
+            fp = p["pwm_frequency_hz"]
+            duty = level
+            on = ((ts * fp) % 1.0) < duty
+            light = running * on
+        else:
+            light = running
+        return p["i_led_a"] * light, light.astype(float)
+    if b.light == "pfc":
+        # two-stage driver: the output stage holds the LED current steady at the set level
+        lv = np.full(ts.size, level)
+        return lv * 0.85 * g.power_w / 36.0, lv
+    # LED power through a string element (dropper), a tapped regulator or a DC load
+    if b.light == "tap":
+        ia = [i for i, a in enumerate(case.eng.automata) if isinstance(a, TapLevels)
+              and a.el == b.led][0]
+        lit = np.array([b.extra["lit"][s[1][ia]] for s in seg_state], dtype=float)
+        i_led = Y[col[(b.led, "i")]] / m
+        p_led = i_led * lit * b.extra["vseg"]
+    elif b.light == "dc-load":
+        r = b.prefix + "R_load"
+        i_led = Y[col[(r, "i")]] / m
+        p_led = i_led * Y[col[(r, "v")]]
+    else:
+        i_led = Y[col[(b.led, "i")]] / m
+        p_led = i_led * Y[col[(b.led, "v")]]
+    if reference:
+        return i_led, p_led
+    ref = _reference_led_power(supply.v_rms_v, f, g.model, g.power_w, g.params)
+    return i_led, p_led / ref
+
+
+@functools.lru_cache(maxsize=128)
+def _reference_led_power(v, f, model, power_w, params) -> float:
+    """Mean LED power of the lamp alone on its rated sinusoidal supply, undimmed [W]."""
+    sol = _solve_cached(Supply(v, f, 0.0, 0.0), DimmerSpec("none"),
+                        (LoadGroup(model, power_w, 1, params),), 1024, False, True)
+    ref = float(np.mean(sol.groups[0].light))
+    if not ref > 0:
+        raise ConvergenceError(f"{model}: the lamp gives no light on its rated supply; check "
+                               "its parameters")
+    return ref
+
+
+def _inrush(supply, dimmer, dp, loads, gparams, levels, k) -> float:
+    """Largest input current of one lamp of group ``k`` when everything is switched on at
+    the voltage crest with discharged capacitors (the dimmer fully on) [A]."""
+    case = _build(supply, dimmer, dp, loads, gparams, levels, inrush=True, grid=8192)
+    eng = case.eng
+    T = eng.T1
+    disc = (tuple([False] * len(case.net.diodes)), tuple(a.initial for a in eng.automata))
+    tr = eng.run(T / 4, T / 2, np.zeros(case.net.n_x), disc, record=True)
+    ts = T / 4 + np.arange(4096) * (T / 4) / 4096
+    Y, _ = eng.sample(tr, ts, [(case.builds[k].sense, "i")])
+    return float(np.max(np.abs(Y[0])) / case.builds[k].m)
