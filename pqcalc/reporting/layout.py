@@ -184,9 +184,10 @@ class Doc:
         self.rule(self.y, color=_INK, lw=0.8)
         self.y -= 0.15
 
-    def image(self, fig: Figure, width_in: float | None = None, caption: str | None = None
-              ) -> None:
-        """Embed a figure as a 200 dpi image, width ``width_in`` (default full width)."""
+    def image(self, fig: Figure, width_in: float | None = None, caption: str | None = None,
+              heading: str | None = None) -> None:
+        """Embed a figure as a 200 dpi image, width ``width_in`` (default full width); a
+        ``heading`` (level 3) is kept on the same page as the image."""
         from matplotlib.image import imread
 
         from ..plotting.style import STYLE, _mpl
@@ -198,11 +199,14 @@ class Doc:
         img = imread(buf, format="png")
         w = min(width_in or _WIDTH, _WIDTH)
         h = w * img.shape[0] / img.shape[1]
-        cap_h = 0.25 if caption else 0.0
-        self.need(h + cap_h)
+        cap_h = 0.3 if caption else 0.0
+        head_h = 10.0 / 72 * 1.6 + 0.12 if heading else 0.0
+        self.need(h + cap_h + head_h)
+        if heading:
+            self.heading(heading, level=3)
         ax = self.fig.add_axes([(_LEFT + (_WIDTH - w) / 2) / A4_IN[0], (self.y - h) / A4_IN[1],
                                 w / A4_IN[0], h / A4_IN[1]])
-        ax.imshow(img, interpolation="lanczos")
+        ax.imshow(img, interpolation="none")  # embedded at its own 200 dpi
         ax.set_axis_off()
         self.y -= h + 0.05
         if caption:

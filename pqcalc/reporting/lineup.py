@@ -44,6 +44,15 @@ class LineupEntry:
     fixture: str
     states: tuple[LineupState, ...]
     description: str = ""
+    dimmer: str = ""
+    notes: tuple[str, ...] = ()
+
+    @property
+    def title(self) -> str:
+        """Fixture name, with the dimmer kind when it was evaluated behind one."""
+        d = self.dimmer
+        return self.fixture + (f" behind {d} dimmer" if d and d not in ("none", "as recorded")
+                               else "")
 
     @property
     def verdict(self) -> str:
@@ -102,12 +111,14 @@ def lineup_entries(lineup: Iterable) -> list[LineupEntry]:
             lim = _get(s, "limits_a", "limits")
             if lim is None:
                 lim = limits_a_from_result(res, spec)
-            sts.append(LineupState(str(_get(s, "setting", "label", "state", default="")
-                                       or res.setting), spec, res,
+            sts.append(LineupState(str(_get(s, "setting", "setting_label", "label", "state",
+                                            default="") or res.setting), spec, res,
                                    {int(h): float(v) for h, v in dict(lim).items()
                                     if v is not None}))
-        out.append(LineupEntry(str(name), tuple(sts), str(_get(e, "description",
-                                                                default="") or "")))
+        out.append(LineupEntry(str(name), tuple(sts),
+                               str(_get(e, "description", default="") or ""),
+                               str(_get(e, "dimmer", default="") or ""),
+                               tuple(str(n) for n in (_get(e, "notes", default=()) or ()))))
     return out
 
 

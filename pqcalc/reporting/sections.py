@@ -110,7 +110,7 @@ def summary(doc: Doc, a: Assessment, lineup: Sequence[LineupEntry], lineup_notes
              f"{len(a.scenarios)} scenarios. Design scenario (highest panel currents): "
              f"{a.design.name}.", size=10, weight="bold")
     if lineup:
-        bad = [e.fixture for e in lineup if e.verdict == "fail"]
+        bad = [e.title for e in lineup if e.verdict == "fail"]
         doc.para(f"Fixture lineup, IEC 61000-3-2 Class C: {len(lineup) - len(bad)} of "
                  f"{len(lineup)} fixture types pass in every state evaluated"
                  + (f"; failing: {', '.join(bad)}." if bad else "."), size=10, weight="bold")
@@ -136,7 +136,7 @@ def summary(doc: Doc, a: Assessment, lineup: Sequence[LineupEntry], lineup_notes
               title=f"Currents in the design scenario ({sc.name})")
     f = _findings(a)
     limit = 16
-    doc.table([Col("status", 0.55), Col("where", 1.2), Col("check", 1.2),
+    doc.table([Col("status", 0.55), Col("where", 1.2), Col("check", 1.2, wrap=True),
                Col("finding [scenarios]", 4.0, wrap=True)],
               [(s.upper(), w, c, m) for s, w, c, m in f[:limit]], status_col=0,
               title="Failed and warned checks")
@@ -185,7 +185,7 @@ def lineup_section(doc: Doc, lineup: Sequence[LineupEntry], notes: Sequence[str]
                         key=lambda c: c.margin / abs(c.limit), default=None)
                 if c is not None:
                     worst = f"{c.quantity} {100 * c.margin / abs(c.limit):+.0f} %"
-            rows.append((e.fixture, s.setting, fmt_num(r.p_w, ".1f"), fmt_num(r.pf, ".3f"),
+            rows.append((e.title, s.setting, fmt_num(r.p_w, ".1f"), fmt_num(r.pf, ".3f"),
                          r.rule, worst, r.verdict.upper()))
     doc.table([Col("fixture type", 1.5), Col("state", 1.0), Col("P [W]", 0.55, "right"),
                Col("lambda [-]", 0.6, "right"), Col("rule", 1.6, wrap=True),
@@ -194,10 +194,14 @@ def lineup_section(doc: Doc, lineup: Sequence[LineupEntry], notes: Sequence[str]
     for n in notes:
         doc.para(n, size=8, color=_GREY)
     for e in lineup:
-        doc.heading(f"{e.fixture}" + (f": {e.description}" if e.description else ""), level=3)
         doc.image(_spectrum_fig(e), width_in=6.0,
-                  caption="Bars: harmonic current of the state shown; black marks: the limit "
-                          "of the deciding rule per order; hatched bars exceed it.")
+                  heading=f"{e.title}" + (f": {e.description}" if e.description else ""),
+                  caption="Bars: harmonic current of the state shown (the maximum-power "
+                          "state); black marks: the limit of the deciding rule per order; "
+                          "hatched bars exceed it.")
+        for n in e.notes:
+            if n not in notes:
+                doc.para(n, size=7.5, color=_GREY)
 
 
 # ----------------------------------------------------------------------------- panels
@@ -297,18 +301,20 @@ def assumptions(doc: Doc, a: Assessment, version: str) -> None:
     doc.heading(SECTION_TITLES[3], new_page=True)
     rows = [("system", s.system), ("line-to-neutral voltage", f"{s.voltage_ln_v:g} V"),
             ("frequency", f"{s.frequency_hz:g} Hz"),
-            ("source impedance per line", f"{z.r_ohm * 1e3:.2f} mohm + {z.l_h * 1e6:.1f} uH "
-                                          f"(from: {s.impedance_basis})"),
-            ("neutral impedance", f"{z.neutral_r_ohm * 1e3:.2f} mohm + "
-                                  f"{z.neutral_l_h * 1e6:.1f} uH"),
+            ("source impedance per line",
+             f"{z.r_ohm * 1e3:.2f} m\u03a9 + {z.l_h * 1e6:.1f} \u00b5H "
+             f"(from: {s.impedance_basis})"),
+            ("neutral impedance", f"{z.neutral_r_ohm * 1e3:.2f} m\u03a9 + "
+                                  f"{z.neutral_l_h * 1e6:.1f} \u00b5H"),
             ("prospective short-circuit current", f"{fmt_num(s.short_circuit_a, '.0f')} A")]
     if s.transformer_kva is not None:
         rows.append(("transformer", f"{s.transformer_kva:g} kVA, eddy-loss factor "
                                     f"{s.eddy_loss_pu:g} pu, rated {s.rated_current_a:.0f} A"))
     for fid, f in inst.feeders.items():
         fi = f.impedance
-        rows.append((f"feeder {fid}", f"{fi.r_ohm * 1e3:.1f} mohm + {fi.l_h * 1e6:.1f} uH per "
-                                      f"line; neutral {fi.neutral_r_ohm * 1e3:.1f} mohm"))
+        rows.append((f"feeder {fid}",
+                     f"{fi.r_ohm * 1e3:.1f} m\u03a9 + {fi.l_h * 1e6:.1f} \u00b5H per line; "
+                     f"neutral {fi.neutral_r_ohm * 1e3:.1f} m\u03a9"))
     an = inst.analysis
     rows += [("supply interaction", ("re-solved under the distorted panel voltage, tolerance "
                                      f"{100 * an.tolerance:g} %, at most {an.max_iterations} "
@@ -319,7 +325,8 @@ def assumptions(doc: Doc, a: Assessment, version: str) -> None:
     if inst.pcc:
         rows.append(("point of common coupling", ", ".join(f"{k} = {v}" for k, v in
                                                            sorted(inst.pcc.items()))))
-    doc.table([Col("item", 2.0), Col("value", 4.8, wrap=True)], rows, title="Supply and analysis")
+    doc.table([Col("item", 2.0, wrap=True), Col("value", 4.8, wrap=True)], rows,
+              title="Supply and analysis")
     frows = []
     for fid, f in inst.fixtures.items():
         if f.measured:
