@@ -631,7 +631,11 @@ def write_comtrade(
             k = x.shape[0]
             seq = np.arange(count + 1, count + k + 1, dtype=np.uint32)
             if timestamps:
-                ts = np.round(np.arange(count, count + k) / sample_rate_hz * 1e6).astype(np.uint32)
+                us = np.round(np.arange(count, count + k) / sample_rate_hz * 1e6)
+                if us[-1] >= _TS_MISSING:
+                    raise InputError("the record outlasts 32-bit microsecond time stamps "
+                                     "(71 minutes); write it with timestamps=False")
+                ts = us.astype(np.uint32)
             else:
                 ts = np.full(k, _TS_MISSING, dtype=np.uint32)
             if ft == "FLOAT32":
