@@ -215,16 +215,11 @@ def _dimmer_spec(c: Circuit, cond, knob):
 
 
 def _stress(g, w) -> tuple[float, float, float, float | None]:
-    """(i_rms of one lamp, inrush peak of one lamp, power of one lamp, mean light) from a
-    solved group."""
-    one = g.current if hasattr(g, "current") else g.waveform
-    st = dict(getattr(g, "stresses", {}) or {})
-    inrush = st.get("inrush_peak_a", st.get("peak_current_a", float(np.max(np.abs(one.current_a)))))
-    p_one = float(np.mean(one.current_a * w.voltage_v[: one.n_samples])) if (
-        w.voltage_v is not None and one.n_samples == w.n_samples) else float("nan")
-    light = getattr(g, "light_rel", None)
-    light_mean = None if light is None else float(np.mean(light))
-    return one.i_rms_a, float(inrush), p_one, light_mean
+    """(i_rms, inrush peak when switched on at the crest, power, mean relative light) of
+    one lamp of a solved group."""
+    st = g.stresses
+    return (float(g.waveform.i_rms_a), float(st.inrush_peak_a), float(g.p_w),
+            None if g.light_mean is None else float(g.light_mean))
 
 
 def _group_tail(one: CaseResult) -> tuple:

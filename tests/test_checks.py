@@ -35,7 +35,9 @@ def test_breaker_bands_iec_60898():
     # 113.1..226.3 A.
     assert ck.breaker_inrush(100.0, 16.0, "C").status == "pass"
     assert ck.breaker_inrush(150.0, 16.0, "C").status == "warn"
-    assert ck.breaker_inrush(230.0, 16.0, "C").status == "fail"
+    # above the band: still a warning (the pulses are far shorter than the band's test
+    # current, common practice), never a failure on the peak alone
+    assert ck.breaker_inrush(230.0, 16.0, "C").status == "warn"
     m = ck.breaker_max_fixtures(10.0, 0.1, 16.0, "B")
     # B: 3 * 16 * sqrt2 = 67.9 A -> 6 lamps of 10 A inrush; steady 0.8*16/0.1 = 128
     assert m == {"inrush_bound": 6, "steady_bound": 128, "max_fixtures": 6}
