@@ -194,7 +194,8 @@ class Diversity:
 class AnalysisOptions:
     supply_interaction: bool = True
     max_iterations: int = 8
-    tolerance: float = 1e-3
+    #: largest change of any harmonic voltage between iterations [fraction of V1]
+    tolerance: float = 2e-4
     scenario_names: tuple[str, ...] = ()
 
 
@@ -490,7 +491,7 @@ def load_installation(path: str | Path) -> Installation:
         raise fld.error("analysis.scenarios", f"{nscen} names (one per scenario)", names)
     analysis = AnalysisOptions(
         si, int(fld.num(an, "max_iterations", "analysis.max_iterations", 8, lo=1, hi=50)),
-        fld.num(an, "tolerance", "analysis.tolerance", 1e-3, positive=True),
+        fld.num(an, "tolerance", "analysis.tolerance", 2e-4, positive=True),
         tuple(str(x) for x in names))
 
     dv = fld.table(data, "diversity", "diversity", required=False)
