@@ -176,6 +176,26 @@ class CaseSolver:
                               hit.flags, hit.groups, hit.notes)
         return hit
 
+    def rated_params(self, fid: str) -> dict:
+        """A fixture type's component values fixed at the nominal supply voltage.
+
+        The models scale their default components with the supply voltage; a lamp built for
+        the nominal voltage keeps its components when the panel voltage sags or distorts, so
+        they are resolved once here and passed on explicitly.
+        """
+        key = ("params", fid)
+        if key not in self.cache:
+            from .circuits.drivers import resolve_params
+
+            ft = self.inst.fixtures[fid]
+            try:
+                full = resolve_params(ft.model, ft.power_w, self.inst.supply.voltage_ln_v,
+                                      self.inst.supply.frequency_hz, dict(ft.params))
+            except InputError as e:
+                raise InputError(f"fixtures.{fid}: {e}") from None
+            self.cache[key] = {k: v for k, v in full.items() if v is not None}
+        return self.cache[key]
+
     def _solve(self, c: Circuit, cond, knob, groups, v1, harm) -> CaseResult:
         from .circuits import LoadGroup, Supply, solve_circuit
 
@@ -186,7 +206,7 @@ class CaseSolver:
                         voltage_harmonics=list(harm) if harm else None)
         dimmer = _dimmer_spec(c, cond, knob)
         loads = [LoadGroup(model=inst.fixtures[f].model, power_w=inst.fixtures[f].power_w,
-                           count=n, params=dict(inst.fixtures[f].params)) for f, n in groups]
+                           count=n, params=self.rated_params(f)) for f, n in groups]
         sol = solve_circuit(supply, dimmer, loads)
         w = sol.waveform
         x = to_grid(w, w.cycles)
@@ -374,7 +394,8 @@ class Assessment:
                        "frequency_hz": inst.supply.frequency_hz,
                        "source_r_ohm": inst.supply.impedance.r_ohm,
                        "source_l_h": inst.supply.impedance.l_h,
-                       "short_circuit_a": inst.supply.short_circuit_a},
+                       "short_circuit_a": (inst.supply.short_circuit_a
+                                           if np.isfinite(inst.supply.short_circuit_a) else None)},
             "lamps": inst.n_lamps, "distinct_solves": self.solves,
             "design_scenario": self.design.name,
             "circuits": d["circuits"], "panels": d["panels"], "feeders": d["feeders"],

@@ -1,0 +1,143 @@
+"""Whole-installation assessment against closed forms (circuit theory and phasor algebra).
+
+The circuit models used here are the resistive filament (fast and linear) and ideal phase
+cuts (a triac with zero latching and holding current opens at current zero), so every
+figure has a closed form.
+"""
+
+from __future__ import annotations
+
+import json
+
+import numpy as np
+import pytest
+from click.testing import CliRunner
+
+from pqcalc.assess import assess
+from pqcalc.cli import main
+from pqcalc.installation import load_installation
+
+HEAD = """
+[supply]
+system = "three-phase-wye"
+voltage_ln_v = 230
+frequency_hz = 50
+{impedance}
+[analysis]
+supply_interaction = {interaction}
+
+[fixtures.lamp]
+model = "resistive"
+power_w = 100.0
+
+[[panels]]
+id = "P1"
+"""
+
+CIRCUIT = """
+[[panels.circuits]]
+id = "{id}"
+phase = "{phase}"
+breaker_a = 16
+dimmer = "{dimmer}"
+{setting}
+dimmer_params = {{latching_current_a = 0.0, holding_current_a = 0.0}}
+fixtures = [{{type = "lamp", count = {count}}}]
+"""
+
+
+def build(tmp_path, circuits, impedance="source_r_ohm = 0.0", interaction="false"):
+    text = HEAD.format(impedance=impedance, interaction=interaction)
+    for i, (phase, dimmer, cond, count) in enumerate(circuits):
+        setting = "" if dimmer == "none" else f"conduction_deg = {cond}"
+        text += CIRCUIT.format(id=f"c{i}", phase=phase, dimmer=dimmer, setting=setting,
+                               count=count)
+    if all(d == "none" for _, d, _, _ in circuits):
+        text = text.replace("dimmer_params = {latching_current_a = 0.0, holding_current_a = 0.0}\n",
+                            "")
+    p = tmp_path / "site.toml"
+    p.write_text(text)
+    return load_installation(p)
+
+
+def test_balanced_90_deg_resistive_neutral_is_sqrt2(tmp_path):
+    # Closed form (Fourier series of the phase-controlled sine; reference list): balanced
+    # resistive loads cut at 90 deg on three lines give I_N / I_ph = sqrt(2). Tolerance 1 %:
+    # the dimmer model's snubber and off-state leakage add a little current.
+    inst = build(tmp_path, [(ph, "leading-edge", 90, 4) for ph in ("L1", "L2", "L3")])
+    a = assess(inst)
+    p = a.design.panels[0]
+    assert p.neutral.ratio_to_max_phase == pytest.approx(np.sqrt(2), rel=0.01)
+    # each line: I_rms = (V/R) sqrt(1/2) for 4 lamps of R = V^2/P (closed form)
+    r = 230.0**2 / 100.0
+    assert p.lines["L1"].i_rms_a == pytest.approx(4 * 230.0 / r * np.sqrt(0.5), rel=0.01)
+
+
+def test_uncut_balanced_resistive_has_no_neutral_current(tmp_path):
+    # Phasor algebra: a balanced set of sinusoidal currents sums to zero in the neutral.
+    inst = build(tmp_path, [(ph, "none", 180, 10) for ph in ("L1", "L2", "L3")])
+    p = assess(inst).design.panels[0]
+    assert p.neutral.i_rms_a < 1e-6 * p.lines["L1"].i_rms_a
+    assert p.lines["L2"].pf == pytest.approx(1.0, abs=1e-6)
+
+
+def test_lamp_count_linearity(tmp_path):
+    # Linearity: N identical lamps on a stiff supply draw N times one lamp's current.
+    one = assess(build(tmp_path, [("L1", "none", 180, 1)])).design.circuits[0]
+    many = assess(build(tmp_path, [("L1", "none", 180, 37)])).design.circuits[0]
+    assert many.i_rms_a == pytest.approx(37 * one.i_rms_a, rel=1e-9)
+
+
+def test_supply_interaction_matches_voltage_divider(tmp_path):
+    # Circuit theory: resistive lamps behind a source impedance Z form a voltage divider; the
+    # converged panel voltage is E R_eq / (R_eq + Z) with R_eq = R_lamp / n (balanced, so no
+    # neutral current and no neutral drop).
+    z_r, z_l, n = 0.5, 1e-3, 20
+    imp = f"source_r_ohm = {z_r}\nsource_l_h = {z_l}"
+    inst = build(tmp_path, [(ph, "none", 180, n) for ph in ("L1", "L2", "L3")], imp, "true")
+    sc = assess(inst).design
+    r_eq = 230.0**2 / 100.0 / n
+    z = z_r + 1j * 2 * np.pi * 50 * z_l
+    i_expect = 230.0 / abs(r_eq + z)
+    assert sc.interaction_iterations >= 1
+    assert sc.ideal is not None
+    assert sc.panels[0].lines["L1"].i_rms_a == pytest.approx(i_expect, rel=5e-4)
+    # 5e-4: the model's own small series parts take ~1e-4 of the current
+    assert sc.ideal.panels[0].lines["L1"].i_rms_a == pytest.approx(230.0 / r_eq, rel=5e-4)
+    assert sc.panels[0].lines["L1"].v_rms_v == pytest.approx(i_expect * r_eq, rel=5e-4)
+
+
+def test_assess_json_keys_and_exit_codes(tmp_path):
+    build(tmp_path, [(ph, "leading-edge", 90, 4) for ph in ("L1", "L2", "L3")])
+    r = CliRunner().invoke(main, ["assess", str(tmp_path / "site.toml"), "--json"])
+    assert r.exit_code == 0, r.output
+    d = json.loads(r.output)
+    c = d["circuits"][0]
+    assert {"id", "panel", "phase", "i_rms_a", "thd_i_pct", "pf", "flags"} <= set(c)
+    p = d["panels"][0]
+    assert set(p["phases"]) == {"L1", "L2", "L3"}
+    assert {"i_rms_a", "thd_i_pct"} <= set(p["phases"]["L1"])
+    assert {"i_rms_a", "ratio_to_max_phase", "triplen_share_pct"} <= set(p["neutral"])
+    assert "licensed professional" in d["caution"]
+    # a neutral ampacity below the neutral current fails the neutral check: exit 1
+    text = (tmp_path / "site.toml").read_text().replace('id = "P1"',
+                                                        'id = "P1"\nneutral_ampacity_a = 1')
+    (tmp_path / "site.toml").write_text(text)
+    r = CliRunner().invoke(main, ["assess", str(tmp_path / "site.toml")])
+    assert r.exit_code == 1
+    assert "FAIL  neutral conductor" in r.output
+
+
+def test_summation_diversity_triplens_add(tmp_path):
+    # IEC TR 61000-3-6 summation law (exponent 1 below order 5, from memory): the third
+    # harmonic of independently dimmed circuits on one line adds arithmetically.
+    inst = build(tmp_path, [("L1", "leading-edge", 90, 2), ("L1", "leading-edge", 90, 2)])
+    from dataclasses import replace
+
+    from pqcalc.installation import Diversity
+
+    inst = replace(inst, diversity=Diversity(mode="summation"))
+    a = assess(inst)
+    one = a.design.circuits[0]
+    i3 = a.diversity["panels"][0]["phases"]["L1"]["i3_a"]
+    assert i3 == pytest.approx(2 * one.magnitudes_a[3], rel=1e-9)
