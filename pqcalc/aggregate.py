@@ -60,10 +60,21 @@ def to_grid(w: Waveform, cycles: int, samples_per_cycle: int = GRID_SAMPLES) -> 
     n = samples_per_cycle * w.cycles
     x = w.current_a
     if x.size != n:
-        from scipy.signal import resample
-
-        x = resample(x, n)
+        x = _fourier_resample(x, n)
     return np.tile(x, cycles // w.cycles)
+
+
+def _fourier_resample(x: np.ndarray, n: int) -> np.ndarray:
+    """Periodic record resampled to ``n`` points by truncating or zero-padding its DFT."""
+    X = np.fft.rfft(x)
+    Y = np.zeros(n // 2 + 1, dtype=complex)
+    m = min(X.size, Y.size)
+    Y[:m] = X[:m]
+    if n % 2 == 0 and m == Y.size:
+        Y[-1] = Y[-1].real  # the new Nyquist line of a real record is real
+    if x.size % 2 == 0 and m == X.size and X.size < Y.size:
+        Y[m - 1] *= 0.5  # the old Nyquist line splits into +-f
+    return np.fft.irfft(Y, n) * (n / x.size)
 
 
 def common_period(periods) -> int:

@@ -143,7 +143,18 @@ class CaseSolver:
 
     def case(self, c: Circuit, scenario: int, voltage=None) -> CaseResult:
         """The circuit's current at a scenario; ``voltage`` = (v1_rms, harmonics, delta)
-        of its panel line in the line's own frame, or None for the ideal supply."""
+        of its panel line in the line's own frame, or None for the ideal supply.
+
+        Circuits that differ only in id, panel, line or breaker share one result object.
+        """
+        key = ("circuit", c.groups, c.dimmer, c.setting(scenario), c.dimmer_params,
+               c.branch_r_ohm, c.branch_l_h, voltage)
+        hit = self.cache.get(key)
+        if hit is None:
+            hit = self.cache[key] = self._case(c, scenario, voltage)
+        return hit
+
+    def _case(self, c: Circuit, scenario: int, voltage) -> CaseResult:
         cond, knob = c.setting(scenario)
         measured = [g for g in c.groups if self.inst.fixtures[g.fixture].measured]
         modelled = [g for g in c.groups if not self.inst.fixtures[g.fixture].measured]
@@ -530,7 +541,16 @@ def _own_frame(inst: Installation, vmap):
     return out
 
 
-def _circuit_result(inst, c: Circuit, cs: CaseResult, scenario: int, v_own) -> CircuitResult:
+_METRICS: dict = {}
+
+
+def _case_metrics(inst, cs: CaseResult, v_own):
+    """(magnitudes, i_rms, i1, i_peak, thd, pf, dpf) of a case under a panel voltage; memoised
+    on the case object (shared by identical circuits)."""
+    key = (id(cs), v_own)
+    hit = _METRICS.get(key)
+    if hit is not None and hit[0] is cs:
+        return hit[1]
     v1 = inst.supply.voltage_ln_v if v_own is None else v_own[0]
     ph = grid_phasors(cs.current_a, cs.cycles)
     m = np.abs(ph)
@@ -540,6 +560,16 @@ def _circuit_result(inst, c: Circuit, cs: CaseResult, scenario: int, v_own) -> C
     dpf = float(np.cos(delta - np.angle(ph[1]))) if i1 > 0 else None
     v_rms = v1 if v_own is None else v1 * np.sqrt(1 + sum(r * r for _, r, _ in v_own[1]))
     pf = cs.p_w / (v_rms * i_rms) if i_rms > 0 else None
+    out = (m, i_rms, i1, float(np.max(np.abs(cs.current_a))),
+           float(thd(m, 40)) if i1 > 0 else 0.0, pf, dpf)
+    if len(_METRICS) > 100_000:
+        _METRICS.clear()
+    _METRICS[key] = (cs, out)
+    return out
+
+
+def _circuit_result(inst, c: Circuit, cs: CaseResult, scenario: int, v_own) -> CircuitResult:
+    m, i_rms, i1, i_peak, thd_i, pf, dpf = _case_metrics(inst, cs, v_own)
     cond, knob = c.setting(scenario)
     inrush = sum(g.count * g.inrush_peak_one_a for g in cs.groups)
     checks = [ck.breaker_inrush(inrush, c.breaker_a, c.breaker_curve)]
@@ -575,8 +605,7 @@ def _circuit_result(inst, c: Circuit, cs: CaseResult, scenario: int, v_own) -> C
     mx = {g.fixture: ck.breaker_max_fixtures(g.inrush_peak_one_a, g.i_rms_one_a, c.breaker_a,
                                              c.breaker_curve) for g in cs.groups}
     return CircuitResult(c.id, c.panel, c.phase, cond if c.dimmer != "none" else None, knob,
-                         i_rms, i1, float(np.max(np.abs(cs.current_a))),
-                         float(thd(m, 40)) if i1 > 0 else 0.0, cs.p_w, pf, dpf, inrush,
+                         i_rms, i1, i_peak, thd_i, cs.p_w, pf, dpf, inrush,
                          cs.flags, tuple(checks), mx, cs.notes, m)
 
 
