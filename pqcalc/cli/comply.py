@@ -73,7 +73,9 @@ def _label(path: str) -> str:
 @click.argument("captures", nargs=-1, type=click.Path(dir_okay=True))
 @capture_options
 @click.option("--installation", "installation", type=click.Path(dir_okay=False),
-              help="Evaluate the measured fixture types of this installation file.")
+              help="Evaluate every fixture type of this installation file, at full output "
+                   "and at five dimmed states behind a reference phase cut of each dimmer "
+                   "kind it is used with.")
 @click.option("--class", "equipment_class", type=click.Choice(EQUIPMENT_CLASSES),
               default="C", show_default=True, help="IEC 61000-3-2 equipment class.")
 @click.option("--settings-of", "settings_of", metavar="NAME",
@@ -108,24 +110,18 @@ def comply_cmd(captures, installation, equipment_class, settings_of, power_w, pf
     if nominal_voltage is not None and not nominal_voltage > 0:
         raise InputError(f"--nominal-voltage: expected a positive voltage, got {nominal_voltage}")
     jobs = []  # (fixture, [(setting, waveform)])
-    skipped: list[str] = []
+    lineup_results: list[FixtureResult] = []
+    lineup_notes: list[str] = []
     if installation:
         from ..installation import load_installation
+        from ..lineup import evaluate_lineup
 
-        try:
-            inst = load_installation(installation)
-        except ImportError as e:
-            raise InputError(f"{installation}: reading it needs the circuit models "
-                             f"(pqcalc.circuits), which are not available yet ({e})") from None
-        for fid, ft in inst.fixtures.items():
-            if not ft.measured:
-                skipped.append(fid)
-                continue
-            try:
-                w = record_to_waveform(load_capture(ft.capture, ft.capture_options))
-            except InputError as e:
-                raise InputError(f"{installation}: fixtures.{fid}.capture: {e}") from None
-            jobs.append((fid, [("", w)]))
+        inst = load_installation(installation)
+        for e in evaluate_lineup(inst, equipment_class):
+            res = e.result.results if hasattr(e.result, "results") else (e.result,)
+            lineup_results.extend(res)
+            lineup_notes.extend(f"{e.fixture} ({e.source}, {e.dimmer}): {n}" for n in e.notes
+                                if n != CAUTION)
     opts = csv_options_from(kw)
     waves = []
     for c in captures:
@@ -140,16 +136,11 @@ def comply_cmd(captures, installation, equipment_class, settings_of, power_w, pf
         jobs.append((settings_of, waves))
     else:
         jobs.extend((label, [(label, w)]) for label, w in waves)
-    if not jobs:
-        if skipped:
-            raise InputError(
-                f"{installation}: fixture types {', '.join(skipped)} are circuit models; "
-                "their evaluation needs the circuit solver, which is not available yet"
-            )
+    if not jobs and not lineup_results:
         raise InputError("expected at least one CAPTURE or --installation FILE")
 
-    results: list[FixtureResult] = []
-    notes: list[str] = []
+    results: list[FixtureResult] = list(lineup_results)
+    notes: list[str] = list(dict.fromkeys(lineup_notes))
     for fixture, states in jobs:
         nominal = nominal_voltage
         if nominal is None:
@@ -171,9 +162,6 @@ def comply_cmd(captures, installation, equipment_class, settings_of, power_w, pf
             s, w = states[0]
             results.append(evaluate_fixture(w, power_w, pf, equipment_class, fixture=fixture,
                                             setting=s if settings_of else "", **common))
-    if skipped:
-        notes.append(f"fixture types {', '.join(skipped)} are circuit models and were not "
-                     "evaluated (the circuit solver is not available yet)")
 
     failed = [r for r in results if r.verdict == "fail"]
     if as_json:
