@@ -66,3 +66,24 @@ def test_comply_installation_cli(tmp_path):
     d = json.loads(r.output)
     assert {"fixture", "setting", "verdict", "rule"} <= set(d["results"][0])
     assert any(x["verdict"] == "fail" for x in d["results"])
+
+
+def test_plot_installation_figures(tmp_path):
+    # Figures from an installation: a fixture type against its limits, and (three-phase) a
+    # panel and its neutral spectrum; each a valid PNG (signature per the PNG specification).
+    p = site(tmp_path)
+    r = CliRunner().invoke(main, ["plot", "spectrum", str(p), "--fixture", "halogen",
+                                  "-o", str(tmp_path / "s.png")])
+    assert r.exit_code == 0, r.output
+    assert (tmp_path / "s.png").read_bytes()[:8] == b"\x89PNG\r\n\x1a\n"
+    text = p.read_text().replace('"single-phase"', '"three-phase-wye"')
+    p.write_text(text)
+    for fig in ("panel", "neutral-spectrum"):
+        out = tmp_path / f"{fig}.png"
+        r = CliRunner().invoke(main, ["plot", fig, str(p), "-o", str(out)])
+        assert r.exit_code == 0, r.output
+        assert out.read_bytes()[:8] == b"\x89PNG\r\n\x1a\n"
+    r = CliRunner().invoke(main, ["plot", "panel", str(p), "--panel", "X", "-o",
+                                  str(tmp_path / "x.png")])
+    assert r.exit_code == 2 and "known: P" in r.output
+    assert not (tmp_path / "x.png").exists()

@@ -100,6 +100,9 @@ def write_atomic(path: str | os.PathLike, data: bytes | str) -> None:
     try:
         with os.fdopen(fd, mode) as f:
             f.write(data)
+        umask = os.umask(0)
+        os.umask(umask)
+        os.chmod(tmp, 0o666 & ~umask)  # mkstemp's private 0600 would carry over
         os.replace(tmp, p)
     except BaseException:
         Path(tmp).unlink(missing_ok=True)

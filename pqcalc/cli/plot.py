@@ -15,8 +15,10 @@ from .analyze import capture_options, csv_options_from
 
 #: Figure names of ``pqcalc plot``, and which kinds of source each one is made from.
 FIGURES: dict[str, tuple[str, ...]] = {
-    "spectrum": ("capture",),
-    "waveform": ("capture",),
+    "spectrum": ("capture", "installation"),
+    "waveform": ("capture", "installation"),
+    "panel": ("installation",),
+    "neutral-spectrum": ("installation",),
 }
 
 
@@ -54,18 +56,27 @@ def _check_output(output: str) -> Path:
 @click.option("--title", help="Figure title (default from the source).")
 @click.option("--dpi", type=click.IntRange(50, 1200), default=200, show_default=True,
               help="Resolution of PNG output.")
+@click.option("--panel", "panel_id",
+              help="installation: the panel (default: the one whose neutral carries the most "
+                   "relative to its phases).")
+@click.option("--fixture", "fixture_id",
+              help="installation spectrum/waveform: the fixture type (default: the first).")
+@click.option("--scenario", "scenario_name",
+              help="installation panel figures: scenario name (default: the design one).")
 @user_errors
 def plot_cmd(figure, source, output, unit, log, limits_class, power_w, pf, max_order, cycles,
-             title, dpi, **kw):
+             title, dpi, panel_id, fixture_id, scenario_name, **kw):
     """Draw FIGURE from SOURCE into the file given by -o.
 
     FIGURE is one of: spectrum (harmonic currents per order; with --limits the
     IEC 61000-3-2 limit of each order is marked and the orders over it are hatched),
     waveform (voltage and current over whole cycles from the voltage zero crossing, the
     dimmer cut shaded). SOURCE is a capture (delimited text or COMTRADE .cfg, read as by
-    ``pqcalc analyze``). The file type follows the suffix of the output: .png, .svg or
-    .pdf; it is written only once the figure
-    is complete.
+    ``pqcalc analyze``) or an installation file (.toml): then spectrum and waveform show a
+    fixture type at full output with its IEC 61000-3-2 limits (--fixture), and panel
+    (phase and neutral rms with the triplen share) and neutral-spectrum show a panel
+    (--panel, --scenario). The file type follows the suffix of the output: .png, .svg or
+    .pdf; it is written only once the figure is complete.
     """
     from .. import plots
     from ..io.capture import load_capture, record_to_waveform
@@ -76,6 +87,16 @@ def plot_cmd(figure, source, output, unit, log, limits_class, power_w, pf, max_o
         raise InputError(f"FIGURE: unknown figure {figure!r}; expected one of "
                          f"{', '.join(FIGURES)}")
     out = _check_output(output)
+    kind = "installation" if Path(source).suffix.lower() == ".toml" else "capture"
+    if kind not in FIGURES[figure]:
+        raise InputError(f"FIGURE: {figure} is drawn from " + " or ".join(FIGURES[figure])
+                         + f" sources, not from {Path(source).name}")
+    if kind == "installation":
+        fig = _installation_figure(figure, source, unit, log, max_order, cycles, title,
+                                   panel_id, fixture_id, scenario_name)
+        plots.save_figure(fig, out, dpi=dpi)
+        click.echo(f"wrote {out}")
+        return
     rec = load_capture(source, csv_options_from(kw))
     w = record_to_waveform(rec, nominal_hz=kw.get("nominal_frequency"))
     if figure == "spectrum":
@@ -95,3 +116,58 @@ def plot_cmd(figure, source, output, unit, log, limits_class, power_w, pf, max_o
         fig = plots.waveform_figure(w, cycles=cycles, title=title)
     plots.save_figure(fig, out, dpi=dpi)
     click.echo(f"wrote {out}")
+
+
+def _installation_figure(figure, source, unit, log, max_order, cycles, title, panel_id,
+                         fixture_id, scenario_name):
+    """Figures of an installation: a fixture type of its lineup, or a panel's currents."""
+    from .. import plots
+    from ..installation import load_installation
+
+    inst = load_installation(source)
+    if figure in ("spectrum", "waveform"):
+        from ..lineup import evaluate_lineup
+
+        entries = evaluate_lineup(inst)
+        ids = [e.fixture for e in entries]
+        pick = fixture_id or ids[0]
+        if pick not in ids:
+            raise InputError(f"--fixture: no fixture type {pick!r}; known: {', '.join(ids)}")
+        e = entries[ids.index(pick)]
+        st = e.states[0]
+        if figure == "waveform":
+            return plots.waveform_figure(st.waveform, cycles=min(cycles, st.waveform.cycles),
+                                         title=title or f"{pick} at {st.setting_label}")
+        marks = plots.limit_marks(st.result, st.spectrum.i1_a, unit)
+        return plots.spectrum_figure(st.spectrum, marks.limits, unit=unit, log=log,
+                                     max_order=max_order,
+                                     title=title or f"{pick} at {st.setting_label}",
+                                     limits_label=marks.label, disregarded=marks.disregarded)
+    from ..assess import assess
+
+    a = assess(inst)
+    sc = a.design
+    if scenario_name is not None:
+        names = [s.name for s in a.scenarios]
+        if scenario_name not in names:
+            raise InputError(f"--scenario: no scenario {scenario_name!r}; known: "
+                             + ", ".join(names))
+        sc = a.scenarios[names.index(scenario_name)]
+    panels = {p.id: p for p in sc.panels}
+    if panel_id is None:
+        with_n = [p for p in sc.panels if p.neutral is not None]
+        if not with_n:
+            raise InputError(f"{source}: a single-phase supply has no separate neutral figure")
+        panel_id = max(with_n, key=lambda p: p.neutral.ratio_to_max_phase).id
+    if panel_id not in panels:
+        raise InputError(f"--panel: no panel {panel_id!r}; known: {', '.join(panels)}")
+    p = panels[panel_id]
+    if p.neutral is None:
+        raise InputError(f"--panel {panel_id}: a single-phase panel has no separate neutral")
+    t = title or f"{panel_id} ({sc.name})"
+    if figure == "panel":
+        rms = {ln: r.i_rms_a for ln, r in p.lines.items()}
+        rms["N"] = p.neutral.i_rms_a
+        return plots.panel_figure(rms, p.neutral.triplen_share, title=t)
+    return plots.neutral_spectrum_figure(p.neutral.magnitudes_a, max_order=max_order, log=log,
+                                         title=f"neutral of {t}")
