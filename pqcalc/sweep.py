@@ -524,21 +524,26 @@ def _run_on(client, items, evaluator, chunk_size, progress) -> list:
 
     workers = len(client.scheduler_info().get("workers", {})) or 1
     size = chunk_size or _default_chunk(len(items), workers)
-    chunks = _chunks(items, size)
-    futures = client.map(_eval_chunk, [evaluator] * len(chunks), chunks, pure=False)
+    n_chunks = math.ceil(len(items) / size)
+    # strided chunks: neighbouring cases (one costly fixture type at many settings, say)
+    # spread over all chunks, which balances the workers better than contiguous runs
+    members = [list(range(k, len(items), n_chunks)) for k in range(n_chunks)]
+    chunks = [[items[i] for i in m] for m in members]
+    futures = client.map(_eval_chunk, [evaluator] * n_chunks, chunks, pure=False)
     index = {f.key: k for k, f in enumerate(futures)}
-    results: list = [None] * len(chunks)
+    out: list = [None] * len(items)
     done = 0
     try:
         for fut in as_completed(futures):
             k = index[fut.key]
-            results[k] = fut.result()  # re-raises an evaluator's InputError here
-            done += len(chunks[k])
+            for i, o in zip(members[k], fut.result(), strict=True):  # re-raises InputError
+                out[i] = o
+            done += len(members[k])
             if progress:
                 progress(done, len(items))
     finally:
         client.cancel(futures)
-    return [o for r in results for o in r]
+    return out
 
 
 # ------------------------------------------------------------------------- datasets
