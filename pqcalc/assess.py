@@ -136,7 +136,8 @@ class CaseSolver:
             x = to_grid(w, w.cycles, spc).reshape(w.cycles, spc).mean(axis=0)
             self.captures[fid] = (x, p1, float(w.current_a.max()), tuple(notes))
         x, p1, peak, notes = self.captures[fid]
-        g = GroupStress(fid, count, float(np.sqrt(np.mean(x**2))), peak, p1, None)
+        # a steady-state record holds no switch-on inrush: unknown (NaN), not its peak
+        g = GroupStress(fid, count, float(np.sqrt(np.mean(x**2))), float("nan"), p1, None)
         return CaseResult(x * count, 1, p1 * count, (), (g,),
                           notes + (f"fixture {fid}: measured record used at its recorded "
                                    "conditions (dimmer setting not applied)",))
@@ -571,8 +572,15 @@ def _case_metrics(inst, cs: CaseResult, v_own):
 def _circuit_result(inst, c: Circuit, cs: CaseResult, scenario: int, v_own) -> CircuitResult:
     m, i_rms, i1, i_peak, thd_i, pf, dpf = _case_metrics(inst, cs, v_own)
     cond, knob = c.setting(scenario)
-    inrush = sum(g.count * g.inrush_peak_one_a for g in cs.groups)
+    inrush = sum(g.count * g.inrush_peak_one_a for g in cs.groups
+                 if np.isfinite(g.inrush_peak_one_a))
     checks = [ck.breaker_inrush(inrush, c.breaker_a, c.breaker_curve)]
+    unknown = [g.fixture for g in cs.groups if not np.isfinite(g.inrush_peak_one_a)]
+    if unknown:
+        checks.append(ck.Check("breaker inrush", "info",
+                               f"inrush of {', '.join(unknown)} unknown (a steady-state record); "
+                               "the inrush figure covers the modelled fixtures only",
+                               "measured record", None, None, ""))
     load = i_rms / c.breaker_a
     src = "continuous load at most 80 % of the breaker rating (common practice; NEC 210.20(A))"
     if load > 1:

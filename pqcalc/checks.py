@@ -112,7 +112,8 @@ def breaker_max_fixtures(
     """
     k_lo, _ = _band(curve)
     lo = np.sqrt(2) * k_lo * rating_a
-    n_inrush = int(lo // inrush_peak_per_lamp_a) if inrush_peak_per_lamp_a > 0 else None
+    n_inrush = (int(lo // inrush_peak_per_lamp_a)
+                if np.isfinite(inrush_peak_per_lamp_a) and inrush_peak_per_lamp_a > 0 else None)
     n_steady = int(continuous_factor * rating_a // i_rms_per_lamp_a) if i_rms_per_lamp_a > 0 else None
     bounds = [n for n in (n_inrush, n_steady) if n is not None]
     return {"inrush_bound": n_inrush, "steady_bound": n_steady,

@@ -72,6 +72,10 @@ def assess_cmd(installation, as_json, which, no_interaction):
     sys.exit(1 if a.failed else 0)
 
 
+def _groups(a, c):
+    return next(x.groups for x in a.installation.circuits if x.id == c.id)
+
+
 def _flags(checks) -> str:
     bad = [c for c in checks if c.status in ("fail", "warn")]
     return ", ".join(f"{c.status.upper()} {c.name}" for c in bad) or "ok"
@@ -101,6 +105,15 @@ def print_assessment(a, scenarios) -> None:
             out(f"  {c.id:<12} {c.panel:<8} {c.phase:<3} {st:>5} {c.i_rms_a:>8.3f} "
                 f"{100 * c.thd_i:>7.1f} {fmt(c.pf, '.2f'):>5} {fmt(c.dpf, '.2f'):>5} "
                 f"{c.p_w:>8.1f}  {_flags(c.checks)}")
+        cap = [(c, f, m) for c in sc.circuits for f, m in c.max_fixtures.items()]
+        if cap:
+            out("")
+            out(f"  {'circuit':<12} {'fixture type':<26} {'count':>5} {'max by inrush':>13} "
+                f"{'max by load':>11}  (IEC 60898-1 band, 80 % continuous load)")
+            for c, f, m in cap:
+                n = next((g.count for g in _groups(a, c) if g.fixture == f), 0)
+                out(f"  {c.id:<12} {f:<26} {n:>5} {fmt(m['inrush_bound'], 'd'):>13} "
+                    f"{fmt(m['steady_bound'], 'd'):>11}")
         out("")
         out(f"  {'node':<12} {'kind':<11} {'line':<4} {'Irms A':>8} {'I1 A':>8} {'THDi %':>7} "
             f"{'PF':>5} {'THDv %':>7}")
