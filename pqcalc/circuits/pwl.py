@@ -15,13 +15,16 @@ holding, a timing capacitor reaching the trigger voltage); they are bracketed on
 the dense solution and located by Brent's method. Time events (a transistor dimmer's edges)
 are hit exactly.
 
-Segments with a nonlinear element (a constant-power converter, ``i = P / v``) are integrated
-with the implicit Radau IIA method of order 5 (:func:`scipy.integrate.solve_ivp`) with the
-same event functions.
+Every element is piecewise linear or piecewise affine, so no segment needs a numerical
+integrator: a constant-power converter (``i = P / v``) is the chord interpolant of ``P / v``
+on a geometric grid of voltages (:class:`pqcalc.circuits.drivers.ConverterUVLO`), each grid
+cell one mode; its crossings are events like any other. Event roots are found by a
+bracketed Newton iteration on the one guard that crossed (its time derivative is exact).
 
 The periodic state is found by shooting: Newton's method on ``x(0) = x(T)``, the Jacobian
-being the monodromy matrix (the product of the segments' transition matrices; for
-nonlinear segments finite differences of the period map). A period of several mains cycles
+being the monodromy matrix (the product of the segments' transition matrices, exact where
+the vector field is continuous across the switching surface: diodes turning on at their
+threshold or off at zero current, the converter's chord cells). A period of several mains cycles
 (a triac that fires every k-th half cycle) is searched when the one-cycle solution is not
 consistent or not stable.
 
@@ -29,15 +32,13 @@ References
 ----------
 T. J. Aprille, T. N. Trick, "Steady-state analysis of nonlinear circuits with periodic
 inputs", Proc. IEEE 60(1), 1972 (shooting with the monodromy matrix).
-E. Hairer, G. Wanner, *Solving Ordinary Differential Equations II*, Springer, 1996 (Radau IIA).
 """
 
 from __future__ import annotations
 
-from dataclasses import dataclass, field
+from dataclasses import dataclass
 
 import numpy as np
-from scipy.integrate import solve_ivp
 from scipy.optimize import brentq
 
 from ..errors import ConvergenceError
@@ -94,10 +95,6 @@ class Automaton:
         """Inputs held constant in this state: ``(channel, value)``."""
         return []
 
-    def nonlinear(self, s) -> list:
-        """Active nonlinear channels: ``(channel, f(x) -> value, df(x) -> row over x)``."""
-        return []
-
     def guards(self, s, net: Network, ms) -> list:
         return []
 
@@ -130,9 +127,7 @@ class _Segment:
     disc: tuple
     md: _ModeData
     x0: np.ndarray
-    c: np.ndarray | None = None  # modal coefficients (linear segment)
-    sol: object = None  # dense output (nonlinear segment)
-    nl: list = field(default_factory=list)
+    c: np.ndarray | None = None  # modal coefficients
 
 
 @dataclass
@@ -145,7 +140,6 @@ class Trajectory:
     sT: tuple
     phi: np.ndarray
     segments: list
-    nonlinear: bool
     events: list
 
 
@@ -207,16 +201,13 @@ class Engine:
             self._md[fullkey] = md
         return md
 
-    def u_at(self, t, nl_vals=None, consts=()) -> np.ndarray:
+    def u_at(self, t, consts=()) -> np.ndarray:
         t = np.atleast_1d(np.asarray(t, dtype=float))
         U = np.zeros((self.net.n_u, t.size))
         U[CH_SOURCE] = self.src(t)
         U[CH_ONE] = 1.0
         for ch, v in consts:
             U[ch] = v
-        if nl_vals:
-            for ch, v in nl_vals:
-                U[ch] = v
         return U
 
     def xp(self, md: _ModeData, t) -> np.ndarray:
@@ -246,17 +237,11 @@ class Engine:
                 out.append((row, th, ("A", ia, tag)))
         return out
 
-    def _nl_list(self, disc):
-        out = []
-        for a, s in zip(self.automata, disc[1]):
-            out.extend(a.nonlinear(s))
-        return out
-
-    def _value_fn(self, md, t, x, nl):
-        z = np.concatenate([x, self.u_at(t, [(ch, f(x)) for ch, f, _ in nl], md.consts)[:, 0]])
+    def _value_fn(self, md, t, x):
+        z = np.concatenate([x, self.u_at(t, md.consts)[:, 0]])
         return lambda row: float((row(md) if callable(row) else row) @ z)
 
-    def _fire(self, tag, disc, t, x, md, nl):
+    def _fire(self, tag, disc, t, x, md):
         diodes, autos = disc
         if tag[0] == "D":
             d = list(diodes)
@@ -264,7 +249,7 @@ class Engine:
             return (tuple(d), autos), x
         _, ia, atag = tag
         s_new, x_new = self.automata[ia].fire(atag, autos[ia], t, x,
-                                              self._value_fn(md, t, x, nl))
+                                              self._value_fn(md, t, x))
         a2 = list(autos)
         a2[ia] = s_new
         return (diodes, tuple(a2)), x_new
@@ -273,19 +258,22 @@ class Engine:
         """Fire every guard already violated at ``t`` until the discrete state is consistent."""
         for _ in range(64):
             md = self.mode_data(disc)
-            nl = self._nl_list(disc)
-            val = self._value_fn(md, t, x, nl)
+            gl = self.guards(disc, md)
+            if gl:
+                z = np.concatenate([x, self.u_at(t, md.consts)[:, 0]])
+                G = np.array([g[0] for g in gl])
+                th = np.array([g[1] for g in gl])
+                gv = G @ z - th
             worst, wtag = 0.0, None
-            for row, th, tag in self.guards(disc, md):
-                g = val(row) - th
+            for (row, th_k, tag), g in zip(gl, gv if gl else ()):
                 if g > 0:
                     # diodes: the most violated first; automaton events before diodes
-                    score = np.inf if tag[0] == "A" else g / (abs(th) + 1.0)
+                    score = np.inf if tag[0] == "A" else g / (abs(th_k) + 1.0)
                     if score > worst:
                         worst, wtag = score, tag
             if wtag is None:
                 return disc, x
-            disc, x = self._fire(wtag, disc, t, x, md, nl)
+            disc, x = self._fire(wtag, disc, t, x, md)
             if events is not None:
                 events.append((t, wtag))
         raise ConvergenceError(
@@ -303,11 +291,9 @@ class Engine:
         n = x.size
         phi = np.eye(n)
         segs = []
-        nonlinear = False
         guard_count = 0
         while t < t_end - 1e-15:
             md = self.mode_data(disc)
-            nl = self._nl_list(disc)
             t_time, ttag, tia = np.inf, None, None
             for ia, (a, s) in enumerate(zip(self.automata, disc[1])):
                 tt, tg = a.next_time(s, t)
@@ -315,19 +301,15 @@ class Engine:
                     t_time, ttag, tia = tt, tg, ia
             t_stop = min(t_end, t_time)
             gl = self.guards(disc, md)
-            if nl:
-                nonlinear = True
-                t_hit, gtag, x_new, seg = self._advance_nl(md, disc, nl, t, x, t_stop, gl)
-            else:
-                t_hit, gtag, x_new, seg = self._advance_lin(md, disc, t, x, t_stop, gl)
-                dt = (t_hit if gtag is not None else t_stop) - t
-                phi = np.real(md.V @ (np.exp(md.lam * dt)[:, None] * md.Vinv)) @ phi
+            t_hit, gtag, x_new, seg = self._advance_lin(md, disc, t, x, t_stop, gl)
+            dt = (t_hit if gtag is not None else t_stop) - t
+            phi = np.real(md.V @ (np.exp(md.lam * dt)[:, None] * md.Vinv)) @ phi
             if record:
                 segs.append(seg)
             if gtag is not None:
                 t, x = t_hit, x_new
                 events.append((t, gtag))
-                disc, x = self._fire(gtag, disc, t, x, md, nl)
+                disc, x = self._fire(gtag, disc, t, x, md)
                 guard_count += 1
             else:
                 t, x = t_stop, x_new
@@ -335,16 +317,16 @@ class Engine:
                     events.append((t, ("T", tia, ttag)))
                     a2 = list(disc[1])
                     a2[tia], x = self.automata[tia].fire(
-                        ttag, disc[1][tia], t, x, self._value_fn(md, t, x, nl))
+                        ttag, disc[1][tia], t, x, self._value_fn(md, t, x))
                     disc = (disc[0], tuple(a2))
             disc, x = self.settle(disc, t, x, events)
-            if guard_count > 4000:
+            if guard_count > 4000 * max(1, round((t_end - t_start) / self.T1)):
                 raise ConvergenceError(
                     "more than 4000 switching events in one period: the circuit chatters; "
                     "check the component values"
                 )
         self.n_events += len(events)
-        return Trajectory(np.array(x0, float), x, s0, disc, phi, segs, nonlinear, events)
+        return Trajectory(np.array(x0, float), x, s0, disc, phi, segs, events)
 
     def _advance_lin(self, md, disc, t0, x0, t_stop, gl):
         c = md.Vinv @ (x0 - self.xp(md, t0)[:, 0])
@@ -354,27 +336,29 @@ class Engine:
             th = np.array([g[1] for g in gl])
             nx = self.net.n_x
             Gx, Gu = G[:, :nx], G[:, nx:]
-            GV = Gx @ md.V
+            GVc = (Gx @ md.V) * c[None, :]
             GP = Gx @ md.P + np.outer(Gu[:, CH_SOURCE], self.src.amplitudes)
             g0 = Gx @ md.p0 + Gu[:, CH_ONE] + Gu[:, CH_SOURCE] * self.src.dc_v - th
             for ch, val in md.consts:
                 g0 = g0 + Gu[:, ch] * val
             w = self.src.omega
             hs = self.src.orders
+            lam = md.lam
+            jwh = 1j * w * hs
 
             def gval(ts):
-                ts = np.atleast_1d(ts)
-                hom = np.real(GV @ (np.exp(np.multiply.outer(md.lam, ts - t0)) * c[:, None]))
-                part = np.real(GP @ np.exp(1j * w * np.multiply.outer(hs, ts)))
+                hom = np.real(GVc @ np.exp(np.multiply.outer(lam, ts - t0)))
+                part = np.real(GP @ np.exp(np.multiply.outer(jwh, ts)))
                 return hom + part + g0[:, None]
 
             span = t_stop - t0
             nstep = max(int(np.ceil(span / self.dt_grid)), 1)
-            chunk = 256
-            prev_t, prev_g = t0, np.minimum(gval(t0)[:, 0], 0.0)
+            chunk = 64
+            prev_t, prev_g = t0, np.minimum(gval(np.array([t0]))[:, 0], 0.0)
             k = 0
             while k < nstep:
                 kk = np.arange(k + 1, min(k + chunk, nstep) + 1)
+                chunk = min(2 * chunk, 1024)
                 ts = t0 + span * kk / nstep
                 gv = gval(ts)
                 allg = np.concatenate([prev_g[:, None], gv], axis=1)
@@ -385,13 +369,8 @@ class Engine:
                     tb = ts[col]
                     best, btag = tb, None
                     for i in np.flatnonzero(cross[:, col]):
-                        def f(tt, i=i):
-                            return float(gval(tt)[i, 0])
-                        fa = f(ta)
-                        tr = ta if fa > 0 else brentq(f, ta, tb, xtol=1e-13, rtol=1e-14)
-                        # step just past the root so the event has truly happened
-                        while f(tr) <= 0 and tr < tb:
-                            tr = min(tb, tr + 1e-13 + 1e-15 * abs(tr))
+                        tr = _root(GVc[i], lam, GP[i], jwh, g0[i], t0, ta, tb,
+                                   allg[i, col], allg[i, col + 1])
                         if tr <= best:
                             best, btag = tr, gl[i][2]
                     x1 = self.x_lin(md, t0, c, best)[:, 0]
@@ -401,42 +380,6 @@ class Engine:
                 k = kk[-1]
         x1 = self.x_lin(md, t0, c, t_stop)[:, 0]
         return t_stop, None, x1, seg
-
-    def _advance_nl(self, md, disc, nl, t0, x0, t_stop, gl):
-        A, B = md.A, md.B
-        nx = self.net.n_x
-
-        def rhs(t, x):
-            u = self.u_at(t, [(ch, f(x)) for ch, f, _ in nl], md.consts)[:, 0]
-            return A @ x + B @ u
-
-        def jac(t, x):
-            J = A.copy()
-            for ch, _, df in nl:
-                J = J + np.outer(B[:, ch], df(x))
-            return J
-
-        evs = []
-        for row, th, _tag in gl:
-            def ev(t, x, row=row, th=th):
-                u = self.u_at(t, [(ch, f(x)) for ch, f, _ in nl], md.consts)[:, 0]
-                return float(row[:nx] @ x + row[nx:] @ u - th)
-            ev.terminal = True
-            ev.direction = 1
-            evs.append(ev)
-        sol = solve_ivp(rhs, (t0, t_stop), x0, method="Radau", jac=jac, events=evs or None,
-                        rtol=1e-9, atol=1e-9, dense_output=True,
-                        max_step=self.T1 / 64)
-        if sol.status < 0:
-            raise ConvergenceError(f"the ODE solver failed at t = {t0 * 1e3:.3f} ms: {sol.message}")
-        seg = _Segment(t0, t_stop, disc, md, x0, sol=sol.sol, nl=nl)
-        if sol.status == 1:
-            hits = [(te[0], i) for i, te in enumerate(sol.t_events) if te.size]
-            te, i = min(hits)
-            seg.t1 = te
-            xe = sol.y_events[i][0]
-            return te, gl[i][2], xe, seg
-        return t_stop, None, sol.y[:, -1], seg
 
     # ------------------------------------------------------------------ steady state
     def periodic(self, cycles: int, x0: np.ndarray, disc0: tuple, tol: float = 1e-9,
@@ -449,29 +392,24 @@ class Engine:
         n = x.size
         last_r = np.inf
         for it in range(1, max_iter + 1):
-            tr = self.run(0.0, T, x, disc)
+            tr = self.run(0.0, T, x, disc, record=True)
             r = tr.xT - x
             scale = np.maximum(np.abs(tr.xT), np.abs(x)) + self._floor
             rn = float(np.max(np.abs(r) / scale)) if n else 0.0
             if rn < tol and tr.sT == tr.s0:
-                return self.run(0.0, T, x, tr.s0, record=True), it, True
-            if tr.nonlinear:
-                J = np.zeros((n, n))
-                for j in range(n):
-                    d = 1e-6 * scale[j]
-                    xd = x.copy()
-                    xd[j] += d
-                    trd = self.run(0.0, T, xd, tr.s0)
-                    J[:, j] = (trd.xT - tr.xT) / d
-                phi = J
-            else:
-                phi = tr.phi
+                return tr, it, True
             try:
-                dx = np.linalg.solve(np.eye(n) - phi, r)
+                dx = np.linalg.solve(np.eye(n) - tr.phi, r)
             except np.linalg.LinAlgError:
                 dx = r
             if rn > last_r * 1.5 and it > 3:
                 dx = 0.5 * dx  # damp when the switching sequence jumps between iterations
+            # a step far beyond the state's scale (a near-singular I - phi, or a switching
+            # sequence that changed) is shortened to twice that scale
+            lim = 2.0 * np.maximum(np.abs(x), 1e4 * self._floor)
+            big = float(np.max(np.abs(dx) / lim)) if n else 0.0
+            if big > 1.0:
+                dx = dx / big
             last_r = min(rn, last_r)
             x = x + dx
             disc = tr.sT
@@ -486,21 +424,54 @@ class Engine:
                 for name, kind in outputs]
         Y = np.zeros((len(outputs), ts.size))
         X = np.zeros((net.n_x, ts.size))
-        for k, sg in enumerate(tr.segments):
-            last = k == len(tr.segments) - 1
-            m = (ts >= sg.t0) & ((ts < sg.t1) | (last & (ts <= sg.t1 + 1e-12)))
-            if not m.any():
-                continue
+        edges = np.array([sg.t0 for sg in tr.segments[1:]])
+        which = np.searchsorted(edges, ts, side="right")
+        for k in np.unique(which):
+            sg = tr.segments[k]
+            m = which == k
             tt = ts[m]
-            if sg.sol is None:
-                xs = self.x_lin(sg.md, sg.t0, sg.c, tt)
-                U = self.u_at(tt, None, sg.md.consts)
-            else:
-                xs = sg.sol(tt)
-                U = self.u_at(tt, None, sg.md.consts)
-                for ch, f, _ in sg.nl:
-                    U[ch] = [f(xs[:, i]) for i in range(tt.size)]
+            xs = self.x_lin(sg.md, sg.t0, sg.c, tt)
+            U = self.u_at(tt, sg.md.consts)
             Z = np.vstack([xs, U])
             Y[:, m] = sg.md.Q[rows] @ Z
             X[:, m] = xs
         return Y, X
+
+
+def _root(a_hom, lam, a_part, jwh, g0, t0, ta, tb, fa, fb) -> float:
+    """The first time in ``(ta, tb]`` where ``f(t) = Re(a_hom . exp(lam (t - t0))) +
+    Re(a_part . exp(jwh t)) + g0`` rises through zero (``f(ta) <= 0 < f(tb)``), returned
+    just past the root so the event has truly happened: Newton with the exact derivative,
+    kept inside the bracket (regula falsi step when Newton leaves it)."""
+
+    def f(t):
+        eh = np.exp(lam * (t - t0))
+        ep = np.exp(jwh * t)
+        return (float(np.real(a_hom @ eh) + np.real(a_part @ ep) + g0),
+                float(np.real(a_hom @ (lam * eh)) + np.real(a_part @ (jwh * ep))))
+
+    if fa > 0:
+        return ta
+    lo, hi, flo, fhi = ta, tb, fa, fb
+    t = lo + (hi - lo) * (-flo) / (fhi - flo)
+    for _ in range(60):
+        ft, dft = f(t)
+        if ft > 0:
+            hi, fhi = t, ft
+        else:
+            lo, flo = t, ft
+        if hi - lo < 1e-13 + 1e-15 * abs(hi):
+            break
+        tn = t - ft / dft if dft != 0 else np.nan
+        if not (lo < tn < hi):
+            tn = lo + (hi - lo) * (-flo) / (fhi - flo)
+            if not (lo < tn < hi):
+                tn = 0.5 * (lo + hi)
+        if abs(tn - t) < 2e-14 + 1e-16 * abs(t):
+            # converged: make sure the returned time is past the root
+            tn = tn + 2e-14 + 1e-16 * abs(tn)
+            ft2, _ = f(tn)
+            if ft2 > 0:
+                return tn
+        t = tn
+    return hi

@@ -104,14 +104,15 @@ def _build(supply: Supply, dimmer: DimmerSpec, dp: dict, loads, gparams, levels,
     builds = []
     for k, (g, p) in enumerate(zip(loads, gparams)):
         builds.append(build_group(net, k, g.model, g.power_w, g.count, p, "dout",
-                                  dim_level=levels[k], inrush=inrush))
+                                  dim_level=levels[k], inrush=inrush,
+                                  v_rms_v=supply.v_rms_v))
     net.finalize()
     autos = [make_dim()]
     for b in builds:
-        if "channel" in b.extra:
+        if "conv" in b.extra:
             pp = b.params
-            autos.append(ConverterUVLO(net.state_of[b.extra["cap"]], b.extra["channel"],
-                                       b.extra["power_w"], pp["v_uvlo_on_v"],
+            autos.append(ConverterUVLO(b.extra["conv"], net.state_of[b.extra["cap"]],
+                                       b.extra["breaks"], pp["v_uvlo_on_v"],
                                        pp["v_uvlo_off_v"], net.n_x, net.n_u))
         for a in b.automata:
             if a[0] == "taps":
@@ -139,7 +140,7 @@ def _initial(case: _Case, supply: Supply):
     for a in case.eng.automata:
         s = a.initial
         if isinstance(a, ConverterUVLO):
-            s = x0[a.j] > a.v_on
+            s = a.state_for(x0[a.j], x0[a.j] > a.v_on)
         autos0.append(s)
     return x0, (tuple([False] * len(net.diodes)), tuple(autos0))
 
@@ -377,9 +378,9 @@ def _assemble(supply, dimmer, dp, loads, gparams, levels, case, tr, period, iter
                     for r in b.resistors)
         inrush = _inrush(supply, dimmer, dp, loads, gparams, levels, k) if extras else None
         st = Stresses(float(np.max(np.abs(i1))), inrush, caps, res)
-        if "channel" in b.extra:
+        if "conv" in b.extra:
             ia = [i for i, a in enumerate(eng.automata) if isinstance(a, ConverterUVLO)
-                  and a.ch == b.extra["channel"]][0]
+                  and a.el == b.extra["conv"]][0]
             running = np.array([s[1][ia] for s in seg_state])
             if not running.all() and not dimmer_off:
                 flags.add("drop-out")
@@ -415,7 +416,7 @@ def _light(case, b, g, p, Y, col, seg_state, ts, supply, period, level, referenc
         return np.sqrt(np.maximum(pw, 0) / p["r_ohm"]), light
     if b.light in ("converter", "pwm"):
         ia = [i for i, a in enumerate(case.eng.automata) if isinstance(a, ConverterUVLO)
-              and a.ch == b.extra["channel"]][0]
+              and a.el == b.extra["conv"]][0]
         running = np.array([1.0 if s[1][ia] else 0.0 for s in seg_state])
         if b.light == "pwm":
             fp = p["pwm_frequency_hz"]
