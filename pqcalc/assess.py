@@ -28,7 +28,7 @@ from .aggregate import (
     to_grid,
     triplen_share,
 )
-from .errors import InputError
+from .errors import ConvergenceError, InputError
 from .installation import Circuit, Installation, Panel
 from .metrics import harmonic_loss_factor, k_factor, thd
 from .spectrum import rotate_phasors
@@ -219,7 +219,14 @@ class CaseSolver:
         dimmer = _dimmer_spec(c, cond, knob)
         loads = [LoadGroup(model=inst.fixtures[f].model, power_w=inst.fixtures[f].power_w,
                            count=n, params=self.rated_params(f)) for f, n in groups]
-        sol = solve_circuit(supply, dimmer, loads)
+        try:
+            sol = solve_circuit(supply, dimmer, loads)
+        except (ConvergenceError, InputError) as e:
+            what = ", ".join(f"{n} x {f}" for f, n in groups)
+            setting = "" if c.dimmer == "none" else (
+                f" at knob {knob:g}" if knob is not None else f" at {cond:g} deg")
+            raise type(e)(f"circuit {c.id} ({what} behind {c.dimmer}{setting}, panel voltage "
+                          f"{v1:.1f} V): {e}") from None
         w = sol.waveform
         x = to_grid(w, w.cycles)
         gs = []
