@@ -49,6 +49,11 @@ IEEE1789_REGIONS: tuple[str, ...] = get_args(Ieee1789Region)
 LOW_RISK_SLOPES = ((90.0, 0.025), (1250.0, 0.08))  # (band upper edge [Hz], %/Hz)
 NOE_SLOPES = ((90.0, 0.01), (3000.0, 0.0333))
 
+#: negative light down to this fraction of the largest |sample| is read as 0: a circuit
+#: model's off-state leakage (a string's tiny reverse power) gives such values; below it
+#: the input is refused
+NEGATIVE_TOLERANCE = 1e-3
+
 #: relative size of the largest modulation component below which the light counts as
 #: steady (no dominant frequency): numerical noise of the solver and the FFT
 STEADY_FRACTION = 1e-9
@@ -115,7 +120,7 @@ def _light(light, name: str = "light") -> np.ndarray:
     if not np.all(np.isfinite(x)):
         raise InputError(f"{name}: the samples must be finite numbers")
     lo = float(np.min(x))
-    if lo < -1e-9 * max(float(np.max(np.abs(x))), 1e-300):
+    if lo < -NEGATIVE_TOLERANCE * max(float(np.max(np.abs(x))), 1e-300):
         raise InputError(f"{name}: light cannot be negative, got a minimum of {lo:g}")
     return np.maximum(x, 0.0)
 
