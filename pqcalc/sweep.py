@@ -809,40 +809,7 @@ def parse_range(text: str, what: str = "settings") -> tuple[float, ...]:
 
 
 def write_netcdf(ds: xr.Dataset, path: str | os.PathLike) -> None:
-    """Write a dataset as netCDF-4 (engine h5netcdf) atomically: never a half file.
+    """Write a dataset as netCDF-4 atomically (:func:`pqcalc.io.export.write_netcdf`)."""
+    from .io.export import write_netcdf as _write
 
-    The file is written under a temporary name in the same folder, then renamed. The dataset
-    is in memory, so the write runs on the synchronous scheduler even when a dask client is
-    active (xarray would otherwise take a cluster-wide lock for a local file).
-    """
-    import tempfile
-
-    p = Path(path)
-    folder = p.parent if str(p.parent) else Path(".")
-    if not folder.is_dir():
-        raise InputError(f"{p}: the folder {folder} does not exist")
-    if not os.access(folder, os.W_OK):
-        raise InputError(f"{p}: the folder {folder} is not writable")
-    try:
-        import h5netcdf  # noqa: F401
-        import h5py  # noqa: F401
-    except ImportError as e:
-        raise InputError(f"{p}: netCDF output needs h5netcdf and h5py ({e}); pip install "
-                         "'pqcalc[netcdf]'") from None
-    fd, tmp = tempfile.mkstemp(dir=folder, prefix=f".{p.name}.", suffix=".tmp")
-    os.close(fd)
-    try:
-        try:
-            import dask
-
-            ctx = dask.config.set(scheduler="synchronous")
-        except ImportError:  # pragma: no cover - dask is optional
-            from contextlib import nullcontext
-
-            ctx = nullcontext()
-        with ctx:
-            ds.to_netcdf(tmp, engine="h5netcdf")
-        os.replace(tmp, p)
-    except BaseException:
-        Path(tmp).unlink(missing_ok=True)
-        raise
+    _write(ds, path)

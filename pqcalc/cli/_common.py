@@ -5,17 +5,15 @@ from __future__ import annotations
 import functools
 import json
 import math
-import os
 import sys
-import tempfile
 import warnings
-from pathlib import Path
 
 import click
 import numpy as np
 
 from .. import __version__
 from ..errors import ConvergenceError, InputError, PqcalcWarning
+from ..io.atomic import write_atomic  # noqa: F401  (re-exported for the commands)
 
 CONTEXT = {"help_option_names": ["-h", "--help"], "max_content_width": 100}
 
@@ -85,28 +83,6 @@ def _clean(o):
 
 def echo_json(obj) -> None:
     click.echo(json.dumps(_clean(obj), indent=2))
-
-
-def write_atomic(path: str | os.PathLike, data: bytes | str) -> None:
-    """Write a file through a temporary file in the same folder, then rename."""
-    p = Path(path)
-    folder = p.parent if str(p.parent) else Path(".")
-    if not folder.is_dir():
-        raise InputError(f"{p}: the folder {folder} does not exist")
-    if not os.access(folder, os.W_OK):
-        raise InputError(f"{p}: the folder {folder} is not writable")
-    mode = "wb" if isinstance(data, bytes) else "w"
-    fd, tmp = tempfile.mkstemp(dir=folder, prefix=f".{p.name}.", suffix=".tmp")
-    try:
-        with os.fdopen(fd, mode) as f:
-            f.write(data)
-        umask = os.umask(0)
-        os.umask(umask)
-        os.chmod(tmp, 0o666 & ~umask)  # mkstemp's private 0600 would carry over
-        os.replace(tmp, p)
-    except BaseException:
-        Path(tmp).unlink(missing_ok=True)
-        raise
 
 
 def fmt(x, spec: str = ".4g", none: str = "-") -> str:

@@ -50,6 +50,7 @@ from typing import TYPE_CHECKING, Literal, get_args
 
 import numpy as np
 
+from .atomic import atomic_output, check_output_path, write_atomic
 from ..errors import InputError
 
 if TYPE_CHECKING:  # pragma: no cover
@@ -87,47 +88,16 @@ _NO_NEUTRAL = ("NaN for the neutral (N), where the quantity is not defined, and 
 
 
 # ------------------------------------------------------------------------ output paths
-def check_output_path(path: str | os.PathLike) -> Path:
-    """The output path, after checking that its folder exists and is writable.
-
-    Raises :class:`~pqcalc.errors.InputError` naming the path and the folder otherwise.
-    """
-    p = Path(path)
-    folder = p.parent if str(p.parent) else Path(".")
-    if not folder.is_dir():
-        raise InputError(f"{p}: the folder {folder} does not exist; create it or choose "
-                         "another output path")
-    if not os.access(folder, os.W_OK | os.X_OK):
-        raise InputError(f"{p}: the folder {folder} is not writable; choose another output "
-                         "path")
-    if p.is_dir() and p.suffix.lower() in (".json", ".nc", ".pdf", ".zip"):
-        raise InputError(f"{p}: is a folder; expected a file name")
-    return p
-
-
-def _umask_mode(mode: int) -> int:
+def _umask() -> int:
     um = os.umask(0)
     os.umask(um)
-    return mode & ~um
+    return um
 
 
 def write_bytes_atomic(path: str | os.PathLike, data: bytes) -> Path:
-    """Write ``data`` through a temporary file in the target folder, then rename.
-
-    The file gets the ordinary permissions of a new file (0666 less the umask), not the
-    private ones of a temporary file. A failure leaves neither file nor temporary file.
-    """
-    p = check_output_path(path)
-    fd, tmp = tempfile.mkstemp(dir=p.parent, prefix=f".{p.name}.", suffix=".tmp")
-    try:
-        with os.fdopen(fd, "wb") as f:
-            f.write(data)
-        os.chmod(tmp, _umask_mode(0o666))
-        os.replace(tmp, p)
-    except BaseException:
-        Path(tmp).unlink(missing_ok=True)
-        raise
-    return p
+    """Write ``data`` through a temporary file in the target folder, then rename
+    (:func:`pqcalc.io.atomic.write_atomic`)."""
+    return write_atomic(path, data)
 
 
 # ------------------------------------------------------------------------------- JSON
@@ -378,7 +348,7 @@ def to_csv(assessment: Assessment, folder: str | os.PathLike) -> Path:
     tmp = Path(tempfile.mkdtemp(dir=p.parent, prefix=f".{p.name}.", suffix=".tmp"))
     old = None
     try:
-        os.chmod(tmp, _umask_mode(0o777))
+        os.chmod(tmp, 0o777 & ~_umask())
         for name, text in tables.items():
             (tmp / name).write_text(text)
         if p.exists():
@@ -597,14 +567,31 @@ def to_netcdf(assessment: Assessment, path: str | os.PathLike) -> Path:
     except ImportError:
         raise InputError("netCDF output needs the h5netcdf package: pip install "
                          "'pqcalc[netcdf]'") from None
-    ds = to_dataset(assessment)
-    fd, tmp = tempfile.mkstemp(dir=p.parent, prefix=f".{p.name}.", suffix=".tmp")
-    os.close(fd)
+    write_netcdf(to_dataset(assessment), p)
+    return p
+
+
+def write_netcdf(ds, path: str | os.PathLike) -> Path:
+    """Write an xarray Dataset as netCDF-4 (engine h5netcdf) atomically: never a half file.
+
+    The dataset is in memory, so the write runs on dask's synchronous scheduler even when a
+    dask client is active (xarray would otherwise take a cluster-wide lock for a local file).
+    """
+    p = check_output_path(path)
     try:
+        import h5netcdf  # noqa: F401
+        import h5py  # noqa: F401
+    except ImportError as e:
+        raise InputError(f"{p}: netCDF output needs h5netcdf and h5py ({e}); pip install "
+                         "'pqcalc[netcdf]'") from None
+    try:
+        import dask
+
+        ctx = dask.config.set(scheduler="synchronous")
+    except ImportError:  # pragma: no cover - dask is optional
+        from contextlib import nullcontext
+
+        ctx = nullcontext()
+    with atomic_output(p) as tmp, ctx:
         ds.to_netcdf(tmp, engine="h5netcdf")
-        os.chmod(tmp, _umask_mode(0o666))
-        os.replace(tmp, p)
-    except BaseException:
-        Path(tmp).unlink(missing_ok=True)
-        raise
     return p

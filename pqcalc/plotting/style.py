@@ -167,7 +167,7 @@ def save_figure(fig: Figure, path, dpi: float | None = None) -> Path:
     with _mpl().rc_context(STYLE):
         fig.savefig(buf, format=fmt, dpi=dpi or STYLE["savefig.dpi"],
                     metadata={"Creator": "pqcalc"} if fmt != "png" else {"Software": "pqcalc"})
-    from ..cli._common import write_atomic  # late: the CLI package imports this module
+    from ..io.atomic import write_atomic
 
     write_atomic(p, buf.getvalue())
     return p
