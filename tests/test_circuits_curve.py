@@ -68,11 +68,11 @@ def test_resistive_curve_power_current_pf_closed_forms(resistive_curve):
     c = resistive_curve
     assert list(c.settings) == [30.0, 60.0, 90.0, 120.0, 150.0]
     frac = _power_fraction(c.settings)
-    # closed form P = V^2/R x fraction. Tolerance: the sampled edge (one of 2048 samples per
-    # half cycle carries the step: up to sin^2(a)/2048 of V^2/R) and the switch's 0.05 ohm
-    # (6e-5 of R)
+    # closed form P = V^2/R x fraction. Tolerance: the sampled edges (two per cycle, each one
+    # sample of 2 sin^2(a) V^2/R in 4096: up to sin^2(a)/1024 of V^2/R) and the switch's
+    # 0.05 ohm (6e-5 of R)
     a = np.pi - np.radians(c.settings)
-    tol = V * V / R * (np.sin(a) ** 2 / 2048 + 1e-4)
+    tol = V * V / R * (np.sin(a) ** 2 / 1024 + 1e-4)
     assert np.all(np.abs(c.p_w - V * V / R * frac) <= tol)
     # closed form: I_rms = (V/R) sqrt(fraction); PF of a resistor = sqrt(fraction)
     assert np.allclose(c.i_rms_a, V / R * np.sqrt(frac), rtol=2e-3)

@@ -1,0 +1,350 @@
+"""``pqcalc lamp``: one fixture type behind a dimmer, solved to periodic steady state.
+
+Thin: the numbers come from :func:`pqcalc.circuits.solve_circuit`,
+:func:`pqcalc.circuits.dimming_curve`, :func:`pqcalc.analysis.analyze` and
+:func:`pqcalc.flicker.flicker`.
+"""
+
+from __future__ import annotations
+
+import io
+
+import click
+import numpy as np
+
+from ..analysis import analyze
+from ..circuits import (
+    DIMMER_KINDS,
+    MODELS,
+    DimmerSpec,
+    LoadGroup,
+    Supply,
+    dimmer_params,
+    dimming_curve,
+    model_params,
+    solve_circuit,
+)
+from ..circuits.curve import SETTING_AXES
+from ..circuits.spec import SWITCH_KINDS
+from ..errors import InputError
+from ..flicker import flicker
+from ._common import echo_json, fmt, main, user_errors, write_atomic
+
+CAUTION = ("caution: computed from circuit models with typical component values; confirm "
+           "dimmer and lamp compatibility with the makers' data, and size conductors and "
+           "protection to the local electrical code with a licensed professional")
+
+#: the supply's own parameters that ``--param`` reaches (names as in :class:`Supply`)
+SUPPLY_PARAMS = (
+    ("source_r_ohm", "ohm", "series source resistance (line and neutral together)"),
+    ("source_l_h", "H", "series source inductance (line and neutral together)"),
+    ("source_damping_ohm", "ohm", "resistance across the source inductance (line losses)"),
+)
+_SCOPES = ("supply", "dimmer", "lamp")
+
+
+def _supply_rows() -> list[dict]:
+    d = Supply()
+    return [dict(name=n, unit=u, doc=doc, default=getattr(d, n)) for n, u, doc in SUPPLY_PARAMS]
+
+
+def _choice(option: str, value: str, allowed) -> str:
+    if value not in allowed:
+        raise InputError(f"{option}: unknown {value!r}; expected one of {', '.join(allowed)}")
+    return value
+
+
+def _split_params(items, model: str, kind: str, switch: str, supply: Supply) -> dict:
+    """``NAME=VALUE`` items routed to supply, dimmer and lamp (``scope.NAME`` to force)."""
+    names = {
+        "supply": [r["name"] for r in _supply_rows()],
+        "dimmer": [r["name"] for r in dimmer_params(kind, switch, supply)],
+        "lamp": [r["name"] for r in model_params(model)],
+    }
+    out: dict[str, dict[str, float]] = {s: {} for s in _SCOPES}
+    for item in items:
+        if "=" not in item:
+            raise InputError(f"--param {item!r}: expected NAME=VALUE, e.g. c_bulk_f=4.7e-6")
+        name, _, text = item.partition("=")
+        name, text = name.strip(), text.strip()
+        scope = None
+        if "." in name:
+            scope, _, name = name.partition(".")
+            if scope not in _SCOPES:
+                raise InputError(f"--param {item!r}: unknown scope {scope!r}; expected one of "
+                                 f"{', '.join(_SCOPES)}")
+        try:
+            value = float(text)
+        except ValueError:
+            raise InputError(f"--param {name}: expected a number, got {text!r}") from None
+        if not np.isfinite(value):
+            raise InputError(f"--param {name}: expected a finite number, got {text!r}")
+        scopes = [scope] if scope else [s for s in _SCOPES if name in names[s]]
+        if not scopes or name not in names[scopes[0]]:
+            if scope:
+                where = f"the {scope}"
+            elif kind == "none":
+                where = f"{model} or the supply"
+            else:
+                where = f"{model}, the {kind} dimmer or the supply"
+            valid = names[scope] if scope else [n for s in _SCOPES for n in names[s]]
+            raise InputError(f"--param {name}: unknown parameter of {where}; expected one of "
+                             f"{', '.join(valid)}")
+        if len(scopes) > 1:
+            raise InputError(f"--param {name}: the name belongs to {' and '.join(scopes)}; "
+                             f"write {scopes[0]}.{name}=... or {scopes[1]}.{name}=...")
+        out[scopes[0]][name] = value
+    return out
+
+
+def _stresses_dict(st) -> dict:
+    return {
+        "i_peak_a": st.i_peak_a,
+        "inrush_peak_a": st.inrush_peak_a,
+        "cap_rms_a": dict(st.cap_rms_a),
+        "resistor_w": dict(st.resistor_w),
+    }
+
+
+@main.command("lamp")
+@click.option("--model", "model", help=f"Lamp model: {', '.join(MODELS)}.")
+@click.option("--power-w", type=float, help="Rated input power of one lamp, undimmed [W].")
+@click.option("--count", type=int, default=1, show_default=True,
+              help="Identical lamps in parallel behind the dimmer.")
+@click.option("--voltage", type=float, default=230.0, show_default=True,
+              help="Supply voltage, line to neutral [V rms], 100 to 277.")
+@click.option("--frequency", type=float, default=50.0, show_default=True,
+              help="Supply frequency [Hz], 50 or 60.")
+@click.option("--dimmer", "dimmer", default="none", show_default=True,
+              help=f"Dimmer: {', '.join(DIMMER_KINDS)}.")
+@click.option("--switch", "switch", default="triac", show_default=True,
+              help=f"Leading-edge switch: {', '.join(SWITCH_KINDS)} (transistor: an ideal "
+                   "cut at the set angle).")
+@click.option("--conduction-deg", type=float,
+              help="Setting as conduction angle per half cycle [deg], 0 to 180.")
+@click.option("--knob", type=float,
+              help="Setting as knob position 0 to 1, through the dimmer's firing network.")
+@click.option("--param", "params", multiple=True, metavar="NAME=VALUE",
+              help="Component value of the lamp, the dimmer or the supply (repeatable; "
+                   "e.g. c_bulk_f=4.7e-6, holding_current_a=0.03, source_l_h=200e-6). "
+                   "Write supply.NAME, dimmer.NAME or lamp.NAME where a name is shared.")
+@click.option("--list-params", is_flag=True,
+              help="List the parameters (names, units, defaults) of the model at --power-w, "
+                   "the dimmer and the supply, then stop.")
+@click.option("--curve", is_flag=True,
+              help="Dimming curve: solve at --steps settings evenly spaced over the dimmer's "
+                   "range.")
+@click.option("--steps", type=int, default=21, show_default=True,
+              help="With --curve: number of settings.")
+@click.option("--curve-axis", default="conduction", show_default=True,
+              help=f"With --curve: space the settings by {' or '.join(SETTING_AXES)}.")
+@click.option("--waveform-csv", type=click.Path(dir_okay=False),
+              help="Write one period of time, voltage, current and light to this CSV file.")
+@click.option("--json", "as_json", is_flag=True, help="Print one JSON object instead of text.")
+@user_errors
+def lamp_cmd(model, power_w, count, voltage, frequency, dimmer, switch, conduction_deg, knob,
+             params, list_params, curve, steps, curve_axis, waveform_csv, as_json):
+    """Input current, light, flicker and stresses of one fixture type behind a dimmer.
+
+    The lamp circuit (the chosen model's named components with typical defaults) and the
+    dimmer are solved to periodic steady state. With --curve, the same at evenly spaced
+    settings, with pop-on, drop-out, dead-travel and non-monotonic flags.
+    """
+    if model is None:
+        raise InputError(f"--model: required; expected one of {', '.join(MODELS)}")
+    _choice("--model", model, MODELS)
+    _choice("--dimmer", dimmer, DIMMER_KINDS)
+    _choice("--switch", switch, SWITCH_KINDS)
+    _choice("--curve-axis", curve_axis, SETTING_AXES)
+    supply0 = Supply(voltage, frequency)  # validates voltage and frequency
+    if power_w is not None and not (np.isfinite(power_w) and power_w > 0):
+        raise InputError(f"--power-w: expected a positive power [W], got {power_w:g}")
+    if list_params:
+        _list_params(model, power_w, dimmer, switch, supply0, as_json)
+        return
+    if power_w is None:
+        raise InputError("--power-w: required; give the lamp's rated input power [W]")
+    if count < 1:
+        raise InputError(f"--count: expected a whole number >= 1, got {count}")
+    if conduction_deg is not None and not (np.isfinite(conduction_deg)
+                                           and 0.0 <= conduction_deg <= 180.0):
+        raise InputError(f"--conduction-deg: expected 0 to 180 deg, got {conduction_deg:g}")
+    if knob is not None and not (np.isfinite(knob) and 0.0 <= knob <= 1.0):
+        raise InputError(f"--knob: expected 0 to 1, got {knob:g}")
+    if conduction_deg is not None and knob is not None:
+        raise InputError("--conduction-deg and --knob: give one setting, not both")
+    if dimmer == "none" and (conduction_deg is not None or knob is not None or curve):
+        raise InputError("--dimmer none: no setting to give (--conduction-deg, --knob and "
+                         "--curve need leading-edge or trailing-edge)")
+    split = _split_params(params, model, dimmer, switch, supply0)
+    supply = Supply(voltage, frequency, **split["supply"])
+    group = LoadGroup(model, power_w, count, params=split["lamp"])
+    if curve:
+        if conduction_deg is not None or knob is not None:
+            raise InputError("--curve: the settings come from the dimmer's range; leave out "
+                             "--conduction-deg and --knob")
+        if waveform_csv:
+            raise InputError("--waveform-csv: one setting only; leave out --curve")
+        c = dimming_curve(supply, dimmer, [group], steps=steps, switch=switch,
+                          dimmer_params=split["dimmer"], axis=curve_axis)
+        if as_json:
+            d = c.to_dict()
+            d["supply"] = {"v_rms_v": supply.v_rms_v, "frequency_hz": supply.frequency_hz,
+                           **split["supply"]}
+            d["caution"] = CAUTION
+            echo_json(d)
+        else:
+            _print_curve(c, group, supply)
+        return
+    if dimmer != "none" and conduction_deg is None and knob is None:
+        raise InputError(f"--dimmer {dimmer}: give a setting, --conduction-deg (0..180) or "
+                         "--knob (0..1), or --curve")
+    spec = DimmerSpec(dimmer, conduction_deg=conduction_deg, knob=knob, switch=switch,
+                      params=split["dimmer"])
+    sol = solve_circuit(supply, spec, [group])
+    gr = sol.groups[0]
+    period_s = sol.period_cycles / supply.frequency_hz
+    fl = flicker(gr.light, period_s)
+    a = analyze(sol.waveform, 40)
+    if waveform_csv:
+        _write_waveform(waveform_csv, sol.waveform, gr.light)
+    if as_json:
+        d = a.to_dict()
+        d["label"] = f"{model} {power_w:g} W x {count}"
+        d["p_w"] = float(sol.waveform.p_w)
+        d.update(_solution_dict(sol, spec, supply, split, fl))
+        d["caution"] = CAUTION
+        echo_json(d)
+        return
+    _print_solution(a, sol, spec, supply, fl, group)
+
+
+def _solution_dict(sol, spec, supply, split, fl) -> dict:
+    gr = sol.groups[0]
+    return {
+        "lamp": {"model": gr.group.model, "power_w": gr.group.power_w,
+                 "count": gr.group.count, "params": dict(gr.params),
+                 "p_w_per_lamp": gr.p_w, "i_rms_a_per_lamp": float(gr.waveform.i_rms_a)},
+        "supply": {"v_rms_v": supply.v_rms_v, "frequency_hz": supply.frequency_hz,
+                   "source_r_ohm": supply.source_r_ohm, "source_l_h": supply.source_l_h,
+                   "source_damping_ohm": supply.source_damping_ohm},
+        "dimmer": {"kind": spec.kind,
+                   "switch": spec.switch if spec.kind == "leading-edge" else None,
+                   "conduction_deg": spec.conduction_deg, "knob": spec.knob,
+                   "params": dict(sol.dimmer_p)},
+        "conduction_deg_measured": list(sol.conduction_deg),
+        "period_cycles": sol.period_cycles,
+        "flags": list(sol.flags),
+        "light": {"mean_pct": 100.0 * float(np.mean(gr.light)),
+                  "min_pct": 100.0 * float(np.min(gr.light)),
+                  "max_pct": 100.0 * float(np.max(gr.light))},
+        "flicker": fl.to_dict(),
+        "stresses": _stresses_dict(gr.stresses),
+    }
+
+
+def _write_waveform(path, w, light) -> None:
+    t = np.arange(w.current_a.size) / w.sample_rate_hz
+    buf = io.StringIO()
+    buf.write("time_s,voltage_v,current_a,light\n")
+    np.savetxt(buf, np.column_stack([t, w.voltage_v, w.current_a, light]), delimiter=",",
+               fmt="%.9g")
+    write_atomic(path, buf.getvalue())
+
+
+def _list_params(model, power_w, dimmer, switch, supply, as_json) -> None:
+    lamp_rows = model_params(model, power_w, supply.v_rms_v, supply.frequency_hz)
+    dim_rows = dimmer_params(dimmer, switch, supply)
+    sup_rows = _supply_rows()
+    if as_json:
+        echo_json({"supply": sup_rows, "dimmer": dim_rows, "lamp": lamp_rows,
+                   "model": model, "power_w": power_w})
+        return
+    out = click.echo
+    at = f" at {power_w:g} W, {supply.v_rms_v:g} V, {supply.frequency_hz:g} Hz" \
+        if power_w is not None else " (defaults need --power-w)"
+    sw = f" ({switch})" if dimmer == "leading-edge" else ""
+    for title, rows in ((f"lamp {model}{at}", lamp_rows), (f"dimmer {dimmer}{sw}", dim_rows),
+                        ("supply", sup_rows)):
+        out(title)
+        out(f"  {'name':<22} {'unit':<5} {'default':>12}  meaning")
+        for r in rows:
+            out(f"  {r['name']:<22} {r['unit']:<5} {fmt(r['default'], '.4g'):>12}  {r['doc']}")
+        out("")
+
+
+def _setting_text(spec) -> str:
+    if spec.kind == "none":
+        return "no dimmer"
+    sw = f" {spec.switch}" if spec.kind == "leading-edge" else ""
+    s = f"{spec.conduction_deg:g} deg conduction" if spec.conduction_deg is not None else \
+        f"knob {spec.knob:g}"
+    return f"{spec.kind}{sw} dimmer at {s}"
+
+
+def _print_solution(a, sol, spec, supply, fl, group) -> None:
+    out = click.echo
+    s = a.summary
+    gr = sol.groups[0]
+    st = gr.stresses
+    out(f"{group.model} {group.power_w:g} W x {group.count} on {supply.v_rms_v:g} V "
+        f"{supply.frequency_hz:g} Hz, {_setting_text(spec)}")
+    cond = ", ".join(f"{c:.1f}" for c in sol.conduction_deg)
+    rows = [
+        ("period", f"{sol.period_cycles}", "cycle(s)"),
+        ("conduction per half cycle", cond, "deg"),
+        ("flags", ", ".join(sol.flags) or "none", ""),
+        ("P", fmt(s.p_w), "W"),
+        ("I rms", fmt(s.i_rms_a), "A"),
+        ("I peak", fmt(s.i_peak_a), "A"),
+        (f"THD i (2..{a.max_order})", fmt(100 * s.thd_i, ".2f"), "% of I1"),
+        ("PF (true)", fmt(s.pf, ".4f"), ""),
+        ("DPF (cos phi1)", fmt(s.dpf, ".4f"), ""),
+        ("light (one lamp, mean)", fmt(100 * float(np.mean(gr.light)), ".3g"),
+         "% of full output"),
+        ("percent flicker", fmt(None if fl.percent_flicker is None else
+                                100 * fl.percent_flicker, ".3g"), "%"),
+        ("flicker index", fmt(fl.flicker_index, ".3g"), ""),
+        ("modulation frequency", fmt(fl.modulation_frequency_hz, ".5g"), "Hz"),
+        ("IEEE 1789-2015 region", fl.ieee1789, ""),
+        ("peak current (one lamp)", fmt(st.i_peak_a), "A"),
+        ("inrush peak at the crest", fmt(st.inrush_peak_a), "A"),
+    ]
+    rows += [(f"{name} rms current", fmt(v), "A") for name, v in st.cap_rms_a]
+    rows += [(f"{name} dissipation", fmt(v), "W") for name, v in st.resistor_w]
+    for name, val, unit in rows:
+        out(f"  {name:<28} {val:>14} {unit}")
+    out("")
+    out(f"  {'order':>5} {'I [A rms]':>12} {'% of I1':>9} {'phase [deg]':>12}")
+    for r in a.to_dict()["harmonics"][:15]:
+        pct = "-" if r["pct_of_fundamental"] is None else f"{r['pct_of_fundamental']:.2f}"
+        out(f"  {r['order']:>5} {r['i_rms_a']:>12.5g} {pct:>9} {r['phase_deg']:>12.1f}")
+    out("  (orders 16..40: --json)")
+    out(CAUTION)
+
+
+def _print_curve(c, group, supply) -> None:
+    out = click.echo
+    unit = "deg" if c.axis == "conduction" else "knob"
+    sw = f" {c.switch}" if c.dimmer_kind == "leading-edge" else ""
+    out(f"{group.model} {group.power_w:g} W x {group.count} on {supply.v_rms_v:g} V "
+        f"{supply.frequency_hz:g} Hz, {c.dimmer_kind}{sw} dimmer: {c.n_settings} settings")
+    out(f"  {'set ' + unit:>8} {'cond':>6} {'light%':>7} {'P [W]':>9} {'I [A]':>9} "
+        f"{'THD%':>7} {'PF':>6} {'flk%':>6} {'index':>6} {'f [Hz]':>7} "
+        f"{'IEEE 1789':<20} flags")
+
+    def f_(x, spec):
+        return "-" if not np.isfinite(x) else format(x, spec)
+
+    for k in range(c.n_settings):
+        out(f"  {f_(c.settings[k], '.4g'):>8} {f_(c.conduction_deg[k], '.1f'):>6} "
+            f"{f_(100 * c.light[0, k], '.3g'):>7} {f_(c.p_w[k], '.4g'):>9} "
+            f"{f_(c.i_rms_a[k], '.4g'):>9} {f_(100 * c.thd_i[k], '.1f'):>7} "
+            f"{f_(c.pf[k], '.3f'):>6} {f_(100 * c.percent_flicker[0, k], '.3g'):>6} "
+            f"{f_(c.flicker_index[0, k], '.3f'):>6} "
+            f"{f_(c.modulation_frequency_hz[0, k], '.4g'):>7} {c.ieee1789[0][k]:<20} "
+            f"{', '.join(c.flags[k])}")
+    out(f"curve flags: {', '.join(c.curve_flags) or 'none'}")
+    for n in c.notes:
+        out(f"  {n}")
+    out(CAUTION)
