@@ -4,8 +4,8 @@
   (breakover about 32 V, breakback a few volts; common practice) when the setting is a knob
   position, or by an ideal trigger at ``180 - conduction_deg`` when the setting is an angle.
   The triac conducts during the gate pulse; it stays on only if its current has reached the
-  latching current by the pulse's end, and turns off when its current falls below the
-  holding current. With both currents 0 it is an ideal switch that opens at current zero.
+  latching current by the pulse's end, and turns off when its current has stayed below the
+  holding current for the recovery time (at once when the current passes through zero). With both currents 0 it is an ideal switch that opens at current zero.
   A snubber and the dimmer's own supply (a two-wire electronic dimmer draws it through the
   load while off) leak current into the lamps.
 - **leading edge, transistor**: conducts from the firing angle to the zero crossing.
@@ -45,6 +45,9 @@ def dimmer_params(spec_kind: str, switch: str, supply: Supply) -> list[dict]:
             ("holding_current_a", "A", "triac holding current (common practice ~50 mA)", 0.05),
             ("latching_current_a", "A", "triac latching current", 0.07),
             ("gate_pulse_s", "s", "trigger pulse length", 20e-6),
+            ("recovery_s", "s", "time the current must stay below holding before the triac "
+             "turns off (a zero crossing turns it off at once; common practice, from memory: "
+             "tens of us)", 30e-6),
             ("breakover_v", "V", "trigger diode breakover voltage", 32.0),
             ("breakback_v", "V", "trigger diode voltage drop on firing", 8.0),
             ("c_timing_f", "F", "timing capacitor", 100e-9),
@@ -77,6 +80,7 @@ def resolve_dimmer(spec: DimmerSpec, supply: Supply) -> dict:
                              f"{', '.join(names)}")
     out = {}
     zero_ok = {"holding_current_a", "latching_current_a", "breakback_v", "r_supply_ohm",
+               "recovery_s",
                "turn_off_s", "min_conduction_deg", "c_snubber_f"}
     for r in rows:
         val = float(given.get(r["name"], r["default"]))
@@ -158,7 +162,8 @@ class WindowSwitch(Automaton):
 class Triac(Automaton):
     """Triac with latching and holding, fired by the RC network's trigger diode or by an
     ideal trigger at a fixed angle. States: ``("off",)``, ``("gate", t_end, sign)``,
-    ``("on", sign)``."""
+    ``("on", sign)``, ``("low", t_end, sign)`` (below holding, turning off at ``t_end``
+    unless the current recovers; a current zero turns it off at once)."""
 
     def __init__(self, p: dict, half_s: float, fire_s: float | None, ct_state: int | None,
                  n_x: int, n_u: int, i_row_fn, v_row_fn) -> None:
@@ -178,7 +183,12 @@ class Triac(Automaton):
     def guards(self, s, net, ms):
         if s[0] == "on":
             row = -s[1] * self.i_row(ms)
+            if self.p.get("recovery_s", 0.0) > 0 and self.p["holding_current_a"] > 0:
+                return [(row, -self.p["holding_current_a"], "low")]
             return [(row, -self.p["holding_current_a"], "release")]
+        if s[0] == "low":
+            row = s[1] * self.i_row(ms)
+            return [(row, self.p["holding_current_a"], "recover"), (-row, 0.0, "release")]
         if s[0] == "off" and self.j is not None:
             r = np.zeros(self.n)
             r[self.j] = 1.0
@@ -189,6 +199,8 @@ class Triac(Automaton):
     def next_time(self, s, t):
         if s[0] == "gate":
             return s[1], "gate-end"
+        if s[0] == "low":
+            return s[1], "release"
         if s[0] == "off" and self.fire_at is not None:
             k = np.floor(t / self.H)
             for kk in (k, k + 1):
@@ -214,6 +226,10 @@ class Triac(Automaton):
             if abs(i) >= p["latching_current_a"]:
                 return ("on", 1.0 if i >= 0 else -1.0), x
             return ("off",), x
+        if tag == "low":
+            return ("low", t + p["recovery_s"], s[1]), x
+        if tag == "recover":
+            return ("on", s[2]), x
         if tag == "release":
             return ("off",), x
         return s, x

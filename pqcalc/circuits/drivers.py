@@ -18,7 +18,7 @@ import numpy as np
 
 from ..errors import InputError
 from .network import Network
-from .pwl import Automaton
+from .pwl import EPS_V_V, Automaton
 
 __all__ = ["MODELS", "ModelId", "ParamSpec", "model_params", "resolve_params", "GroupBuild",
            "build_group", "chord_table", "CHORD_RATIO", "DIODE_V_ON_V", "DIODE_R_ON_OHM", "G_OFF_S", "dim_fraction"]
@@ -77,6 +77,23 @@ def _sf_shape(vv, n, vseg, imax, r_dyn):
     return i
 
 
+def _r_fuse(p, v, f):
+    """Fusible input resistor dissipating about 1 % of the rated power on a sine, 1..47 ohm
+    (common practice)."""
+    return float(np.clip(0.01 * v * v / p, 1.0, 47.0))
+
+
+def _l_emi(p, v, f):
+    """Differential-mode EMI inductor, about 1 mH at 60 W, larger for smaller drivers,
+    0.2..10 mH (common practice, from memory)."""
+    return float(np.clip(1e-3 * 60.0 / p, 0.2e-3, 10e-3))
+
+
+def _c_dc(p, v, f):
+    """Film capacitor at the boost stage's input, about 2 nF/W at 230 V (common practice)."""
+    return 2e-9 * p * 230.0 / v
+
+
 _P = ParamSpec
 PARAMS: dict[str, tuple[ParamSpec, ...]] = {
     "resistive": (
@@ -111,6 +128,8 @@ PARAMS: dict[str, tuple[ParamSpec, ...]] = {
         _P("i_led_a", "A", "LED current at full output", lambda p, v, f: 0.85 * p / 36.0),
     ),
     "sine-follow": (
+        _P("r_fuse_ohm", "ohm", "input fuse / fusible resistor (about 1 % of the rated power "
+           "dissipated)", _r_fuse),
         _P("n_segments", "-", "LED string segments switched in by the tapped regulator",
            lambda p, v, f: 3.0),
         _P("v_segment_v", "V", "forward voltage of one segment",
@@ -123,11 +142,19 @@ PARAMS: dict[str, tuple[ParamSpec, ...]] = {
         _P("r_bleed_ohm", "ohm", "bleed resistor after the bridge", lambda p, v, f: 1e6),
     ),
     "pfc": (
+        _P("r_fuse_ohm", "ohm", "input fuse / fusible resistor (about 1 % of the rated power "
+           "dissipated)", _r_fuse),
+        _P("l_emi_h", "H", "differential-mode EMI inductor ahead of the EMI capacitor (0: none)",
+           _l_emi, zero_ok=True),
+        _P("r_emi_damp_ohm", "ohm", "damping resistor across the EMI inductor (half its "
+           "characteristic impedance with the input capacitors: no overshoot when the "
+           "dimmer fires)",
+           lambda p, v, f: 0.5 * float(np.sqrt(_l_emi(p, v, f) / (47e-9 + 2e-9 * p
+                                                                 + _c_dc(p, v, f))))),
         _P("c_emi_f", "F", "EMI capacitor across the input", lambda p, v, f: 47e-9 + 2e-9 * p),
         _P("r_bleed_ohm", "ohm", "bleeder across the rectified input",
            lambda p, v, f: 40.0 * v * v / p),
-        _P("c_dc_f", "F", "high-frequency capacitor after the bridge",
-           lambda p, v, f: 10e-9 * p * 230.0 / v),
+        _P("c_dc_f", "F", "high-frequency capacitor after the bridge", _c_dc),
         _P("min_conduction_deg", "deg", "conduction angle read as minimum output",
            lambda p, v, f: 40.0),
         _P("full_conduction_deg", "deg", "conduction angle read as full output",
@@ -286,9 +313,9 @@ class ConverterUVLO(Automaton):
     def guards(self, s, net, ms):
         if not s:
             return [(self._row(1.0), self.v_on, "start")]
-        out = [(self._row(-1.0), -self.b[s - 1], "down")]
+        out = [(self._row(-1.0), -self.b[s - 1] + EPS_V_V, "down")]
         if s < len(self.b) - 1:
-            out.append((self._row(1.0), self.b[s], "up"))
+            out.append((self._row(1.0), self.b[s] + EPS_V_V, "up"))
         return out
 
     def fire(self, tag, s, t, x, value):
@@ -316,12 +343,14 @@ class TapLevels(Automaton):
         return {self.el: int(s)}
 
     def guards(self, s, net, ms):
+        # a hysteresis of EPS_V_V: the voltage can settle onto a break from one side (a
+        # ramp whose current decays to zero there), where an exact threshold would chatter
         row = ms.Q[self.vi]
         out = []
         if s < len(self.breaks):
-            out.append((row, self.breaks[s], "up"))
+            out.append((row, self.breaks[s] + EPS_V_V, "up"))
         if s > 0:
-            out.append((-row, -self.breaks[s - 1], "down"))
+            out.append((-row, -self.breaks[s - 1] + EPS_V_V, "down"))
         return out
 
     def fire(self, tag, s, t, x, value):
@@ -412,7 +441,9 @@ def build_group(net: Network, k: int, model: str, power_w: float, m: int, p: dic
                          cap=pre + "C_bulk")
             light = "converter" if model == "bulk-cap" else "pwm"
     elif model == "sine-follow":
-        bridge(net, pre, nd["in"], "0", nd["p"], nd["n"], m)
+        net.R(pre + "R_fuse", nd["in"], nd["a"], p["r_fuse_ohm"] / m)
+        res.append(pre + "R_fuse")
+        bridge(net, pre, nd["a"], "0", nd["p"], nd["n"], m)
         net.C(pre + "C_in", nd["p"], nd["n"], p["c_in_f"] * m)
         net.R(pre + "R_bleed", nd["p"], nd["n"], p["r_bleed_ohm"] / m)
         caps.append(pre + "C_in")
@@ -443,9 +474,17 @@ def build_group(net: Network, k: int, model: str, power_w: float, m: int, p: dic
         led = pre + "G_reg"
         light = "tap"
     elif model == "pfc":
-        net.C(pre + "C_emi", nd["in"], "0", p["c_emi_f"] * m)
+        net.R(pre + "R_fuse", nd["in"], nd["a"], p["r_fuse_ohm"] / m)
+        res.append(pre + "R_fuse")
+        x = nd["a"]
+        if p["l_emi_h"] > 0:
+            net.L(pre + "L_emi", nd["a"], nd["b"], p["l_emi_h"] / m)
+            net.R(pre + "R_emi_damp", nd["a"], nd["b"], p["r_emi_damp_ohm"] / m)
+            res.append(pre + "R_emi_damp")
+            x = nd["b"]
+        net.C(pre + "C_emi", x, "0", p["c_emi_f"] * m)
         caps.append(pre + "C_emi")
-        bridge(net, pre, nd["in"], "0", nd["p"], nd["n"], m)
+        bridge(net, pre, x, "0", nd["p"], nd["n"], m)
         net.C(pre + "C_dc", nd["p"], nd["n"], p["c_dc_f"] * m)
         caps.append(pre + "C_dc")
         net.R(pre + "R_bleed", nd["p"], nd["n"], p["r_bleed_ohm"] / m)

@@ -155,6 +155,7 @@ class Engine:
         self.T1 = 1.0 / source.frequency_hz
         self.dt_grid = self.T1 / grid_per_cycle
         self._md: dict[tuple, _ModeData] = {}
+        self._gd: dict[tuple, tuple] = {}
         self.n_events = 0
 
     # ------------------------------------------------------------------ modes
@@ -300,8 +301,7 @@ class Engine:
                 if tt < t_time:
                     t_time, ttag, tia = tt, tg, ia
             t_stop = min(t_end, t_time)
-            gl = self.guards(disc, md)
-            t_hit, gtag, x_new, seg = self._advance_lin(md, disc, t, x, t_stop, gl)
+            t_hit, gtag, x_new, seg = self._advance_lin(md, disc, t, x, t_stop)
             dt = (t_hit if gtag is not None else t_stop) - t
             phi = np.real(md.V @ (np.exp(md.lam * dt)[:, None] * md.Vinv)) @ phi
             if record:
@@ -328,23 +328,36 @@ class Engine:
         self.n_events += len(events)
         return Trajectory(np.array(x0, float), x, s0, disc, phi, segs, events)
 
-    def _advance_lin(self, md, disc, t0, x0, t_stop, gl):
+    def _guard_data(self, disc, md):
+        """The guards of a discrete state as arrays over the modal and harmonic bases:
+        ``g(t) = Re(GV (exp(lam (t - t0)) c)) + Re(GP exp(j h w t)) + g0`` (cached)."""
+        gd = self._gd.get(disc)
+        if gd is None:
+            gl = self.guards(disc, md)
+            if not gl:
+                gd = (gl, None, None, None)
+            else:
+                G = np.array([g[0] for g in gl])
+                th = np.array([g[1] for g in gl])
+                nx = self.net.n_x
+                Gx, Gu = G[:, :nx], G[:, nx:]
+                GV = Gx @ md.V
+                GP = Gx @ md.P + np.outer(Gu[:, CH_SOURCE], self.src.amplitudes)
+                g0 = Gx @ md.p0 + Gu[:, CH_ONE] + Gu[:, CH_SOURCE] * self.src.dc_v - th
+                for ch, val in md.consts:
+                    g0 = g0 + Gu[:, ch] * val
+                gd = ([g[2] for g in gl], GV, GP, g0)
+            self._gd[disc] = gd
+        return gd
+
+    def _advance_lin(self, md, disc, t0, x0, t_stop):
         c = md.Vinv @ (x0 - self.xp(md, t0)[:, 0])
         seg = _Segment(t0, t_stop, disc, md, x0, c=c)
-        if gl and t_stop > t0:
-            G = np.array([g[0] for g in gl])
-            th = np.array([g[1] for g in gl])
-            nx = self.net.n_x
-            Gx, Gu = G[:, :nx], G[:, nx:]
-            GVc = (Gx @ md.V) * c[None, :]
-            GP = Gx @ md.P + np.outer(Gu[:, CH_SOURCE], self.src.amplitudes)
-            g0 = Gx @ md.p0 + Gu[:, CH_ONE] + Gu[:, CH_SOURCE] * self.src.dc_v - th
-            for ch, val in md.consts:
-                g0 = g0 + Gu[:, ch] * val
-            w = self.src.omega
-            hs = self.src.orders
+        tags, GV, GP, g0 = self._guard_data(disc, md)
+        if tags and t_stop > t0:
+            GVc = GV * c[None, :]
             lam = md.lam
-            jwh = 1j * w * hs
+            jwh = 1j * self.src.omega * self.src.orders
 
             def gval(ts):
                 hom = np.real(GVc @ np.exp(np.multiply.outer(lam, ts - t0)))
@@ -372,7 +385,7 @@ class Engine:
                         tr = _root(GVc[i], lam, GP[i], jwh, g0[i], t0, ta, tb,
                                    allg[i, col], allg[i, col + 1])
                         if tr <= best:
-                            best, btag = tr, gl[i][2]
+                            best, btag = tr, tags[i]
                     x1 = self.x_lin(md, t0, c, best)[:, 0]
                     seg.t1 = best
                     return best, btag, x1, seg
@@ -391,6 +404,7 @@ class Engine:
         disc = disc0
         n = x.size
         last_r = np.inf
+        hist: list[float] = []
         for it in range(1, max_iter + 1):
             tr = self.run(0.0, T, x, disc, record=True)
             r = tr.xT - x
@@ -398,6 +412,11 @@ class Engine:
             rn = float(np.max(np.abs(r) / scale)) if n else 0.0
             if rn < tol and tr.sT == tr.s0:
                 return tr, it, True
+            hist.append(rn)
+            if len(hist) > 8 and min(hist[-6:]) > 0.5 * min(hist[:-6]):
+                # stalled: the switching sequence keeps changing (no orbit of this period
+                # near here); the caller tries the next period from where this one ended
+                return tr, it, False
             try:
                 dx = np.linalg.solve(np.eye(n) - tr.phi, r)
             except np.linalg.LinAlgError:

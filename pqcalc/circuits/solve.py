@@ -145,11 +145,15 @@ def _initial(case: _Case, supply: Supply):
     return x0, (tuple([False] * len(net.diodes)), tuple(autos0))
 
 
-def _stable(eng: Engine, tr, cycles: int, scale: np.ndarray) -> bool:
-    """A small perturbation of the periodic state decays over two periods."""
+def _stable(eng: Engine, tr, cycles: int, scale: np.ndarray, exact_phi: bool) -> bool:
+    """A small perturbation of the periodic state decays: the monodromy matrix's spectral
+    radius is below 1 where that matrix is exact (no event with a jump of the vector
+    field); otherwise a perturbation is simulated over two periods."""
     T = cycles * eng.T1
     if tr.x0.size == 0:
         return True
+    if exact_phi:
+        return bool(np.max(np.abs(np.linalg.eigvals(tr.phi))) < 1.0 + 1e-9)
     d0 = 1e-3 * (np.abs(tr.x0) + 1e3 * scale)
     a = eng.run(0.0, T, tr.x0 + d0, tr.s0)
     b = eng.run(0.0, T, a.xT, a.sT)
@@ -158,7 +162,8 @@ def _stable(eng: Engine, tr, cycles: int, scale: np.ndarray) -> bool:
     return bool(e2 <= max(1.05 * e1, 1e-7) and b.sT == tr.s0)
 
 
-def _steady(case: _Case, supply: Supply, check_stability: bool, max_period: int = 4):
+def _steady(case: _Case, supply: Supply, check_stability: bool, max_period: int = 4,
+            exact_phi: bool = False):
     eng = case.eng
     x0, d0 = _initial(case, supply)
     # two cycles from the initial guess give Newton a state near the orbit
@@ -173,7 +178,7 @@ def _steady(case: _Case, supply: Supply, check_stability: bool, max_period: int 
             tried.append(f"{k}-cycle period: {e}")
             continue
         total += it
-        if ok and (not check_stability or _stable(eng, tr, k, case.scale)):
+        if ok and (not check_stability or _stable(eng, tr, k, case.scale, exact_phi)):
             return tr, k, total, True
         tried.append(f"{k}-cycle period: {'unstable' if ok else 'no convergence'} after "
                      f"{it} Newton iterations")
@@ -277,45 +282,91 @@ def _solve_cached(supply, dimmer, loads, spc, extras, reference) -> Solution:
     check = dimmer.uses_triac or any(g.model in ("bulk-cap", "pwm-detect", "sine-follow")
                                      and gparams[i].get("r_load_ohm") is None
                                      for i, g in enumerate(loads))
-    # phase-detecting drivers: their output follows the conduction angle they measure,
-    # which follows the dimmer; iterate the pair (a fixed point, a few passes)
+    # phase-detecting drivers: their output follows the conduction angle they detect, which
+    # follows the dimmer; iterate the pair (a fixed point, a few passes). A pfc driver's
+    # voltage loop sets its emulated resistance so that it draws its target power.
     cond = cond_guess
+    pfc = [i for i, g in enumerate(loads) if g.model == "pfc"]
+    v2 = supply.v_rms_v ** 2
     for _pass in range(6):
         levels = [dim_fraction(cond, p) if g.model in ("pfc", "pwm-detect") else 1.0
                   for g, p in zip(loads, gparams)]
-        for g, p, lv in zip(loads, gparams, levels):
-            if g.model == "pfc":
-                p["_dim_level"] = lv
-                p.setdefault("_r_emulated_ohm", supply.v_rms_v ** 2 / max(g.power_w * lv,
-                                                                        1e-3 * g.power_w))
-        for _k in range(8 if any(g.model == "pfc" for g in loads) else 1):
+        brackets = {}
+        for i in pfc:
+            p, g = gparams[i], loads[i]
+            p["_dim_level"] = levels[i]
+            p["_target_w"] = max(g.power_w * levels[i], 1e-3 * g.power_w)
+            p["_r_emulated_ohm"] = v2 / p["_target_w"]
+            brackets[i] = [0.0, np.inf]
+        for _k in range(12 if pfc else 1):
             case = _build(supply, dimmer, dp, loads, gparams, levels)
-            tr, period, iters, ok = _steady(case, supply, check)
+            tr, period, iters, ok = _steady(case, supply, check,
+                                            exact_phi=not dimmer.uses_triac)
             again = False
-            for b, g, p in zip(case.builds, loads, gparams):
-                if g.model != "pfc":
-                    continue
-                target = max(g.power_w * p["_dim_level"], 1e-4 * g.power_w)
-                got = _mean_power(case, tr, b, period, "R_emulated")
-                if got <= 0:
-                    continue
-                new = p["_r_emulated_ohm"] * got / target
-                new = min(max(new, 0.2 * supply.v_rms_v ** 2 / g.power_w), 1e4 *
-                          supply.v_rms_v ** 2 / g.power_w)
-                if abs(new / p["_r_emulated_ohm"] - 1) > 1e-4:
-                    again = True
-                p["_r_emulated_ohm"] = new
+            for i in pfc:
+                again |= _pfc_update(gparams[i], brackets[i],
+                                     _mean_power(case, tr, case.builds[i], period,
+                                                 "R_emulated"), v2, loads[i].power_w)
             if not again:
                 break
         measured, fires, nolatch = _conduction(tr, case.eng, period)
         if not phase_detect:
             break
-        new_cond = float(np.mean(measured))
+        new_cond = float(np.mean(_detected(tr, case.eng, period, dimmer, measured)))
         if abs(new_cond - cond) < 0.5:
             break
         cond = new_cond
     return _assemble(supply, dimmer, dp, loads, gparams, levels, case, tr, period, iters, ok,
                      spc, extras, measured, fires, nolatch, cond_set, reference)
+
+
+def _pfc_update(p: dict, br: list, got_w: float, v2: float, rated_w: float) -> bool:
+    """One step of a pfc driver's voltage loop on its emulated resistance: Newton on
+    ``P ~ 1 / R_e`` kept inside the bracket of resistances known to give too much
+    (``br[0]``) or too little (``br[1]``) power. Where the power jumps (the dimmer stops
+    holding below some current demand) the loop settles on the side that gives at least the
+    target. Returns True when the resistance changed."""
+    re, target = p["_r_emulated_ohm"], p["_target_w"]
+    p["_power_ratio"] = got_w / target
+    if abs(got_w / target - 1) < 1e-3:
+        return False
+    if got_w >= target:
+        br[0] = max(br[0], re)
+    else:
+        br[1] = min(br[1], re)
+    if br[1] < np.inf and br[0] > 0 and br[1] / br[0] < 1 + 1e-3:
+        if re == br[0]:
+            return False
+        p["_r_emulated_ohm"] = br[0]
+        return True
+    new = re * got_w / target if got_w > 0 else 0.2 * re
+    if not br[0] < new < br[1]:
+        new = np.sqrt(max(br[0], 1e-9) * min(br[1], 1e6 * re))
+    new = min(max(new, 0.2 * v2 / rated_w), 1e4 * v2 / rated_w)
+    if abs(new / re - 1) < 1e-6:
+        return False
+    p["_r_emulated_ohm"] = new
+    return True
+
+
+def _detected(tr, eng: Engine, cycles: int, dimmer: DimmerSpec, on_deg) -> list[float]:
+    """The conduction angle a phase-detecting driver reads per half cycle [deg]: behind a
+    leading edge, from the first turn-on of the switch (the voltage edge at the driver's
+    input) to the half cycle's end, whether or not the triac then holds; otherwise the
+    switch's on-time."""
+    if dimmer.kind != "leading-edge":
+        return list(on_deg)
+    H = eng.T1 / 2
+    idx = eng.net.switches.index(eng.net.index[SWITCH]) + len(eng.net.diodes)
+    first = [None] * (2 * cycles)
+    was_on = tr.segments[-1].md.key[idx] if tr.segments else 0
+    for sg in tr.segments:
+        on = sg.md.key[idx]
+        k = min(int(np.floor(sg.t0 / H + 1e-12)), 2 * cycles - 1)
+        if on and not was_on and first[k] is None:
+            first[k] = sg.t0 - k * H
+        was_on = on
+    return [0.0 if f is None else 180.0 * (1.0 - f / H) for f in first]
 
 
 def _mean_power(case, tr, b, period, el):
@@ -428,7 +479,7 @@ def _light(case, b, g, p, Y, col, seg_state, ts, supply, period, level, referenc
         return p["i_led_a"] * light, light.astype(float)
     if b.light == "pfc":
         # two-stage driver: the output stage holds the LED current steady at the set level
-        lv = np.full(ts.size, level)
+        lv = np.full(ts.size, level * min(1.0, p.get("_power_ratio", 1.0)))
         return lv * 0.85 * g.power_w / 36.0, lv
     # LED power through a string element (dropper), a tapped regulator or a DC load
     if b.light == "tap":
