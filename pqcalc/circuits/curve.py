@@ -424,10 +424,7 @@ def dimming_curve(supply: Supply, dimmer_kind: str, load_groups, steps: int = 21
         period_s = sol.period_cycles / supply.frequency_hz
         for g, gr in enumerate(sol.groups):
             light[g, k] = float(np.mean(gr.light))
-            if not light[g, k] >= NUMERIC_DARK:
-                regions[g][k] = "dark"
-                continue
-            fl = flicker(gr.light, period_s)
+            fl = flicker(gr.light, period_s, dark_below=NUMERIC_DARK)
             pfl[g, k] = np.nan if fl.percent_flicker is None else fl.percent_flicker
             fidx[g, k] = np.nan if fl.flicker_index is None else fl.flicker_index
             fmod[g, k] = np.nan if fl.modulation_frequency_hz is None else \

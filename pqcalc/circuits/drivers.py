@@ -160,6 +160,9 @@ PARAMS: dict[str, tuple[ParamSpec, ...]] = {
         _P("full_conduction_deg", "deg", "conduction angle read as full output",
            lambda p, v, f: 150.0),
         _P("min_output", "-", "relative output at the minimum angle", lambda p, v, f: 0.02),
+        _P("load_fraction", "-", "LED load over the driver's rated output (the input parts "
+           "are sized for power_w / load_fraction; below 1 the driver runs at light load)",
+           lambda p, v, f: 1.0),
     ),
     "pwm-detect": (
         _P("r_series_ohm", "ohm", "fusible series resistor", lambda p, v, f: 10.0),
@@ -217,8 +220,16 @@ def resolve_params(model: str, power_w: float, v_rms_v: float, frequency_hz: flo
             raise InputError(f"{model}: unknown parameter {k!r}; expected one of "
                              f"{', '.join(specs)}")
     out = {}
+    # a driver at light load: its parts are sized for its rating, not for the lamp's power
+    p_size = power_w
+    if "load_fraction" in specs:
+        lf = float(overrides.get("load_fraction", 1.0))
+        if not (np.isfinite(lf) and 0 < lf <= 1):
+            raise InputError(f"{model} load_fraction: expected above 0 and at most 1, got "
+                             f"{lf:g}")
+        p_size = power_w / lf
     for name, ps in specs.items():
-        val = overrides.get(name, ps.value(power_w, v_rms_v, frequency_hz))
+        val = overrides.get(name, ps.value(p_size, v_rms_v, frequency_hz))
         if val is not None:
             val = float(val)
             if not np.isfinite(val) or val < 0 or (val == 0 and not ps.zero_ok):
@@ -423,6 +434,7 @@ def build_group(net: Network, k: int, model: str, power_w: float, m: int, p: dic
         caps.append(pre + "C_bulk")
         if model == "bulk-cap" and p.get("r_load_ohm") is None:
             net.R(pre + "R_bleed", nd["p"], nd["n"], p["r_bleed_ohm"] / m)
+            res.append(pre + "R_bleed")
         if model == "bulk-cap" and p.get("r_load_ohm") is not None:
             net.R(pre + "R_load", nd["p"], nd["n"], p["r_load_ohm"] / m)
             res.append(pre + "R_load")

@@ -413,7 +413,7 @@ class Engine:
             if rn < tol and tr.sT == tr.s0:
                 return tr, it, True
             hist.append(rn)
-            if len(hist) > 8 and min(hist[-6:]) > 0.5 * min(hist[:-6]):
+            if len(hist) >= 6 and min(hist[-3:]) > 0.5 * min(hist[:-3]):
                 # stalled: the switching sequence keeps changing (no orbit of this period
                 # near here); the caller tries the next period from where this one ended
                 return tr, it, False

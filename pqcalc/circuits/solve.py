@@ -23,6 +23,9 @@ Flag = Literal["no-latch", "misfire", "re-fire", "subharmonic", "asymmetric", "d
                "glow-when-off"]
 FLAGS: tuple[str, ...] = get_args(Flag)
 SAMPLES_PER_CYCLE = 4096
+#: a triac fired in a half cycle that conducts less than this [deg] has not stayed latched
+#: (its current fell below holding right after the gate pulse): flagged "no-latch"
+NO_HOLD_DEG = 5.0
 #: incandescent light against filament power, L ~ P^(3.4/1.6) from L ~ V^3.4 and P ~ V^1.6
 #: (common practice; exponents from memory)
 FILAMENT_LIGHT_EXPONENT = 3.4 / 1.6
@@ -210,16 +213,15 @@ def _conduction(tr, eng: Engine, cycles: int):
         name = tag[-1]
         if tag[0] in "AT" and tag[1] == 0 and name in ("fire+", "fire-", "fire"):
             fires[min(int(t / H), nh - 1)] += 1
-    for i, (_t, tag) in enumerate(tr.events):
-        if tag[0] == "T" and tag[1] == 0 and tag[-1] == "gate-end":
-            nolatch |= _latched_after(tr, i) is False
+    # a gate pulse that ends with the triac off: its current had not reached latching
+    prev = None
+    for sg in tr.segments:
+        st = sg.disc[1][0]
+        if isinstance(st, tuple) and st[0] == "off" and isinstance(prev, tuple) \
+                and prev[0] == "gate":
+            nolatch = True
+        prev = st
     return tuple(float(v) for v in on / H * 180.0), tuple(int(v) for v in fires), nolatch
-
-
-def _latched_after(tr, i):
-    for t, tag in tr.events[i + 1:]:
-        return not (tag[0] == "A" and tag[1] == 0 and tag[-1] == "release" and t == tr.events[i][0])
-    return None
 
 
 def _thermal_light(p_w: np.ndarray, rated_w: float, tau_s: float, f_hz: float,
@@ -400,7 +402,8 @@ def _assemble(supply, dimmer, dp, loads, gparams, levels, case, tr, period, iter
     flags = set()
     if period > 1:
         flags.add("subharmonic")
-    if nolatch:
+    if nolatch or (dimmer.uses_triac and any(0 < c < NO_HOLD_DEG and k > 0
+                                              for c, k in zip(measured, fires))):
         flags.add("no-latch")
     nh = 2 * period
     if dimmer.kind == "leading-edge" and dimmer.uses_triac:
