@@ -231,9 +231,14 @@ def ieee1789_region(modulation: float, frequency_hz: float | None) -> str:
     return "above-low-risk"
 
 
-def flicker(light, period_s: float) -> Flicker:
+def flicker(light, period_s: float, dark_below: float = 0.0) -> Flicker:
     """All flicker figures of a light waveform over exactly ``period_s`` seconds (whole
     periods of the light; for a lamp, the solution's period, ``period_cycles / f``).
+
+    A light whose mean is at or below ``dark_below`` (in the light's unit; default 0: only
+    no light at all) counts as dark: region ``dark``, no figures. For the lamp models'
+    relative light, :data:`pqcalc.circuits.curve.NUMERIC_DARK` separates a solver's
+    off-state leakage from light.
 
     The IEEE 1789 region uses the whole waveform's modulation depth at its dominant frequency
     (the usual reading of the recommended practice for one dominant component).
@@ -247,8 +252,10 @@ def flicker(light, period_s: float) -> Flicker:
     'above-low-risk'
     """
     x = _light(light)
-    if _dark(x):
-        return Flicker(None, None, None, 0.0, 0.0, "dark", None, None)
+    if not (np.isfinite(dark_below) and dark_below >= 0):
+        raise InputError(f"dark_below: expected a level >= 0, got {dark_below}")
+    if _dark(x) or float(np.mean(x)) <= dark_below:
+        return Flicker(None, None, None, 0.0, float(np.mean(x)), "dark", None, None)
     pf = percent_flicker(x)
     fi = flicker_index(x)
     f_mod, amp = dominant_modulation(x, period_s)

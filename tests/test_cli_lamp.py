@@ -226,3 +226,20 @@ def test_non_convergence_exits_1(monkeypatch):
     r = run(*BASE)
     assert r.exit_code == 1
     assert r.stderr.startswith("error: no periodic steady state") and r.stdout == ""
+
+
+def test_dimmer_off_is_dark_not_flickering():
+    # conduction 0: only the switch's 100 Mohm off-state leakage reaches the lamp
+    # (P = V^2 / (R + 1e8) ~ 0.5 mW, closed form of the series divider)
+    d = run_json(*BASE, "--dimmer", "trailing-edge", "--conduction-deg", "0")
+    assert d["p_w"] == pytest.approx(V * V / (R + 1e8), rel=0.01)
+    assert d["flicker"]["ieee1789_region"] == "dark"
+    assert d["flicker"]["percent_flicker_pct"] is None
+
+
+def test_curve_on_the_knob_axis():
+    d = run_json(*BASE, "--dimmer", "leading-edge", "--curve", "--curve-axis", "knob",
+                 "--steps", "3")
+    assert d["axis"] == "knob" and [r["setting"] for r in d["settings"]] == [0.0, 0.5, 1.0]
+    cond = [r["conduction_deg"] for r in d["settings"]]
+    assert cond[0] < cond[1] < cond[2]  # the RC network fires earlier as the knob rises

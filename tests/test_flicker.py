@@ -297,3 +297,15 @@ def test_pwm_driver_light_at_its_pwm_frequency():
     _, fast = _lamp("pwm-detect", 9.0, dimmer=dim, pwm_frequency_hz=3500.0)
     assert fast.modulation_frequency_hz == pytest.approx(3500.0)
     assert fast.ieee1789 == "no-observable-effect"
+
+
+def test_dark_below_threshold():
+    # a glow of 1e-9 of full output (a solver's off-state leakage) with full modulation:
+    # below the given dark level it is dark, not "above low risk"
+    light = 1e-9 * np.abs(np.sin(2 * np.pi * F_MAINS * _t()))
+    assert flicker(light, T).ieee1789 == "above-low-risk"
+    d = flicker(light, T, dark_below=1e-6)
+    assert d.ieee1789 == "dark" and d.percent_flicker is None
+    assert d.mean_light == pytest.approx(1e-9 * 2 / np.pi, rel=1e-6)  # mean of |sin| = 2/pi
+    with pytest.raises(InputError, match="dark_below"):
+        flicker(light, T, dark_below=-1.0)

@@ -24,7 +24,7 @@ from ..circuits import (
     model_params,
     solve_circuit,
 )
-from ..circuits.curve import SETTING_AXES
+from ..circuits.curve import NUMERIC_DARK, SETTING_AXES
 from ..circuits.spec import SWITCH_KINDS
 from ..errors import InputError
 from ..flicker import flicker
@@ -204,7 +204,7 @@ def lamp_cmd(model, power_w, count, voltage, frequency, dimmer, switch, conducti
     sol = solve_circuit(supply, spec, [group])
     gr = sol.groups[0]
     period_s = sol.period_cycles / supply.frequency_hz
-    fl = flicker(gr.light, period_s)
+    fl = flicker(gr.light, period_s, dark_below=NUMERIC_DARK)
     a = analyze(sol.waveform, 40)
     if waveform_csv:
         _write_waveform(waveform_csv, sol.waveform, gr.light)
