@@ -266,3 +266,12 @@ def test_curve_matches_single_solves():
                         [LoadGroup("resistive", P_LAMP)])
     assert c.p_w[1] == pytest.approx(sol.waveform.p_w, rel=1e-12)
     assert c.light[0, 1] == pytest.approx(np.mean(sol.groups[0].light), rel=1e-12)
+
+
+def test_curve_as_dataset(resistive_curve):
+    ds = resistive_curve.to_dataset()
+    # the same numbers under named dimensions (setting last for per-group figures)
+    assert ds["light"].dims == ("group", "setting") and ds.sizes["setting"] == 5
+    assert np.array_equal(ds["p_w"].values, resistive_curve.p_w)
+    assert ds["p_w"].attrs["units"] == "W" and ds["setting"].attrs["units"] == "deg"
+    assert list(ds["ieee1789"].values[0]) == list(resistive_curve.ieee1789[0])

@@ -165,6 +165,31 @@ class DimmingCurve:
             })
         return out
 
+    def to_dataset(self):
+        """The curve as an :class:`xarray.Dataset` with dimensions ``setting`` and ``group``
+        (SI and fractions, ``units`` attributes; NaN where a figure does not exist)."""
+        import xarray as xr
+
+        su = "deg" if self.axis == "conduction" else "1"
+        per = {"conduction_deg": (self.conduction_deg, "deg"), "p_w": (self.p_w, "W"),
+               "i_rms_a": (self.i_rms_a, "A"), "thd_i": (self.thd_i, "1"),
+               "pf": (self.pf, "1"), "period_cycles": (self.period_cycles, "1")}
+        grp = {"light": (self.light, "1"), "percent_flicker": (self.percent_flicker, "1"),
+               "flicker_index": (self.flicker_index, "1"),
+               "modulation_frequency_hz": (self.modulation_frequency_hz, "Hz")}
+        data = {k: ("setting", v, {"units": u}) for k, (v, u) in per.items()}
+        data.update({k: (("group", "setting"), v, {"units": u}) for k, (v, u) in grp.items()})
+        data["ieee1789"] = (("group", "setting"), np.array(self.ieee1789, dtype=str))
+        data["flags"] = ("setting", np.array([",".join(f) for f in self.flags], dtype=str))
+        coords = {"setting": ("setting", self.settings, {"units": su, "axis": self.axis}),
+                  "group": ("group", [f"{g.model} {g.power_w:g} W x {g.count}"
+                                      for g in self.groups] or
+                            [str(k) for k in range(self.light.shape[0])])}
+        attrs = {"dimmer": self.dimmer_kind, "switch": self.switch,
+                 "curve_flags": ",".join(self.curve_flags), "notes": "\n".join(self.notes),
+                 "thd_max_order": 40}
+        return xr.Dataset(data, coords, attrs)
+
     def to_dict(self) -> dict:
         """JSON form: percentages where the key says ``_pct``, NaN as ``None``."""
 
