@@ -2,7 +2,10 @@
 
 Source of the check values: ngspice (Berkeley SPICE3 descendant), transient analysis with
 reltol 1e-4 and a 2 us step, last cycle after settling; netlists written by
-``tests/ngspice/harness.py`` from the case description. Acceptance: every harmonic 1..40
+``tests/ngspice/harness.py`` from the case description. Besides the issue's reference
+cases, four cases of the bulk-capacitor lamp with its constant-power converter (ngspice: a
+behavioural source ``i = P / v``; pqcalc: the chord interpolant of ``P / v``) check the
+converter model from outside. Acceptance: every harmonic 1..40
 within 1 % of the fundamental, Irms within 1 % (the project's acceptance criterion; the
 remaining differences are the exponential diode of ngspice against pqcalc's piecewise-linear
 one, within about 15 mV between 10 mA and 0.5 A, and ngspice's switch ramps of 0.1 to 1 us).
@@ -16,7 +19,8 @@ import pytest
 from pqcalc.circuits import DimmerSpec, LoadGroup, Supply, solve_circuit
 from pqcalc.spectrum import spectrum
 from pqcalc.waveform import Waveform
-from tests.ngspice.harness import all_cases, loads_for, ngspice_available, run_all  # noqa: F401
+from tests.ngspice.harness import (  # noqa: F401
+    CP_POWER_W, all_cases, loads_for, ngspice_available, run_all)
 
 #: cases where pqcalc and ngspice differ by more than the criterion, kept visible as
 #: expected failures (strict: a fixed case fails until it is removed from here). Empty since
@@ -27,7 +31,7 @@ KNOWN_DEVIATIONS: set[str] = set()
 CASES = [pytest.param(c, id=c.id, marks=pytest.mark.xfail(
     strict=True, reason="known deviation from ngspice, see KNOWN_DEVIATIONS"))
     if c.id in KNOWN_DEVIATIONS else pytest.param(c, id=c.id) for c in all_cases()]
-POWER_W = {"resistive": 100.0, "bulk-cap": 5.0, "dropper": 2.0}
+POWER_W = {"resistive": 100.0, "bulk-cap": 5.0, "dropper": 2.0, "bulk-cap-cp": CP_POWER_W}
 
 
 @pytest.fixture(scope="module")
@@ -43,7 +47,8 @@ def _pqcalc(case):
         params["turn_off_s"] = 0.0
     dim = DimmerSpec(case.kind, conduction_deg=case.conduction_deg, switch="transistor",
                      params=params)
-    sol = solve_circuit(sup, dim, [LoadGroup(case.model, POWER_W[case.model],
+    model = "bulk-cap" if case.model == "bulk-cap-cp" else case.model
+    sol = solve_circuit(sup, dim, [LoadGroup(model, POWER_W[case.model],
                                              params=loads_for(case))], extras=False)
     return sol
 

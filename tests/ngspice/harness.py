@@ -60,7 +60,8 @@ class Case:
         from the initial condition below (checked by comparing the last two cycles)."""
         if self.model == "dropper":
             return 6
-        return {"resistive": 2, "bulk-cap": 4 if self.v_rms > 200 else 8}[self.model]
+        return {"resistive": 2, "bulk-cap": 4 if self.v_rms > 200 else 8,
+                "bulk-cap-cp": 8}[self.model]
 
 
 #: component values of the reference loads (the issue's cases)
@@ -69,7 +70,12 @@ LOADS = {
     "bulk-cap": {"r_series_ohm": 10.0, "c_bulk_f": 4.7e-6, "r_load_ohm": 13e3},
     "dropper": {"c_series_f": 470e-9, "r_bleed_ohm": 1e6, "r_surge_ohm": 100.0,
                 "v_string_v": 200.0, "r_string_ohm": 50.0, "c_string_f": 1e-6},
+    # the bulk-capacitor lamp with its constant-power converter (9 W drawn from the
+    # capacitor, i = P / v); ngspice holds it as a behavioural current source
+    "bulk-cap-cp": {"r_series_ohm": 10.0, "c_bulk_f": 9e-6, "r_bleed_ohm": 1e6},
 }
+#: power of the constant-power converter of ``bulk-cap-cp`` [W]
+CP_POWER_W = 9.0
 
 
 def loads_for(case: Case) -> dict:
@@ -86,7 +92,7 @@ def all_cases() -> list[Case]:
     series capacitor's offset decays with the 0.47 s bleed time constant: ngspice would
     need well over 100 cycles to settle (pqcalc's shooting finds that state directly)."""
     out = []
-    for model in LOADS:
+    for model in ("resistive", "bulk-cap", "dropper"):
         for v, f in ((230.0, 50.0), (120.0, 60.0)):
             out.append(Case(model, v, f, "leading-edge", 180.0))
             for kind in ("leading-edge", "trailing-edge"):
@@ -94,6 +100,11 @@ def all_cases() -> list[Case]:
                     continue
                 for c in (135.0, 90.0, 45.0):
                     out.append(Case(model, v, f, kind, c))
+    # the constant-power converter (pqcalc: chord interpolant of P / v), above its lock-out
+    out += [Case("bulk-cap-cp", 230.0, 50.0, "leading-edge", 180.0),
+            Case("bulk-cap-cp", 230.0, 50.0, "leading-edge", 90.0),
+            Case("bulk-cap-cp", 230.0, 50.0, "trailing-edge", 90.0),
+            Case("bulk-cap-cp", 120.0, 60.0, "leading-edge", 135.0)]
     return out
 
 
@@ -127,10 +138,11 @@ def netlist(case: Case, out_path: str, attempt: int = 0) -> str:
                   f"{1 / case.switch_r_off_ohm:g})"]
     p = loads_for(case)
     ic = ""
+    uic = False
     if case.model == "resistive":
         lines.append(f"RL dout 0 {p['r_ohm']:g}")
     else:
-        if case.model == "bulk-cap":
+        if case.model.startswith("bulk-cap"):
             lines.append(f"Rf dout ac {p['r_series_ohm']:g}")
         else:
             lines += [f"Cser dout x1 {p['c_series_f']:g}",
@@ -140,6 +152,13 @@ def netlist(case: Case, out_path: str, attempt: int = 0) -> str:
                   "Rshp p 0 1e9", "Rshn n 0 1e9", DIODE_MODEL]
         if case.model == "bulk-cap":
             lines += [f"Cb p n {p['c_bulk_f']:g}", f"RLd p n {p['r_load_ohm']:g}"]
+        elif case.model == "bulk-cap-cp":
+            # a smooth lock-out at 0.45 Vpk lets the capacitor charge from zero first; in
+            # steady state (above 0.8 Vpk) the factor differs from 1 by under 1e-9
+            v_lo = 0.45 * v_pk
+            lines += [f"Cb p n {p['c_bulk_f']:g}", f"Rbl p n {p['r_bleed_ohm']:g}",
+                      f"Bcp p n I = {CP_POWER_W:g} * V(p,n) / (V(p,n) * V(p,n) + 1) * 0.5 * "
+                      f"(1 + tanh((V(p,n) - {v_lo:.6g}) / 5))"]
         else:
             lines += ["Dst p s1 DR",
                       f"Vst s1 s2 DC {p['v_string_v'] - DIODE_DROP_V:g}",
@@ -152,7 +171,8 @@ def netlist(case: Case, out_path: str, attempt: int = 0) -> str:
     lines += [".options reltol=1e-4" + (" method=gear" if attempt == 2 else ""),
               ".control",
               "set wr_singlescale",
-              f"tran {STEP_S:g} {t_stop:.9g} {max(t_save, 0):.9g} {STEP_S:g}",
+              f"tran {STEP_S:g} {t_stop:.9g} {max(t_save, 0):.9g} {STEP_S:g}"
+              + (" uic" if uic else ""),
               "linearize",
               f"wrdata {out_path} i(vsense) v(line)",
               "quit",
