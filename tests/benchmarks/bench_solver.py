@@ -3,16 +3,18 @@
 Run on demand:  python -m pytest tests/benchmarks/bench_solver.py -q -s
            or:  python tests/benchmarks/bench_solver.py [case-id-substring]
 
-For every reference case of ``tests/ngspice/harness.py`` (resistive, bulk capacitor, dropper;
-230 V 50 Hz and 120 V 60 Hz; leading and trailing edge; 180..45 deg), measured in the same
-run and one after the other (no parallel jobs, so the timings do not compete):
+For every reference case of ``tests/ngspice/harness.py`` (resistive, bulk capacitor with a
+resistive or a constant-power load, dropper; 230 V 50 Hz and 120 V 60 Hz; leading and
+trailing edge; 180..45 deg), measured in the same run and one after the other (no parallel
+jobs, so the timings do not compete):
 
 - ngspice, default tolerances, a 20-cycle transient run (``ngspice -b``, process start and
   the data file included: what one pays to get a waveform from it);
 - ngspice, default tolerances, the minimal run of the harness (2 to 8 cycles, as many as the
   case needs to settle);
-- pqcalc's ``solve_circuit(..., extras=False)`` with every solver cache cleared before each
-  repetition (4096 samples per cycle of output).
+- pqcalc's ``solve_circuit(..., extras=False)``, the very call of
+  ``tests/test_circuits_ngspice.py``, with every solver cache cleared before each repetition
+  (4096 samples per cycle of output).
 
 Timings are the best of ``REPEATS`` runs each (the least disturbed by other jobs). Reported:
 the median over the cases of t_ngspice / t_pqcalc for both ngspice runs (targets: >= 100 for
@@ -47,16 +49,14 @@ if __name__ == "__main__":
 import numpy as np  # noqa: E402
 import pytest  # noqa: E402
 
-from pqcalc.circuits import DimmerSpec, LoadGroup, Supply, solve_circuit  # noqa: E402
 from pqcalc.circuits import solve as _solve_module  # noqa: E402
 from pqcalc.spectrum import spectrum  # noqa: E402
 from pqcalc.waveform import Waveform  # noqa: E402
-from tests.ngspice.harness import Case, all_cases, loads_for, netlist, run  # noqa: E402
+from tests.ngspice.harness import Case, all_cases, netlist, run  # noqa: E402
+from tests.test_circuits_ngspice import _pqcalc  # noqa: E402  (the test's very solve)
 
 REPEATS = 3
 LONG_CYCLES = 20
-#: rated power given to the model (the component values override what it scales)
-POWER_W = {"resistive": 100.0, "bulk-cap": 5.0, "dropper": 2.0}
 TARGET_LONG, TARGET_MINIMAL = 100.0, 10.0
 
 
@@ -66,18 +66,6 @@ def _clear_caches() -> None:
         clear = getattr(obj, "cache_clear", None)
         if callable(clear):
             clear()
-
-
-def _pqcalc(case: Case):
-    sup = Supply(case.v_rms, case.f_hz, case.source_r_ohm, case.source_l_h,
-                 source_damping_ohm=case.damping_ohm)
-    params = {"r_on_ohm": case.switch_r_on_ohm, "r_off_ohm": case.switch_r_off_ohm}
-    if case.kind == "trailing-edge":
-        params["turn_off_s"] = 0.0
-    dim = DimmerSpec(case.kind, conduction_deg=case.conduction_deg, switch="transistor",
-                     params=params)
-    return solve_circuit(sup, dim, [LoadGroup(case.model, POWER_W[case.model],
-                                              params=loads_for(case))], extras=False)
 
 
 def _timed_netlist(case: Case, cycles: int | None) -> str:
