@@ -156,6 +156,7 @@ class Engine:
         self.dt_grid = self.T1 / grid_per_cycle
         self._md: dict[tuple, _ModeData] = {}
         self._gd: dict[tuple, tuple] = {}
+        self._by_disc: dict[tuple, _ModeData] = {}
         self.n_events = 0
 
     # ------------------------------------------------------------------ modes
@@ -178,6 +179,12 @@ class Engine:
         return tuple(out)
 
     def mode_data(self, disc: tuple) -> _ModeData:
+        md = self._by_disc.get(disc)
+        if md is None:
+            md = self._by_disc[disc] = self._mode_data(disc)
+        return md
+
+    def _mode_data(self, disc: tuple) -> _ModeData:
         fullkey = self.key_of(disc)
         md = self._md.get(fullkey)
         if md is None:
@@ -413,7 +420,7 @@ class Engine:
             if rn < tol and tr.sT == tr.s0:
                 return tr, it, True
             hist.append(rn)
-            if len(hist) >= 6 and min(hist[-3:]) > 0.5 * min(hist[:-3]):
+            if len(hist) >= 5 and min(hist[-2:]) > 0.5 * min(hist[:-2]):
                 # stalled: the switching sequence keeps changing (no orbit of this period
                 # near here); the caller tries the next period from where this one ended
                 return tr, it, False
