@@ -20,7 +20,12 @@ from pqcalc.circuits import DimmerSpec, LoadGroup, Supply, solve_circuit
 from pqcalc.spectrum import spectrum
 from pqcalc.waveform import Waveform
 from tests.ngspice.harness import (  # noqa: F401
-    CP_POWER_W, all_cases, loads_for, ngspice_available, run_all)
+    CP_POWER_W,
+    all_cases,
+    loads_for,
+    ngspice_available,
+    run_all,
+)
 
 #: cases where pqcalc and ngspice differ by more than the criterion, kept visible as
 #: expected failures (strict: a fixed case fails until it is removed from here). Empty since

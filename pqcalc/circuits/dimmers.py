@@ -5,7 +5,8 @@
   position, or by an ideal trigger at ``180 - conduction_deg`` when the setting is an angle.
   The triac conducts during the gate pulse; it stays on only if its current has reached the
   latching current by the pulse's end, and turns off when its current has stayed below the
-  holding current for the recovery time (at once when the current passes through zero). With both currents 0 it is an ideal switch that opens at current zero.
+  holding current for the recovery time (at once when the current passes through zero).
+  With both currents 0 it is an ideal switch that opens at current zero.
   A snubber and the dimmer's own supply (a two-wire electronic dimmer draws it through the
   load while off) leak current into the lamps.
 - **leading edge, transistor**: conducts from the firing angle to the zero crossing.

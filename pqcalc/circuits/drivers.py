@@ -7,12 +7,27 @@ parallel (admittances times ``m``: the state count does not grow with the lamp c
 
 Models (ids are stable): ``resistive``, ``dropper``, ``bulk-cap``, ``sine-follow``, ``pfc``,
 ``pwm-detect``. Defaults are typical values of the trade (common practice), not any product.
+
+Every LED driver has input parts ahead of its capacitors that bound the current when a
+dimmer switches a charged capacitor onto a stiff supply: the dropper's surge resistor, the
+fusible series resistor of ``bulk-cap`` and ``pwm-detect``, a fuse resistor on
+``sine-follow`` and on ``pfc``, whose EMI capacitor also sits behind a damped
+differential-mode inductor (``r_fuse_ohm``, ``l_emi_h``, ``r_emi_damp_ohm``). A lamp's
+current therefore does not hinge on the supply's impedance, which may be zero.
+
+The constant-power converter of ``bulk-cap`` and ``pwm-detect`` (``i = P / v`` from the bulk
+capacitor, with under-voltage lock-out) is a piecewise-affine element: the chords of
+``P / v`` on a geometric voltage grid (:func:`chord_table`, at most 1e-4 high), so the
+solver's segments stay exact (:mod:`pqcalc.circuits.pwl`). The ``pfc`` driver is an emulated
+resistance whose value its voltage loop sets for the target power (see
+:mod:`pqcalc.circuits.solve`).
 """
 
 from __future__ import annotations
 
+from collections.abc import Callable
 from dataclasses import dataclass
-from typing import Callable, Literal, get_args
+from typing import Literal, get_args
 
 import numpy as np
 
@@ -21,7 +36,8 @@ from .network import Network
 from .pwl import EPS_V_V, Automaton
 
 __all__ = ["MODELS", "ModelId", "ParamSpec", "model_params", "resolve_params", "GroupBuild",
-           "build_group", "chord_table", "CHORD_RATIO", "DIODE_V_ON_V", "DIODE_R_ON_OHM", "G_OFF_S", "dim_fraction"]
+           "build_group", "chord_table", "CHORD_RATIO", "DIODE_V_ON_V", "DIODE_R_ON_OHM",
+           "G_OFF_S", "dim_fraction"]
 
 ModelId = Literal["resistive", "dropper", "bulk-cap", "sine-follow", "pfc", "pwm-detect"]
 MODELS: tuple[str, ...] = get_args(ModelId)
@@ -478,7 +494,7 @@ def build_group(net: Network, k: int, model: str, power_w: float, m: int, p: dic
         del v_lo
         # the next ramp starts where its segment lights, above the flat's end
         fixed = []
-        for kk, b in enumerate(breaks):
+        for b in breaks:
             fixed.append(max(b, fixed[-1] + 1e-3) if fixed else b)
         net.G(pre + "G_reg", nd["p"], nd["n"], table)
         extra.update(table=table, lit=lit, vseg=vseg, breaks=fixed)

@@ -167,7 +167,7 @@ class Network:
         M = np.zeros((nz, nz))
         Rhs = np.zeros((nz, ncol))
         state_col = {k: j for j, k in enumerate(self.caps + self.inds)}
-        sw_on = dict(zip(self.switchable, on))
+        sw_on = dict(zip(self.switchable, on, strict=True))
         g_of = {}
 
         def stamp_g(a, b, g):

@@ -39,7 +39,6 @@ from __future__ import annotations
 from dataclasses import dataclass
 
 import numpy as np
-from scipy.optimize import brentq
 
 from ..errors import ConvergenceError
 from .network import CH_ONE, CH_SOURCE, Network
@@ -163,7 +162,7 @@ class Engine:
     def key_of(self, disc: tuple) -> tuple:
         diodes, autos = disc
         sw = {}
-        for a, s in zip(self.automata, autos):
+        for a, s in zip(self.automata, autos, strict=True):
             sw.update(a.switches(s))
         net = self.net
         key = tuple(diodes) + tuple(
@@ -174,7 +173,7 @@ class Engine:
 
     def _consts(self, disc) -> tuple:
         out = []
-        for a, s in zip(self.automata, disc[1]):
+        for a, s in zip(self.automata, disc[1], strict=True):
             out.extend(a.constants(s))
         return tuple(out)
 
@@ -199,7 +198,7 @@ class Engine:
             Vinv = np.linalg.inv(V)
             w = self.src.omega
             P = np.zeros((n, self.src.orders.size), dtype=complex)
-            for k, (h, s) in enumerate(zip(self.src.orders, self.src.amplitudes)):
+            for k, (h, s) in enumerate(zip(self.src.orders, self.src.amplitudes, strict=True)):
                 P[:, k] = np.linalg.solve(1j * h * w * np.eye(n) - A, B[:, CH_SOURCE] * s)
             bc = B[:, CH_ONE] + B[:, CH_SOURCE] * self.src.dc_v
             for ch, val in consts:
@@ -240,7 +239,7 @@ class Engine:
                 out.append((-ms.Q[k], EPS_I_A, ("D", j)))
             else:
                 out.append((ms.Q[net.n_e + k], e.v_on + EPS_V_V, ("D", j)))
-        for ia, (a, s) in enumerate(zip(self.automata, autos)):
+        for ia, (a, s) in enumerate(zip(self.automata, autos, strict=True)):
             for row, th, tag in a.guards(s, net, ms):
                 out.append((row, th, ("A", ia, tag)))
         return out
@@ -273,7 +272,7 @@ class Engine:
                 th = np.array([g[1] for g in gl])
                 gv = G @ z - th
             worst, wtag = 0.0, None
-            for (row, th_k, tag), g in zip(gl, gv if gl else ()):
+            for (_row, th_k, tag), g in zip(gl, gv if gl else (), strict=True):
                 if g > 0:
                     # diodes: the most violated first; automaton events before diodes
                     score = np.inf if tag[0] == "A" else g / (abs(th_k) + 1.0)
@@ -303,7 +302,7 @@ class Engine:
         while t < t_end - 1e-15:
             md = self.mode_data(disc)
             t_time, ttag, tia = np.inf, None, None
-            for ia, (a, s) in enumerate(zip(self.automata, disc[1])):
+            for ia, (a, s) in enumerate(zip(self.automata, disc[1], strict=True)):
                 tt, tg = a.next_time(s, t)
                 if tt < t_time:
                     t_time, ttag, tia = tt, tg, ia

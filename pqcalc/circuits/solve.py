@@ -1,4 +1,22 @@
-"""One steady-state solve of a supply, a dimmer and the lamp groups behind it."""
+"""One steady-state solve of a supply, a dimmer and the lamp groups behind it.
+
+:func:`solve_circuit` builds the network (source impedance, dimmer, lamp groups), finds the
+periodic state by shooting over one mains cycle and, when that has no consistent stable
+orbit, over 2, 3 and 4 cycles (a triac that fires every few half cycles: flag
+``subharmonic``, the waveform spans the true period). Two outer loops close around it:
+
+- a phase-detecting driver (``pfc``, ``pwm-detect``) sets its output from the conduction
+  angle it reads (from the firing edge behind a leading edge, the switch's on-time
+  otherwise); the angle and the output are iterated to a fixed point;
+- a ``pfc`` driver's voltage loop sets its emulated resistance to draw its target power
+  (Newton on ``P ~ 1 / R_e`` inside a bracket; where the dimmer stops holding below some
+  current demand the loop takes the side that delivers the target).
+
+Flags: ``no-latch`` (a gate pulse ended with the triac off, or it dropped out within
+``NO_HOLD_DEG`` of firing), ``misfire``, ``re-fire``, ``subharmonic``, ``asymmetric``,
+``drop-out`` (a converter's lock-out stopped it), ``glow-when-off`` (light while the dimmer
+is off, from its own supply and snubber leakage).
+"""
 
 from __future__ import annotations
 
@@ -10,7 +28,7 @@ import numpy as np
 
 from ..errors import ConvergenceError, InputError
 from ..waveform import Waveform
-from .dimmers import SWITCH, Triac, build_dimmer, conduction_from_knob, resolve_dimmer
+from .dimmers import SWITCH, build_dimmer, conduction_from_knob, resolve_dimmer
 from .drivers import ConverterUVLO, TapLevels, build_group, dim_fraction, resolve_params
 from .network import CH_ONE, CH_SOURCE, Network
 from .pwl import Engine, Source
@@ -105,7 +123,7 @@ def _build(supply: Supply, dimmer: DimmerSpec, dp: dict, loads, gparams, levels,
                             dp if not inrush else {"r_on_ohm": dp["r_on_ohm"]}, supply,
                             "din", "dout")
     builds = []
-    for k, (g, p) in enumerate(zip(loads, gparams)):
+    for k, (g, p) in enumerate(zip(loads, gparams, strict=True)):
         builds.append(build_group(net, k, g.model, g.power_w, g.count, p, "dout",
                                   dim_level=levels[k], inrush=inrush,
                                   v_rms_v=supply.v_rms_v))
@@ -291,7 +309,7 @@ def _solve_cached(supply, dimmer, loads, spc, extras, reference) -> Solution:
     v2 = supply.v_rms_v ** 2
     for _pass in range(6):
         levels = [dim_fraction(cond, p) if g.model in ("pfc", "pwm-detect") else 1.0
-                  for g, p in zip(loads, gparams)]
+                  for g, p in zip(loads, gparams, strict=True)]
         brackets = {}
         for i in pfc:
             p, g = gparams[i], loads[i]
@@ -379,7 +397,7 @@ def _mean_power(case, tr, b, period, el):
 
 def _assemble(supply, dimmer, dp, loads, gparams, levels, case, tr, period, iters, ok, spc,
               extras, measured, fires, nolatch, cond_set, reference) -> Solution:
-    eng, net = case.eng, case.net
+    eng = case.eng
     f = supply.frequency_hz
     n = spc * period
     ts = np.arange(n) / (spc * f)
@@ -402,9 +420,8 @@ def _assemble(supply, dimmer, dp, loads, gparams, levels, case, tr, period, iter
     if period > 1:
         flags.add("subharmonic")
     if nolatch or (dimmer.uses_triac and any(0 < c < NO_HOLD_DEG and k > 0
-                                              for c, k in zip(measured, fires))):
+                                              for c, k in zip(measured, fires, strict=True))):
         flags.add("no-latch")
-    nh = 2 * period
     if dimmer.kind == "leading-edge" and dimmer.uses_triac:
         if any(k > 1 for k in fires):
             flags.add("re-fire")
@@ -417,7 +434,7 @@ def _assemble(supply, dimmer, dp, loads, gparams, levels, case, tr, period, iter
         flags.add("asymmetric")
     dimmer_off = max(measured) < 1e-3
     groups = []
-    for k, (b, g, p) in enumerate(zip(case.builds, loads, gparams)):
+    for k, (b, g, p) in enumerate(zip(case.builds, loads, gparams, strict=True)):
         m = b.m
         i1 = Y[col[(b.sense, "i")]] / m
         gw = Waveform(i1, fs, f, vline, period, label=f"{g.model} {g.power_w:g} W")

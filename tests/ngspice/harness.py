@@ -215,7 +215,7 @@ def run(case: Case) -> dict:
 
 def run_all(cases: list[Case], workers: int = 2) -> dict[str, dict]:
     with ThreadPoolExecutor(workers) as ex:
-        return dict(zip([c.id for c in cases], ex.map(run, cases)))
+        return dict(zip([c.id for c in cases], ex.map(run, cases), strict=True))
 
 
 @pytest.fixture(scope="session")
