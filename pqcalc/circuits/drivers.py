@@ -455,6 +455,10 @@ def build_group(net: Network, k: int, model: str, power_w: float, m: int, p: dic
             net.R(pre + "R_load", nd["p"], nd["n"], p["r_load_ohm"] / m)
             res.append(pre + "R_load")
             light = "dc-load"
+        elif inrush:
+            # switched on at the crest with a discharged capacitor: the converter is
+            # still locked out over the quarter cycle the inrush lasts
+            light = "converter" if model == "bulk-cap" else "pwm"
         else:
             if model == "bulk-cap":
                 pw = power_w
