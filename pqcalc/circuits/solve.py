@@ -8,8 +8,9 @@ orbit, over 2, 3 and 4 cycles (a triac that fires every few half cycles: flag
 - a phase-detecting driver (``pfc``, ``pwm-detect``) sets its output from the conduction
   angle it reads (from the firing edge behind a leading edge, the switch's on-time
   otherwise); the angle and the output are iterated to a fixed point;
-- a ``pfc`` driver's voltage loop sets its emulated resistance to draw its target power
-  (Newton on ``P ~ 1 / R_e`` inside a bracket; where the dimmer stops holding below some
+- a ``pfc`` driver's voltage loop sets its emulated resistance so that the lamp draws its
+  target input power, ``power_w`` times its output level (Newton on ``P ~ 1 / R_e`` inside
+  a bracket; where the dimmer stops holding below some
   current demand the loop takes the side that delivers the target).
 
 Flags: ``no-latch`` (a gate pulse ended with the triac off, or it dropped out within
@@ -324,8 +325,8 @@ def _solve_cached(supply, dimmer, loads, spc, extras, reference) -> Solution:
             again = False
             for i in pfc:
                 again |= _pfc_update(gparams[i], brackets[i],
-                                     _mean_power(case, tr, case.builds[i], period,
-                                                 "R_emulated"), v2, loads[i].power_w)
+                                     _input_power(case, tr, case.builds[i], period), v2,
+                                     loads[i].power_w)
             if not again:
                 break
         measured, fires, nolatch = _conduction(tr, case.eng, period)
@@ -388,11 +389,12 @@ def _detected(tr, eng: Engine, cycles: int, dimmer: DimmerSpec, on_deg) -> list[
     return [0.0 if f is None else 180.0 * (1.0 - f / H) for f in first]
 
 
-def _mean_power(case, tr, b, period, el):
+def _input_power(case, tr, b, period) -> float:
+    """Mean input power of one lamp of group ``b`` at the dimmer's output [W]."""
     eng = case.eng
     ts = np.arange(1024 * period) / (1024 * eng.src.frequency_hz)
-    Y, _ = eng.sample(tr, ts, [(b.prefix + el, "i"), (b.prefix + el, "v")])
-    return float(np.mean(Y[0] * Y[1])) / b.m
+    Y, _ = eng.sample(tr, ts, [(b.sense, "i"), ("R_vline", "v"), (SWITCH, "v")])
+    return float(np.mean(Y[0] * (Y[1] - Y[2]))) / b.m
 
 
 def _assemble(supply, dimmer, dp, loads, gparams, levels, case, tr, period, iters, ok, spc,
