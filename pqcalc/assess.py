@@ -5,7 +5,8 @@ fixture mix behind its dimmer at its setting and panel voltage once (cached); id
 circuits reuse it. Behind one leading-edge (triac) dimmer the lamps are solved together,
 since latching and holding depend on the summed current; on a stiff supply with no dimmer or
 a trailing-edge dimmer every lamp sees the same voltage whatever the others do, so each
-fixture type is solved once and multiplied by its count.
+fixture type is solved once and multiplied by its count (the dimmer's own small series
+resistance then counts once per lamp: below 0.2 % of the current for usual circuits).
 
 Supply interaction: the line and neutral currents drop harmonic voltages across the feeder
 and source impedance; the circuits are solved again under the distorted panel voltage until
@@ -161,7 +162,9 @@ class CaseSolver:
         modelled = [g for g in c.groups if not self.inst.fixtures[g.fixture].measured]
         parts = [self._capture_case(g.fixture, g.count) for g in measured]
         if modelled:
-            together = c.dimmer == "leading-edge" or c.branch_r_ohm > 0 or c.branch_l_h > 0
+            loop = voltage is not None and len(voltage) > 3 and (voltage[3][0] + voltage[3][1]) > 0
+            together = (c.dimmer == "leading-edge" or c.branch_r_ohm > 0 or c.branch_l_h > 0
+                        or loop)
             if together:
                 parts.append(self._model_case(c, cond, knob, tuple(
                     (g.fixture, g.count) for g in modelled), voltage))
@@ -176,12 +179,13 @@ class CaseSolver:
 
     def _model_case(self, c: Circuit, cond, knob, groups, voltage) -> CaseResult:
         sup = self.inst.supply
-        v1, harm, delta = (sup.voltage_ln_v, (), 0.0) if voltage is None else voltage
-        key = (c.dimmer, cond, knob, c.dimmer_params, c.branch_r_ohm, c.branch_l_h, groups,
-               round(v1, 3), harm)
+        v1, harm, delta = (sup.voltage_ln_v, (), 0.0) if voltage is None else voltage[:3]
+        loop = (0.0, 0.0) if voltage is None or len(voltage) < 4 else voltage[3]
+        r_src, l_src = c.branch_r_ohm + loop[0], c.branch_l_h + loop[1]
+        key = (c.dimmer, cond, knob, c.dimmer_params, r_src, l_src, groups, round(v1, 3), harm)
         hit = self.cache.get(key)
         if hit is None:
-            hit = self._solve(c, cond, knob, groups, v1, harm)
+            hit = self._solve(c, cond, knob, groups, v1, harm, r_src, l_src)
             self.cache[key] = hit
         if delta:
             return CaseResult(_advance(hit.current_a, delta, hit.cycles), hit.cycles, hit.p_w,
@@ -208,13 +212,13 @@ class CaseSolver:
             self.cache[key] = {k: v for k, v in full.items() if v is not None}
         return self.cache[key]
 
-    def _solve(self, c: Circuit, cond, knob, groups, v1, harm) -> CaseResult:
+    def _solve(self, c: Circuit, cond, knob, groups, v1, harm, r_src, l_src) -> CaseResult:
         from .circuits import LoadGroup, Supply, solve_circuit
 
         inst = self.inst
         self.solves += 1
         supply = Supply(v_rms_v=v1, frequency_hz=inst.supply.frequency_hz,
-                        source_r_ohm=c.branch_r_ohm, source_l_h=c.branch_l_h,
+                        source_r_ohm=r_src, source_l_h=l_src,
                         voltage_harmonics=list(harm) if harm else None)
         dimmer = _dimmer_spec(c, cond, knob)
         loads = [LoadGroup(model=inst.fixtures[f].model, power_w=inst.fixtures[f].power_w,
@@ -481,7 +485,7 @@ def _run(inst: Installation, solver: CaseSolver, scenario: int, voltages, progre
     for p in inst.panels:
         for c in p.circuits:
             cases[c.id] = solver.case(c, scenario, None if voltages is None else
-                                      voltages[(p.id, c.phase)])
+                                      voltages[c.id])
             if progress is not None:
                 progress(1)
     cyc = common_period(cs.cycles for cs in cases.values())
@@ -507,19 +511,56 @@ def _run(inst: Installation, solver: CaseSolver, scenario: int, voltages, progre
     return cases, panels, feeders, total, cyc
 
 
+def _node_phasors(system: str, node: _Node, cyc: int):
+    """Line phasors and the neutral (return) phasors of a node, L1 frame. On a two-wire
+    single-phase supply the neutral returns the line current."""
+    xs = {ln: grid_phasors(x, cyc) for ln, x in node.x.items()}
+    return xs, sum(xs.values())
+
+
+def _circuit_sources(inst: Installation, cases, feeders, total, cyc):
+    """The Thevenin source each circuit sees at its panel, for solving it again.
+
+    The loop impedance of the source and feeder (line and neutral) goes into the circuit's
+    own solve, so a circuit's own switching transients meet the impedance exactly; the drop
+    that the *other* circuits' currents cause across the shared impedances distorts its EMF:
+    ``E_c = E - Z_tr (I_tr - I_c) - Z_trN (I_trN - I_c) - Z_f (I_f - I_c) - Z_fN (I_fN - I_c)``.
+    Returns per circuit id ``(v1_rms, harmonics, delta, (r_loop_ohm, l_loop_h))`` in the
+    circuit's own line frame.
+    """
+    sup = inst.supply
+    f = sup.frequency_hz
+    angles = LINE_ANGLES_DEG[sup.system]
+    tot_l, tot_n = _node_phasors(sup.system, total, cyc)
+    fdr = {k: _node_phasors(sup.system, v, cyc) for k, v in feeders.items()}
+    ztr = sup.impedance
+    out = {}
+    for p in inst.panels:
+        zf = inst.feeders[p.feeder].impedance if p.feeder is not None else None
+        loop = (ztr.r_ohm + ztr.neutral_r_ohm, ztr.l_h + ztr.neutral_l_h)
+        if zf is not None:
+            loop = (loop[0] + zf.r_ohm + zf.neutral_r_ohm, loop[1] + zf.l_h + zf.neutral_l_h)
+        loop = (round(loop[0], 9), round(loop[1], 12))
+        for c in p.circuits:
+            cs = cases[c.id]
+            ic = rotate_phasors(grid_phasors(cs.current_a, cs.cycles), np.radians(angles[c.phase]))
+            ln = c.phase
+            v = _ideal_v(inst, ln) - voltage_drop(ztr, tot_l[ln] - ic, tot_n - ic, f)
+            if zf is not None:
+                fl, fn = fdr[p.feeder]
+                v = v - voltage_drop(zf, fl[ln] - ic, fn - ic, f)
+            out[c.id] = v, loop
+    return out
+
+
 def _panel_voltages(inst: Installation, panels, feeders, total, cyc):
     """Harmonic voltage at each panel line (L1 frame), from the drops over the source and
     the feeder impedances."""
     sup = inst.supply
     f = sup.frequency_hz
 
-    def ph(node):
-        xs = {ln: grid_phasors(x, cyc) for ln, x in node.x.items()}
-        n = sum(xs.values()) if sup.system != "single-phase" else None
-        return xs, n
-
-    tot_l, tot_n = ph(total)
-    fdr = {k: ph(v) for k, v in feeders.items()}
+    tot_l, tot_n = _node_phasors(sup.system, total, cyc)
+    fdr = {k: _node_phasors(sup.system, v, cyc) for k, v in feeders.items()}
     out = {}
     for p in inst.panels:
         for ln in tot_l:
@@ -531,11 +572,20 @@ def _panel_voltages(inst: Installation, panels, feeders, total, cyc):
     return out
 
 
+def _source_frame(inst: Installation, sources):
+    """Per-circuit Thevenin EMFs (L1 frame) in each circuit's own line frame, with the loop
+    impedance: ``(v1_rms, harmonics, delta, loop)``."""
+    lines = {c.id: c.phase for c in inst.circuits}
+    own = _own_frame(inst, {(cid, lines[cid]): v for cid, (v, _) in sources.items()})
+    return {cid: own[(cid, lines[cid])] + (sources[cid][1],) for cid in sources}
+
+
 def _own_frame(inst: Installation, vmap):
     """Panel voltages in each line's own frame as (v1_rms, harmonics, delta) for solving."""
     angles = LINE_ANGLES_DEG[inst.supply.system]
     out = {}
-    for (pid, ln), v in vmap.items():
+    for key, v in vmap.items():
+        ln = key[1]
         own = rotate_phasors(v, -np.radians(angles[ln]))
         v1 = abs(own[1])
         delta = float(np.angle(own[1]))
@@ -545,7 +595,7 @@ def _own_frame(inst: Installation, vmap):
             if r > 1e-4:
                 harm.append((h, round(float(r), 5),
                              round(float(np.degrees(np.angle(own[h]) - h * delta)), 1)))
-        out[(pid, ln)] = (float(v1), tuple(harm), delta)
+        out[key] = (float(v1), tuple(harm), delta)
     return out
 
 
@@ -684,18 +734,21 @@ def _scenario(inst, solver, k, progress=None) -> ScenarioResult:
     # Fixed point on the panel voltages, under-relaxed: V <- V + r (V(I(V)) - V). The
     # circuits are re-solved under each new voltage; it stops when the voltage update is
     # below the tolerance [fraction of V1] on every panel line.
-    relax = 0.7
-    vmap = _panel_voltages(inst, panels, feeders, total, cyc)
+    relax = 0.6
+    src = {cid: v for cid, (v, _) in _circuit_sources(inst, cases, feeders, total, cyc).items()}
+    loops = {cid: lp for cid, (_, lp) in _circuit_sources(inst, cases, feeders, total, cyc).items()}
     change = float("inf")
     for it in range(1, opts.max_iterations + 1):
-        own = _own_frame(inst, vmap)
-        cases, panels, feeders, total, cyc = _run(inst, solver, k, own)
-        v_new = _panel_voltages(inst, panels, feeders, total, cyc)
-        change = max(float(np.max(np.abs(v_new[key] - vmap[key]))) / abs(vmap[key][1])
-                     for key in vmap)
+        solve_at = _source_frame(inst, {cid: (v, loops[cid]) for cid, v in src.items()})
+        cases, panels, feeders, total, cyc = _run(inst, solver, k, solve_at)
+        new = _circuit_sources(inst, cases, feeders, total, cyc)
+        change = max(float(np.max(np.abs(new[cid][0] - src[cid]))) / abs(src[cid][1])
+                     for cid in src)
         if change < opts.tolerance:
             break
-        vmap = {key: vmap[key] + relax * (v_new[key] - vmap[key]) for key in vmap}
+        src = {cid: src[cid] + relax * (new[cid][0] - src[cid]) for cid in src}
+    vmap = _panel_voltages(inst, panels, feeders, total, cyc)
+    own = _own_frame(inst, vmap)
     res = _assemble(inst, k, cases, panels, feeders, total, cyc, vmap, it, own)
     extra = res.checks
     if change >= opts.tolerance:
