@@ -64,3 +64,23 @@ def test_count_scales_current_not_cost():
     assert ten.waveform.i_rms_a == pytest.approx(10 * one.waveform.i_rms_a, rel=1e-7)
     np.testing.assert_allclose(ten.groups[0].waveform.current_a,
                                one.groups[0].waveform.current_a, rtol=1e-7, atol=1e-9)
+
+
+def test_distorted_supply_ohms_law():
+    # Ohm's law sample by sample: a resistor on a supply with 5th, 7th and 49th harmonics
+    # draws i = v / R (closed form); checks the source's harmonic phasors (the orders are
+    # built by repeated multiplication) through segments and sampling. 1e-8 of the peak: the
+    # 1 uohm link of a zero source impedance and the 1 uohm switch against 529 ohm (4e-9)
+    sup = Supply(230.0, 50.0, 0.0, 0.0,
+                 voltage_harmonics=[(5, 0.06, 30.0), (7, 0.04, -110.0), (49, 0.01, 77.0)])
+    dim = DimmerSpec("none", params={"r_on_ohm": 1e-6})
+    sol = solve_circuit(sup, dim, [LoadGroup("resistive", 100.0, params={"r_ohm": R})],
+                        extras=False)
+    w = sol.waveform
+    t = np.arange(w.current_a.size) / w.sample_rate_hz
+    vpk = np.sqrt(2) * 230.0
+    v = vpk * (np.sin(2 * np.pi * 50 * t) + 0.06 * np.sin(5 * 2 * np.pi * 50 * t
+               + np.radians(30.0)) + 0.04 * np.sin(7 * 2 * np.pi * 50 * t - np.radians(110.0))
+               + 0.01 * np.sin(49 * 2 * np.pi * 50 * t + np.radians(77.0)))
+    np.testing.assert_allclose(w.voltage_v, v, rtol=0, atol=1e-8 * vpk)
+    np.testing.assert_allclose(w.current_a, v / R, rtol=0, atol=1e-8 * vpk / R)
