@@ -45,6 +45,9 @@ SAMPLES_PER_CYCLE = 4096
 #: a triac fired in a half cycle that conducts less than this [deg] has not stayed latched
 #: (its current fell below holding right after the gate pulse): flagged "no-latch"
 NO_HOLD_DEG = 5.0
+#: mains cycles simulated to read a triac's latching period when the one-cycle shooting
+#: fails (the pattern of the last half of them; periods up to GUESS_CYCLES / 2 cycles)
+GUESS_CYCLES = 16
 #: incandescent light against filament power, L ~ P^(3.4/1.6) from L ~ V^3.4 and P ~ V^1.6
 #: (common practice; exponents from memory)
 FILAMENT_LIGHT_EXPONENT = 3.4 / 1.6
@@ -183,8 +186,20 @@ def _stable(eng: Engine, tr, cycles: int, scale: np.ndarray, exact_phi: bool) ->
     return bool(e1 <= 1.05e-3 and a.sT == tr.s0)  # the perturbation has not grown
 
 
+def _period_guess(eng: Engine, x0, d0, cycles: int = GUESS_CYCLES):
+    """The period [mains cycles] of the triac's latching pattern over ``cycles`` simulated
+    cycles from ``x0`` (the last ``cycles`` half cycles compared), the state at the end."""
+    tr = eng.run(0.0, cycles * eng.T1, x0, d0, record=True)
+    on, _f, _n = _conduction(tr, eng, cycles)
+    pat = [c > NO_HOLD_DEG for c in on][cycles:]  # the second half: transients faded
+    for p in range(1, len(pat) // 2 + 1):
+        if all(pat[i] == pat[i + p] for i in range(len(pat) - p)):
+            return (p // 2 if p % 2 == 0 else p), tr.xT, tr.sT
+    return None, tr.xT, tr.sT
+
+
 def _steady(case: _Case, supply: Supply, check_stability: bool, max_period: int = 4,
-            exact_phi: bool = False):
+            exact_phi: bool = False, triac: bool = False):
     eng = case.eng
     x0, d0 = _initial(case, supply)
     # two cycles from the initial guess give Newton a state near the orbit
@@ -192,7 +207,11 @@ def _steady(case: _Case, supply: Supply, check_stability: bool, max_period: int 
     x0, d0 = warm.xT, warm.sT
     tried = []
     total = 0
-    for k in range(1, max_period + 1):
+    order = list(range(1, max_period + 1))
+    k_i = 0
+    while k_i < len(order):
+        k = order[k_i]
+        k_i += 1
         try:
             tr, it, ok = eng.periodic(k, x0, d0)
         except ConvergenceError as e:
@@ -204,6 +223,15 @@ def _steady(case: _Case, supply: Supply, check_stability: bool, max_period: int 
         tried.append(f"{k}-cycle period: {'unstable' if ok else 'no convergence'} after "
                      f"{it} Newton iterations")
         x0, d0 = tr.xT, tr.sT
+        if k == 1 and triac:
+            # a triac that latches only every few half cycles: read the period off the
+            # latching pattern of a few simulated cycles, then shoot at that period first
+            guess, x0, d0 = _period_guess(eng, x0, d0)
+            if guess is not None and guess > 1:
+                if guess not in order:
+                    order.append(guess)
+                order.remove(guess)
+                order.insert(k_i, guess)
     raise ConvergenceError(
         "no periodic steady state found; tried shooting (Newton on the state at the cycle "
         "start) over " + "; ".join(tried)
@@ -321,7 +349,8 @@ def _solve_cached(supply, dimmer, loads, spc, extras, reference) -> Solution:
         for _k in range(12 if pfc else 1):
             case = _build(supply, dimmer, dp, loads, gparams, levels)
             tr, period, iters, ok = _steady(case, supply, check,
-                                            exact_phi=not dimmer.uses_triac)
+                                            exact_phi=not dimmer.uses_triac,
+                                            triac=dimmer.uses_triac)
             again = False
             for i in pfc:
                 again |= _pfc_update(gparams[i], brackets[i],
