@@ -243,3 +243,26 @@ def test_curve_on_the_knob_axis():
     assert d["axis"] == "knob" and [r["setting"] for r in d["settings"]] == [0.0, 0.5, 1.0]
     cond = [r["conduction_deg"] for r in d["settings"]]
     assert cond[0] < cond[1] < cond[2]  # the RC network fires earlier as the knob rises
+
+
+@pytest.mark.parametrize("figure, extra", [("waveform", ["--dimmer", "trailing-edge",
+                                                         "--conduction-deg", "90"]),
+                                           ("spectrum", []), ("light", []),
+                                           ("curve", ["--dimmer", "trailing-edge", "--curve",
+                                                      "--steps", "5"])])
+def test_lamp_figures(figure, extra, tmp_path):
+    # Each figure of a solved lamp is a valid PNG (signature per the PNG specification).
+    out = tmp_path / f"{figure}.png"
+    r = CliRunner().invoke(main, ["lamp", "--model", "resistive", "--power-w", "60",
+                                  "--figure", figure, "-o", str(out), *extra])
+    assert r.exit_code == 0, r.output
+    assert out.read_bytes()[:8] == b"\x89PNG\r\n\x1a\n"
+
+
+def test_lamp_figure_needs_its_file(tmp_path):
+    r = CliRunner().invoke(main, ["lamp", "--model", "resistive", "--power-w", "60",
+                                  "--figure", "waveform"])
+    assert r.exit_code == 2 and "go together" in r.output
+    r = CliRunner().invoke(main, ["lamp", "--model", "resistive", "--power-w", "60",
+                                  "--figure", "waveform", "-o", str(tmp_path / "no" / "x.png")])
+    assert r.exit_code == 2 and "does not exist" in r.output

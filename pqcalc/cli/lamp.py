@@ -106,6 +106,10 @@ def _stresses_dict(st) -> dict:
     }
 
 
+#: Figures ``pqcalc lamp --figure`` draws.
+LAMP_FIGURES = ("waveform", "spectrum", "light", "curve")
+
+
 @main.command("lamp")
 @click.option("--model", "model", help=f"Lamp model: {', '.join(MODELS)}.")
 @click.option("--power-w", type=float, help="Rated input power of one lamp, undimmed [W].")
@@ -140,10 +144,17 @@ def _stresses_dict(st) -> dict:
               help=f"With --curve: space the settings by {' or '.join(SETTING_AXES)}.")
 @click.option("--waveform-csv", type=click.Path(dir_okay=False),
               help="Write one period of time, voltage, current and light to this CSV file.")
+@click.option("--figure", type=click.Choice(LAMP_FIGURES),
+              help="Also draw a figure into -o: waveform (voltage and current, the cut "
+                   "shaded), spectrum (against the IEC 61000-3-2 Class C limits), light (with "
+                   "its flicker figures); with --curve: curve (light, power, THD, PF).")
+@click.option("-o", "--output", type=click.Path(dir_okay=False),
+              help="With --figure: the file (.png, .svg or .pdf).")
 @click.option("--json", "as_json", is_flag=True, help="Print one JSON object instead of text.")
 @user_errors
 def lamp_cmd(model, power_w, count, voltage, frequency, dimmer, switch, conduction_deg, knob,
-             params, list_params, curve, steps, curve_axis, waveform_csv, as_json):
+             params, list_params, curve, steps, curve_axis, waveform_csv, figure, output,
+             as_json):
     """Input current, light, flicker and stresses of one fixture type behind a dimmer.
 
     The lamp circuit (the chosen model's named components with typical defaults) and the
@@ -176,6 +187,16 @@ def lamp_cmd(model, power_w, count, voltage, frequency, dimmer, switch, conducti
     if dimmer == "none" and (conduction_deg is not None or knob is not None or curve):
         raise InputError("--dimmer none: no setting to give (--conduction-deg, --knob and "
                          "--curve need leading-edge or trailing-edge)")
+    if (figure is None) != (output is None):
+        raise InputError("--figure and -o go together: name the figure and its file")
+    if figure is not None:
+        from ..io.atomic import check_output_path
+
+        check_output_path(output)
+        if (figure == "curve") != bool(curve):
+            raise InputError(f"--figure {figure}: "
+                             + ("needs --curve" if figure == "curve" else
+                                "draws one setting; leave out --curve or use --figure curve"))
     split = _split_params(params, model, dimmer, switch, supply0)
     supply = Supply(voltage, frequency, **split["supply"])
     group = LoadGroup(model, power_w, count, params=split["lamp"])
@@ -187,6 +208,15 @@ def lamp_cmd(model, power_w, count, voltage, frequency, dimmer, switch, conducti
             raise InputError("--waveform-csv: one setting only; leave out --curve")
         c = dimming_curve(supply, dimmer, [group], steps=steps, switch=switch,
                           dimmer_params=split["dimmer"], axis=curve_axis)
+        if figure == "curve":
+            from .. import plots
+
+            fig = plots.dimming_curve_figure(
+                c.settings, c.light[0], c.p_w, c.thd_i, c.pf,
+                setting_label=("conduction angle [deg]" if curve_axis == "conduction"
+                               else "knob position [-]"),
+                title=f"{model} {power_w:g} W x {count}, {dimmer}")
+            plots.save_figure(fig, output)
         if as_json:
             d = c.to_dict()
             d["supply"] = {"v_rms_v": supply.v_rms_v, "frequency_hz": supply.frequency_hz,
@@ -208,6 +238,10 @@ def lamp_cmd(model, power_w, count, voltage, frequency, dimmer, switch, conducti
     a = analyze(sol.waveform, 40)
     if waveform_csv:
         _write_waveform(waveform_csv, sol.waveform, gr.light)
+    if figure is not None:
+        setting = ("" if dimmer == "none" else f", {dimmer} " + (
+            f"{conduction_deg:g} deg" if conduction_deg is not None else f"knob {knob:g}"))
+        _draw(figure, output, sol, gr, a, fl, f"{model} {power_w:g} W x {count}{setting}")
     if as_json:
         d = a.to_dict()
         d["label"] = f"{model} {power_w:g} W x {count}"
@@ -217,6 +251,30 @@ def lamp_cmd(model, power_w, count, voltage, frequency, dimmer, switch, conducti
         echo_json(d)
         return
     _print_solution(a, sol, spec, supply, fl, group)
+
+
+def _draw(figure, output, sol, gr, a, fl, title) -> None:
+    """One figure of a solved lamp into ``output`` (written atomically)."""
+    from .. import plots
+
+    w = sol.waveform
+    if figure == "waveform":
+        fig = plots.waveform_figure(w, cycles=w.cycles, title=title)
+    elif figure == "spectrum":
+        from ..standards import evaluate_fixture
+
+        r = evaluate_fixture(w, None, None, "C", fixture=title,
+                             outside_scope=w.v_rms_v is not None and w.v_rms_v < 220)
+        marks = plots.limit_marks(r, a.spectrum.i1_a, "pct")
+        fig = plots.spectrum_figure(a.spectrum, marks.limits, unit="pct", title=title,
+                                    limits_label=marks.label, disregarded=marks.disregarded)
+    else:
+        t = np.arange(gr.light.size) / (gr.light.size / (w.cycles / w.frequency_hz))
+        fig = plots.light_figure(t, gr.light, fl.percent_flicker or 0.0,
+                                 fl.flicker_index or 0.0, fl.modulation_frequency_hz or 0.0,
+                                 title=title)
+    plots.save_figure(fig, output)
+    click.echo(f"wrote {output}", err=True)
 
 
 def _solution_dict(sol, spec, supply, split, fl) -> dict:

@@ -75,8 +75,9 @@ def plot_cmd(figure, source, output, unit, log, limits_class, power_w, pf, max_o
     ``pqcalc analyze``) or an installation file (.toml): then spectrum and waveform show a
     fixture type at full output with its IEC 61000-3-2 limits (--fixture), and panel
     (phase and neutral rms with the triplen share) and neutral-spectrum show a panel
-    (--panel, --scenario). The file type follows the suffix of the output: .png, .svg or
-    .pdf; it is written only once the figure is complete.
+    (--panel, --scenario). For a lamp model use ``pqcalc lamp ... --figure NAME -o FILE``
+    (waveform, spectrum, light, curve). The file type follows the suffix of the output:
+    .png, .svg or .pdf; it is written only once the figure is complete.
     """
     from .. import plots
     from ..io.capture import load_capture, record_to_waveform
