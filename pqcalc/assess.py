@@ -477,6 +477,31 @@ class _Node:
                 self.add(ln, other.x[ln], other.p[ln])
 
 
+#: Longest common period [cycles] the sums are carried over; circuits whose own period
+#: (a triac firing every few half cycles) does not divide it enter as their mean cycle.
+MAX_COMMON_PERIOD = 12
+
+
+def _period(periods) -> int:
+    """The common period of the circuits' records, or 1 when it would exceed
+    :data:`MAX_COMMON_PERIOD`."""
+    try:
+        p = common_period(periods)
+    except InputError:
+        return 1
+    return p if p <= MAX_COMMON_PERIOD else 1
+
+
+def _on_period(cs: CaseResult, cyc: int) -> np.ndarray:
+    """A case's current over ``cyc`` cycles: tiled, or its mean cycle when its own period
+    does not divide ``cyc`` (the sub-harmonic content is then averaged out; the circuit
+    keeps its 'subharmonic' flag and its own figures)."""
+    if cyc % cs.cycles == 0:
+        return np.tile(cs.current_a, cyc // cs.cycles)
+    mean = cs.current_a.reshape(cs.cycles, -1).mean(axis=0)
+    return np.tile(mean, cyc)
+
+
 def _run(inst: Installation, solver: CaseSolver, scenario: int, voltages, progress=None):
     """One pass: circuit cases -> panel/feeder/transformer sums (L1 frame)."""
     sup = inst.supply
@@ -488,14 +513,14 @@ def _run(inst: Installation, solver: CaseSolver, scenario: int, voltages, progre
                                       voltages[c.id])
             if progress is not None:
                 progress(1)
-    cyc = common_period(cs.cycles for cs in cases.values())
+    cyc = _period(cs.cycles for cs in cases.values())
     spc = GRID_SAMPLES
     panels = {}
     for p in inst.panels:
         node = _Node(angles)
         for c in p.circuits:
             cs = cases[c.id]
-            x = np.tile(cs.current_a, cyc // cs.cycles)
+            x = _on_period(cs, cyc)
             shift = int(round(angles[c.phase] / 360.0 * spc))
             node.add(c.phase, np.roll(x, -shift) if shift else x, cs.p_w)
         for ln in angles:
@@ -915,14 +940,14 @@ def _monte_carlo(inst: Installation, solver: CaseSolver) -> dict:
             else:
                 table[c.id] = [solver.case(replace(c, conduction_deg=(float(a),), knob=None), 0)
                                for a in grid]
-    cyc = common_period(cs.cycles for v in table.values() for cs in v)
+    cyc = _period(cs.cycles for v in table.values() for cs in v)
     for _ in range(d.draws):
         for p in inst.panels:
             acc = {ln: np.zeros(spc * cyc) for ln in angles}
             for c in p.circuits:
                 opts = table[c.id]
                 cs = opts[rng.integers(len(opts))] if len(opts) > 1 else opts[0]
-                x = np.tile(cs.current_a, cyc // cs.cycles)
+                x = _on_period(cs, cyc)
                 shift = int(round(angles[c.phase] / 360.0 * spc))
                 acc[c.phase] += np.roll(x, -shift) if shift else x
             for ln in angles:
