@@ -47,7 +47,7 @@ SAMPLES_PER_CYCLE = 4096
 NO_HOLD_DEG = 5.0
 #: mains cycles simulated to read a triac's latching period when the one-cycle shooting
 #: fails (the pattern of the last half of them; periods up to GUESS_CYCLES / 2 cycles)
-GUESS_CYCLES = 16
+GUESS_CYCLES = 12
 #: incandescent light against filament power, L ~ P^(3.4/1.6) from L ~ V^3.4 and P ~ V^1.6
 #: (common practice; exponents from memory)
 FILAMENT_LIGHT_EXPONENT = 3.4 / 1.6
