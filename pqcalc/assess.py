@@ -933,13 +933,23 @@ def _monte_carlo(inst: Installation, solver: CaseSolver) -> dict:
     per_panel = {p.id: {"lines": {ln: [] for ln in angles}, "neutral": []} for p in inst.panels}
     # each circuit's current at each grid setting, solved once
     table = {}
+    skipped: list[str] = []
     for p in inst.panels:
         for c in p.circuits:
             if c.dimmer == "none":
                 table[c.id] = [solver.case(c, 0)]
             else:
-                table[c.id] = [solver.case(replace(c, conduction_deg=(float(a),), knob=None), 0)
-                               for a in grid]
+                opts = []
+                for a in grid:
+                    try:
+                        opts.append(solver.case(replace(c, conduction_deg=(float(a),),
+                                                        knob=None), 0))
+                    except ConvergenceError:
+                        skipped.append(f"{c.id} at {a:g} deg")
+                if not opts:
+                    raise ConvergenceError(f"Monte Carlo: circuit {c.id} has no steady state at "
+                                           f"any setting of {d.low_deg:g}..{d.high_deg:g} deg")
+                table[c.id] = opts
     cyc = _period(cs.cycles for v in table.values() for cs in v)
     for _ in range(d.draws):
         for p in inst.panels:
@@ -963,6 +973,8 @@ def _monte_carlo(inst: Installation, solver: CaseSolver) -> dict:
     return {"method": f"Monte Carlo, {d.draws} draws, settings uniform in "
                       f"{d.low_deg:g}..{d.high_deg:g} deg conduction (step {d.step_deg:g} deg), "
                       f"seed {d.seed}; ideal supply",
+            "left_out": (["settings without a steady state, left out of the draws: "
+                          + ", ".join(skipped)] if skipped else []),
             "panels": [{"id": pid, "phases": {ln: pct(v) for ln, v in r["lines"].items()},
                         **({"neutral": pct(r["neutral"])} if r["neutral"] else {})}
                        for pid, r in per_panel.items()]}

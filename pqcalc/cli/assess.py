@@ -141,6 +141,8 @@ def print_assessment(a, scenarios) -> None:
     if a.diversity:
         out("")
         out(f"== diversity: {a.diversity['method']}")
+        for n in a.diversity.get("left_out", []):
+            out(f"  note: {n}")
         for p in a.diversity["panels"]:
             items = ", ".join(f"{ln} {_div(v)}" for ln, v in p["phases"].items())
             n = f", N {_div(p['neutral'])}" if "neutral" in p else ""
