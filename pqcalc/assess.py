@@ -651,6 +651,21 @@ def _case_metrics(inst, cs: CaseResult, v_own):
     return out
 
 
+#: What each circuit-model flag means for the user.
+_FLAG_TEXT = {
+    "no-latch": "the triac does not stay on after firing (load current below its latching or "
+                "holding current): flicker or no light; add load, a bleeder, or use a "
+                "trailing-edge dimmer",
+    "misfire": "the dimmer fails to fire in some half cycles",
+    "re-fire": "the triac fires more than once per half cycle",
+    "subharmonic": "the dimmer fires only every few half cycles: visible flicker and a DC/"
+                   "sub-harmonic current",
+    "asymmetric": "the two half cycles differ: a DC component and even harmonics",
+    "drop-out": "the lamp's driver shuts down at this setting",
+    "glow-when-off": "the dimmer's own supply current lights the lamp when off",
+}
+
+
 def _circuit_result(inst, c: Circuit, cs: CaseResult, scenario: int, v_own) -> CircuitResult:
     m, i_rms, i1, i_peak, thd_i, pf, dpf = _case_metrics(inst, cs, v_own)
     cond, knob = c.setting(scenario)
@@ -689,9 +704,10 @@ def _circuit_result(inst, c: Circuit, cs: CaseResult, scenario: int, v_own) -> C
     for fl in cs.flags:
         st = bad.get(fl, "warn")
         checks.append(ck.Check("dimmer compatibility", st,
-                               f"the circuit model reports '{fl}' at this setting",
+                               f"the circuit model reports '{fl}' at this setting: "
+                               + _FLAG_TEXT.get(fl, "see the lamp model"),
                                "periodic steady-state circuit model of dimmer and drivers", None,
-                               None, ""))
+                               None, "", {"flag": fl}))
     mx = {g.fixture: ck.breaker_max_fixtures(g.inrush_peak_one_a, g.i_rms_one_a, c.breaker_a,
                                              c.breaker_curve) for g in cs.groups}
     return CircuitResult(c.id, c.panel, c.phase, cond if c.dimmer != "none" else None, knob,

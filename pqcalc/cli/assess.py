@@ -78,7 +78,9 @@ def _groups(a, c):
 
 def _flags(checks) -> str:
     bad = [c for c in checks if c.status in ("fail", "warn")]
-    return ", ".join(f"{c.status.upper()} {c.name}" for c in bad) or "ok"
+    return ", ".join(f"{c.status.upper()} {c.name}"
+                     + (f" ({c.details['flag']})" if "flag" in c.details else "")
+                     for c in bad) or "ok"
 
 
 def print_assessment(a, scenarios) -> None:
