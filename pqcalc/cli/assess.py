@@ -107,6 +107,13 @@ def print_assessment(a, scenarios) -> None:
             out(f"  {c.id:<12} {c.panel:<8} {c.phase:<3} {st:>5} {c.i_rms_a:>8.3f} "
                 f"{100 * c.thd_i:>7.1f} {fmt(c.pf, '.2f'):>5} {fmt(c.dpf, '.2f'):>5} "
                 f"{c.p_w:>8.1f}  {_flags(c.checks)}")
+        findings = [(c.id, k) for c in sc.circuits for k in c.checks
+                    if k.status in ("fail", "warn")]
+        if findings:
+            out("")
+            out("  circuit findings:")
+            for cid, k in findings:
+                out(f"  {cid:<12} {k.status.upper():<5} {k.name}: {k.message}")
         cap = [(c, f, m) for c in sc.circuits for f, m in c.max_fixtures.items()]
         if cap:
             out("")
