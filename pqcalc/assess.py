@@ -697,8 +697,9 @@ def _circuit_result(inst, c: Circuit, cs: CaseResult, scenario: int, v_own) -> C
     led_w = sum(g.count * inst.fixtures[g.fixture].power_w for g in cs.groups
                 if inst.fixtures[g.fixture].nonlinear)
     if c.dimmer != "none" and c.dimmer_rating_w is not None:
+        connected_w = sum(g.count * inst.fixtures[g.fixture].power_w for g in cs.groups)
         checks.append(ck.dimmer_load(led_w, c.dimmer_rating_w, c.led_derating,
-                                     c.dimmer_min_load_w, cs.p_w))
+                                     c.dimmer_min_load_w, connected_w))
     bad = {"no-latch": "fail", "misfire": "fail", "subharmonic": "fail", "re-fire": "warn",
            "drop-out": "warn", "glow-when-off": "warn"}
     for fl in cs.flags:

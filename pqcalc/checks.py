@@ -141,7 +141,7 @@ def dimmer_load(
                      float(led_power_w), float(allowed), "W")
     if min_load_w is not None and total_power_w < min_load_w:
         return Check("dimmer rating", "warn",
-                     f"load {total_power_w:.1f} W is below the dimmer's minimum load "
+                     f"connected load {total_power_w:.1f} W is below the dimmer's minimum load "
                      f"{min_load_w:.0f} W: flicker, drop-out or glow when off are likely",
                      "dimmer minimum load (maker's data; common practice)",
                      float(total_power_w), float(min_load_w), "W")
