@@ -90,8 +90,10 @@ class Doc:
             self.y -= 0.12 if self.y < A4_IN[1] - _TOP - 0.01 else 0
         if level == 1:
             self.section = s
-        self.text(_LEFT, self.y, s, size=size, weight="bold")
-        self.y -= h
+        # long headings wrap (bold glyphs are about 10 % wider than the regular ones)
+        for line in _wrap(s, int(_chars(_WIDTH, size) / 1.1)):
+            self.text(_LEFT, self.y, line, size=size, weight="bold")
+            self.y -= h
         if level == 1:
             self.rule(self.y + 0.06, color=_INK, lw=0.9)
             self.y -= 0.08

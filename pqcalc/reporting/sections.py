@@ -187,9 +187,11 @@ def lineup_section(doc: Doc, lineup: Sequence[LineupEntry], notes: Sequence[str]
                     worst = f"{c.quantity} {100 * c.margin / abs(c.limit):+.0f} %"
             rows.append((e.title, s.setting, fmt_num(r.p_w, ".1f"), fmt_num(r.pf, ".3f"),
                          r.rule, worst, r.verdict.upper()))
-    doc.table([Col("fixture type", 1.5), Col("state", 1.0), Col("P [W]", 0.55, "right"),
+    doc.table([Col("fixture type", 1.5, wrap=True), Col("state", 1.0, wrap=True),
+               Col("P [W]", 0.55, "right"),
                Col("lambda [-]", 0.6, "right"), Col("rule", 1.6, wrap=True),
-               Col("closest limit (margin)", 1.1), Col("verdict", 0.6)], rows, status_col=6,
+               Col("closest limit (margin)", 1.1, wrap=True), Col("verdict", 0.6)], rows,
+              status_col=6,
               title="Compliance table")
     for n in notes:
         doc.para(n, size=8, color=_GREY)
