@@ -497,14 +497,11 @@ def _assemble(supply, dimmer, dp, loads, gparams, levels, case, tr, period, iter
 
 
 def _segment_states(tr, ts):
-    out = []
-    k = 0
+    """The discrete state of the segment that holds each (ascending) time of ``ts``."""
     segs = tr.segments
-    for t in ts:
-        while k < len(segs) - 1 and t >= segs[k].t1:
-            k += 1
-        out.append(segs[k].disc)
-    return out
+    ends = np.array([sg.t1 for sg in segs[:-1]])
+    idx = np.searchsorted(ends, ts, side="right")
+    return [segs[k].disc for k in idx]
 
 
 def _light(case, b, g, p, Y, col, seg_state, ts, supply, period, level, reference):
