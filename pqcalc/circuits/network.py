@@ -6,7 +6,7 @@ voltage sources and current sources driven by an input channel. In every *mode* 
 and switch either conducting or blocking) the circuit is linear; :meth:`Network.mode` gives
 
     x' = A x + B u,        x = [capacitor voltages, inductor currents],
-    u = [source voltage v_s(t), 1, nonlinear channels ...],
+    u = [source voltage v_s(t), 1, further input channels held constant per mode ...],
 
 and a matrix ``Q`` whose rows are every element's current and voltage as linear functions of
 ``[x, u]``. The equations come from modified nodal analysis of the resistive network that
