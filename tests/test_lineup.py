@@ -87,3 +87,21 @@ def test_plot_installation_figures(tmp_path):
                                   str(tmp_path / "x.png")])
     assert r.exit_code == 2 and "known: P" in r.output
     assert not (tmp_path / "x.png").exists()
+
+
+def test_comply_model_options():
+    # A filament draws a sine at full output (passes IEC 61000-3-2 Table 2); cut by a
+    # trailing edge its dimmed states carry the phase-control harmonics (Fourier series of
+    # the phase-controlled sine) above the maximum-power limits in amperes: exit 1.
+    r = CliRunner().invoke(main, ["comply", "--model", "resistive", "--power-w", "60",
+                                  "--json"])
+    assert r.exit_code == 0, r.output
+    d = json.loads(r.output)
+    assert [x["verdict"] for x in d["results"]] == ["pass"]
+    r = CliRunner().invoke(main, ["comply", "--model", "resistive", "--power-w", "60",
+                                  "--dimmer", "trailing-edge", "--json"])
+    assert r.exit_code == 1, r.output
+    d = json.loads(r.output)
+    assert len(d["results"]) >= 4 and d["results"][0]["verdict"] == "pass"
+    r = CliRunner().invoke(main, ["comply", "--model", "resistive"])
+    assert r.exit_code == 2 and "--power-w" in r.output

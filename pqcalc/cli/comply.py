@@ -65,6 +65,49 @@ def print_result(r: FixtureResult) -> None:
     out("")
 
 
+def _model_states(model, power_w, dimmer, voltage, frequency, params, equipment_class,
+                  outside_scope):
+    """IEC 61000-3-2 results of one simulated fixture at full output and dimmed states."""
+    from ..circuits import DIMMER_KINDS, MODELS, Supply
+    from ..circuits.drivers import resolve_params
+    from ..installation import FixtureType
+    from ..lineup import fixture_states
+
+    if model not in MODELS:
+        raise InputError(f"--model: unknown model {model!r}; expected one of {', '.join(MODELS)}")
+    if dimmer not in DIMMER_KINDS:
+        raise InputError(f"--dimmer: expected one of {', '.join(DIMMER_KINDS)}, got {dimmer!r}")
+    if power_w is None:
+        raise InputError("--power-w: required with --model (the lamp's rated input power [W])")
+    Supply(voltage, frequency)  # validates both
+    over = {}
+    for item in params:
+        name, sep, value = item.partition("=")
+        try:
+            over[name.strip()] = float(value)
+        except ValueError:
+            raise InputError(f"--param {item}: expected NAME=NUMBER") from None
+        if not sep:
+            raise InputError(f"--param {item}: expected NAME=NUMBER")
+    full = resolve_params(model, power_w, voltage, frequency, over)
+    ft = FixtureType(model, power_w, model,
+                     tuple(sorted((k, v) for k, v in full.items() if v is not None)))
+    states = fixture_states(ft, voltage, frequency, dimmer)
+    recs = [(lab, w, None, None) for lab, _, w in states]
+    outside = outside_scope or voltage < SCOPE_MIN_VOLTAGE_V
+    label = f"{model} {power_w:g} W"
+    if len(recs) == 1:
+        r = evaluate_fixture(recs[0][1], None, None, equipment_class, fixture=label,
+                             setting=recs[0][0], nominal_voltage_v=voltage,
+                             outside_scope=outside)
+        return [r], list(r.notes)
+    d = evaluate_dimmable(recs, equipment_class, fixture=label, nominal_voltage_v=voltage,
+                          outside_scope=outside)
+    notes = [f"{label}: evaluated behind a reference {dimmer} cut (an ideal switch at each "
+             "setting)"] + [n for n in d.notes if n != CAUTION]
+    return list(d.results), notes
+
+
 def _label(path: str) -> str:
     return Path(path).stem
 
@@ -92,10 +135,22 @@ def _label(path: str) -> str:
                    "not apply (for information).")
 @click.option("--keep-small", is_flag=True,
               help="Do not disregard harmonics below 0.6 % of the current or 5 mA.")
+@click.option("--model", "model",
+              help="A simulated fixture: the circuit model (as in pqcalc lamp) at --power-w, "
+                   "evaluated at full output and five dimmed states behind --dimmer.")
+@click.option("--dimmer", "dimmer", default="none", show_default=True,
+              help="With --model: the reference phase cut (leading-edge, trailing-edge, none).")
+@click.option("--voltage", type=float, default=230.0, show_default=True,
+              help="With --model: supply voltage, line to neutral [V].")
+@click.option("--frequency", type=float, default=50.0, show_default=True,
+              help="With --model: supply frequency [Hz].")
+@click.option("--param", "params", multiple=True, metavar="NAME=VALUE",
+              help="With --model: a component value of the lamp (repeatable).")
 @click.option("--json", "as_json", is_flag=True, help="Print one JSON object instead of tables.")
 @user_errors
 def comply_cmd(captures, installation, equipment_class, settings_of, power_w, pf,
-               nominal_voltage, outside_scope, keep_small, as_json, **kw):
+               nominal_voltage, outside_scope, keep_small, model, dimmer, voltage, frequency,
+               params, as_json, **kw):
     """IEC 61000-3-2 harmonic-emission verdicts, fixture by fixture and setting by setting.
 
     Each CAPTURE is one fixture (power and power factor from the record's voltage and
@@ -112,6 +167,10 @@ def comply_cmd(captures, installation, equipment_class, settings_of, power_w, pf
     jobs = []  # (fixture, [(setting, waveform)])
     lineup_results: list[FixtureResult] = []
     lineup_notes: list[str] = []
+    if model is not None:
+        lineup_results, lineup_notes = _model_states(model, power_w, dimmer, voltage, frequency,
+                                                     params, equipment_class, outside_scope)
+        power_w = None  # it was the model's rating, not a capture's power
     if installation:
         from ..installation import load_installation
         from ..lineup import evaluate_lineup
