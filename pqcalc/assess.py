@@ -776,7 +776,7 @@ def _scenario(inst, solver, k, progress=None) -> ScenarioResult:
     # Fixed point on the panel voltages, under-relaxed: V <- V + r (V(I(V)) - V). The
     # circuits are re-solved under each new voltage; it stops when the voltage update is
     # below the tolerance [fraction of V1] on every panel line.
-    relax = 0.6
+    relax = 0.8
     src = {cid: v for cid, (v, _) in _circuit_sources(inst, cases, feeders, total, cyc).items()}
     loops = {cid: lp for cid, (_, lp) in _circuit_sources(inst, cases, feeders, total, cyc).items()}
     change = float("inf")
