@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import functools
+import importlib
 import json
 import math
 import sys
@@ -18,7 +19,38 @@ from ..io.atomic import write_atomic  # noqa: F401  (re-exported for the command
 CONTEXT = {"help_option_names": ["-h", "--help"], "max_content_width": 100}
 
 
-@click.group(context_settings=CONTEXT)
+#: The commands, the module of each and its one-line help, in the order of ``--help``. A
+#: command's module (and what it needs: the circuit solver, xarray, matplotlib) is imported
+#: only when the command runs, so ``pqcalc analyze`` does not pay for ``pqcalc sweep``.
+COMMANDS: dict[str, tuple[str, str]] = {
+    "assess": ("assess", "Currents, neutral, THDv and checks of an installation file."),
+    "comply": ("comply", "IEC 61000-3-2 verdicts of captures, a model or an installation's "
+                         "fixture types."),
+    "lamp": ("lamp", "One fixture type behind a dimmer from circuit physics; --curve."),
+    "analyze": ("analyze", "Spectrum, THD, PF and more of a measured capture."),
+    "plot": ("plot", "A figure (PNG, SVG, PDF) from a capture or an installation."),
+    "report": ("report", "The PDF submittal, or JSON, CSV, netCDF exports."),
+    "sweep": ("sweep", "Sweeps over settings, fixtures, voltages, draws; dask scale-out."),
+}
+
+
+class _LazyGroup(click.Group):
+    """A click group that imports a command's module when the command is asked for."""
+
+    def list_commands(self, ctx):
+        return list(COMMANDS)
+
+    def get_command(self, ctx, name):
+        if name not in self.commands and name in COMMANDS:
+            importlib.import_module(f"{__package__}.{COMMANDS[name][0]}")
+        return super().get_command(ctx, name)
+
+    def format_commands(self, ctx, formatter):
+        with formatter.section("Commands"):
+            formatter.write_dl([(n, h) for n, (_, h) in COMMANDS.items()])
+
+
+@click.group(cls=_LazyGroup, context_settings=CONTEXT)
 @click.version_option(__version__, "--version", prog_name="pqcalc")
 def main() -> None:
     """Power quality of dimmed LED lighting: harmonics, neutral current, compliance.
