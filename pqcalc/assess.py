@@ -234,7 +234,7 @@ class CaseSolver:
         w = sol.waveform
         x = to_grid(w, w.cycles)
         gs = []
-        for (f, n), g in zip(groups, sol.groups):
+        for (f, n), g in zip(groups, sol.groups, strict=True):
             gs.append(GroupStress(f, n, *_stress(g, w)))
         p = float(w.p_w) if w.p_w is not None else float("nan")
         if not np.isfinite(p):
@@ -780,7 +780,7 @@ def _scenario(inst, solver, k, progress=None) -> ScenarioResult:
     src = {cid: v for cid, (v, _) in _circuit_sources(inst, cases, feeders, total, cyc).items()}
     loops = {cid: lp for cid, (_, lp) in _circuit_sources(inst, cases, feeders, total, cyc).items()}
     change = float("inf")
-    for it in range(1, opts.max_iterations + 1):
+    for it in range(1, opts.max_iterations + 1):  # noqa: B007 (reported after the loop)
         solve_at = _source_frame(inst, {cid: (v, loops[cid]) for cid, v in src.items()})
         cases, panels, feeders, total, cyc = _run(inst, solver, k, solve_at)
         new = _circuit_sources(inst, cases, feeders, total, cyc)

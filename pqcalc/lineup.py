@@ -165,7 +165,7 @@ def evaluate_lineup(inst: Installation, equipment_class: str = "C") -> list[Line
             kmax = max(range(len(states)), key=lambda k: states[k][2].p_w)
             order = [kmax] + [k for k in range(len(states)) if k != kmax]
             lst = []
-            for r, k in zip(res.results, order):
+            for r, k in zip(res.results, order, strict=True):
                 lab, a, w = states[k]
                 s = spectrum(w)
                 lst.append(LineupState(lab, a, w, s, float(w.p_w), r, limits_in_amps(r, s)))

@@ -95,9 +95,9 @@ def test_balanced_set_neutral_holds_only_triplens(amps, phases):
     # Property (phasor algebra): for any half-wave-symmetric current repeated on three lines,
     # the neutral equals three times the line's triplen content.
     orders = (1, 3, 5, 7, 9, 11)
-    x = sum(a * np.sin(h * WT + p) for h, a, p in zip(orders, amps, phases))
+    x = sum(a * np.sin(h * WT + p) for h, a, p in zip(orders, amps, phases, strict=True))
     s = balanced(x)
-    trip = sum(a * np.sin(h * WT + p) for h, a, p in zip(orders, amps, phases) if h % 3 == 0)
+    trip = sum(a * np.sin(h * WT + p) for h, a, p in zip(orders, amps, phases, strict=True) if h % 3 == 0)
     np.testing.assert_allclose(s.neutral.current_a, 3 * trip, atol=1e-9)
 
 

@@ -50,8 +50,8 @@ from typing import TYPE_CHECKING, Literal, get_args
 
 import numpy as np
 
-from .atomic import atomic_output, check_output_path, write_atomic
 from ..errors import InputError
+from .atomic import atomic_output, check_output_path, write_atomic
 
 if TYPE_CHECKING:  # pragma: no cover
     import xarray as xr
