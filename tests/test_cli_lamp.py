@@ -196,7 +196,7 @@ BASE = ["--model", "resistive", "--power-w", "60"]
     ([*BASE, "--voltage", "400"], "100 to 277"),
     ([*BASE, "--dimmer", "trailing-edge", "--curve", "--steps", "2"], "steps"),
     ([*BASE, "--dimmer", "trailing-edge", "--curve", "--conduction-deg", "90"], "--curve"),
-    ([*BASE, "--dimmer", "trailing-edge", "--curve", "--curve-axis", "volts"], "--curve-axis"),
+    ([*BASE, "--dimmer", "trailing-edge", "--curve", "--setting-axis", "volts"], "--setting-axis"),
     ([*BASE, "--count", "0"], "--count"),
 ])
 def test_bad_input_one_line_exit_2(args, match):
@@ -238,7 +238,7 @@ def test_dimmer_off_is_dark_not_flickering():
 
 
 def test_curve_on_the_knob_axis():
-    d = run_json(*BASE, "--dimmer", "leading-edge", "--curve", "--curve-axis", "knob",
+    d = run_json(*BASE, "--dimmer", "leading-edge", "--curve", "--setting-axis", "knob",
                  "--steps", "3")
     assert d["axis"] == "knob" and [r["setting"] for r in d["settings"]] == [0.0, 0.5, 1.0]
     cond = [r["conduction_deg"] for r in d["settings"]]

@@ -54,7 +54,7 @@ def test_sweep_writes_a_readable_dataset(tmp_path):
 
 def test_knob_settings_and_dimmer_choice(tmp_path):
     out = tmp_path / "k.nc"
-    r = _run("sweep", "--model", "resistive", "--power-w", "60", "--ideal", "--knob",
+    r = _run("sweep", "--model", "resistive", "--power-w", "60", "--ideal", "--setting-axis", "knob",
              "--settings", "0.5", "-o", str(out))
     assert r.exit_code == 2 and "conduction-angle" in r.stderr and not out.exists()
     r = _run("sweep", "--model", "resistive", "--power-w", "60", "--ideal", "--dimmer",

@@ -140,7 +140,7 @@ LAMP_FIGURES = ("waveform", "spectrum", "light", "curve")
                    "range.")
 @click.option("--steps", type=int, default=21, show_default=True,
               help="With --curve: number of settings.")
-@click.option("--curve-axis", default="conduction", show_default=True,
+@click.option("--setting-axis", "curve_axis", default="conduction", show_default=True,
               help=f"With --curve: space the settings by {' or '.join(SETTING_AXES)}.")
 @click.option("--waveform-csv", type=click.Path(dir_okay=False),
               help="Write one period of time, voltage, current and light to this CSV file.")
@@ -166,7 +166,7 @@ def lamp_cmd(model, power_w, count, voltage, frequency, dimmer, switch, conducti
     _choice("--model", model, MODELS)
     _choice("--dimmer", dimmer, DIMMER_KINDS)
     _choice("--switch", switch, SWITCH_KINDS)
-    _choice("--curve-axis", curve_axis, SETTING_AXES)
+    _choice("--setting-axis", curve_axis, SETTING_AXES)
     supply0 = Supply(voltage, frequency)  # validates voltage and frequency
     if power_w is not None and not (np.isfinite(power_w) and power_w > 0):
         raise InputError(f"--power-w: expected a positive power [W], got {power_w:g}")

@@ -92,18 +92,21 @@ def _fixtures(models: tuple[str, ...], powers: tuple[str, ...]) -> tuple[Fixture
               help="Rated input power per lamp [W]: one for all models or one per --model.")
 @click.option("--settings", default="30:180:6", show_default=True, metavar="RANGE",
               help="Setting axis: start:stop:count (both ends included) or a,b,c. Conduction "
-                   "angle [deg] unless --knob.")
-@click.option("--knob", is_flag=True, help="Read --settings as knob positions 0..1.")
+                   "angle [deg] unless --setting-axis knob.")
+@click.option("--setting-axis", "setting_axis", type=click.Choice(("conduction", "knob")),
+              default="conduction", show_default=True,
+              help="Read --settings as conduction angles [deg] or knob positions 0..1.")
 @click.option("--voltages", default="230", show_default=True, metavar="RANGE",
               help="Supply voltage axis, line to neutral [V]: a,b,c or start:stop:count.")
 @click.option("--dimmer", type=click.Choice(DIMMER_KINDS), default="leading-edge",
               show_default=True)
 @click.option("--switch", type=click.Choice(SWITCH_KINDS), default="triac", show_default=True,
               help="Leading-edge switch.")
-@click.option("--frequency-hz", type=float, default=50.0, show_default=True)
-@click.option("--rated-v", type=float, default=230.0, show_default=True,
+@click.option("--frequency", "frequency_hz", type=float, default=50.0, show_default=True,
+              help="Supply frequency [Hz].")
+@click.option("--rated-voltage", "rated_v", type=float, default=230.0, show_default=True,
               help="Voltage the lamps are built for [V]; their components are fixed there.")
-@click.option("--lamps", type=int, default=1, show_default=True,
+@click.option("--count", "lamps", type=int, default=1, show_default=True,
               help="Identical lamps behind the one dimmer.")
 @click.option("--draws", type=int, default=0, show_default=True,
               help="Monte Carlo draws of component tolerances besides the nominal draw 0.")
@@ -126,11 +129,14 @@ def _fixtures(models: tuple[str, ...], powers: tuple[str, ...]) -> tuple[Fixture
 @click.option("--chunk-size", type=int, help="Cases per task (default: a few tasks per worker).")
 @click.argument("more_installations", nargs=-1, metavar="[FILE]...")
 @user_errors
-def sweep_cmd(models, powers, settings, knob, voltages, dimmer, switch, frequency_hz, rated_v,
+def sweep_cmd(models, powers, settings, setting_axis, voltages, dimmer, switch, frequency_hz, rated_v,
               lamps, draws, tolerance, seed, ideal, installations, output, scheduler,
               local_cluster, timeout_s, chunk_size, more_installations):
     """Sweep dimmer settings, fixture types, supply voltages and Monte Carlo draws, and write
     the results as a labelled netCDF dataset (read it with xarray.open_dataset).
+
+    Option names follow ``pqcalc lamp`` (--model, --power-w, --dimmer, --switch,
+    --frequency, --count).
 
     With --installation, assess each installation file instead (a portfolio: one result per
     building). Runs in-process unless --scheduler or --local-cluster is given.
@@ -173,7 +179,7 @@ def sweep_cmd(models, powers, settings, knob, voltages, dimmer, switch, frequenc
     spec = SweepSpec(
         fixtures=_fixtures(models, powers),
         settings=parse_range(settings, "--settings"),
-        setting_kind="knob" if knob else "conduction",
+        setting_kind=setting_axis,
         voltages_v=parse_range(voltages, "--voltages"), dimmer=dimmer, switch=switch,
         frequency_hz=frequency_hz, rated_v_v=rated_v, lamps=lamps, draws=draws,
         tolerance=tolerance, seed=seed)
