@@ -149,7 +149,7 @@ class CaseSolver:
 
         Circuits that differ only in id, panel, line or breaker share one result object.
         """
-        key = ("circuit", c.groups, c.dimmer, c.setting(scenario), c.dimmer_params,
+        key = ("circuit", c.groups, c.dimmer, c.dimmer_switch, c.setting(scenario), c.dimmer_params,
                c.branch_r_ohm, c.branch_l_h, voltage)
         hit = self.cache.get(key)
         if hit is None:
@@ -163,8 +163,8 @@ class CaseSolver:
         parts = [self._capture_case(g.fixture, g.count) for g in measured]
         if modelled:
             loop = voltage is not None and len(voltage) > 3 and (voltage[3][0] + voltage[3][1]) > 0
-            together = (c.dimmer == "leading-edge" or c.branch_r_ohm > 0 or c.branch_l_h > 0
-                        or loop)
+            triac = c.dimmer == "leading-edge" and c.dimmer_switch == "triac"
+            together = triac or c.branch_r_ohm > 0 or c.branch_l_h > 0 or loop
             if together:
                 parts.append(self._model_case(c, cond, knob, tuple(
                     (g.fixture, g.count) for g in modelled), voltage))
@@ -182,7 +182,8 @@ class CaseSolver:
         v1, harm, delta = (sup.voltage_ln_v, (), 0.0) if voltage is None else voltage[:3]
         loop = (0.0, 0.0) if voltage is None or len(voltage) < 4 else voltage[3]
         r_src, l_src = c.branch_r_ohm + loop[0], c.branch_l_h + loop[1]
-        key = (c.dimmer, cond, knob, c.dimmer_params, r_src, l_src, groups, round(v1, 3), harm)
+        key = (c.dimmer, c.dimmer_switch, cond, knob, c.dimmer_params, r_src, l_src, groups,
+               round(v1, 3), harm)
         hit = self.cache.get(key)
         if hit is None:
             hit = self._solve(c, cond, knob, groups, v1, harm, r_src, l_src)
@@ -252,6 +253,8 @@ def _dimmer_spec(c: Circuit, cond, knob):
             kw["knob"] = knob
         else:
             kw["conduction_deg"] = cond
+    if c.dimmer == "leading-edge":
+        kw["switch"] = c.dimmer_switch
     if c.dimmer_params:
         kw["params"] = dict(c.dimmer_params)
     return DimmerSpec(**kw)

@@ -12,7 +12,8 @@ File layout (see ``demo_installations/harbour_school.toml`` for a commented exam
     [[feeders]]    id, r_ohm, l_h, neutral_r_ohm, neutral_l_h
     [[panels]]     id, feeder, neutral_ampacity_a, phase_ampacity_a
     [[panels.circuits]]  id, phase, breaker_a, breaker_curve, dimmer, conduction_deg
-                   (a number or a list: one per scenario), dimmer_rating_w, led_derating,
+                   (a number or a list: one per scenario), dimmer_switch (triac |
+                   transistor, leading edge), dimmer_rating_w, led_derating,
                    dimmer_min_load_w, fixtures = [{type, count}, ...]
     [analysis]     supply_interaction, scenarios (names), max_iterations
     [diversity]    mode = "none" | "summation" | "monte-carlo", draws, low_deg, high_deg, seed
@@ -139,6 +140,7 @@ class Circuit:
     led_derating: float = 0.25
     dimmer_min_load_w: float | None = None
     dimmer_params: tuple[tuple[str, float], ...] = ()
+    dimmer_switch: str = "triac"
     branch_r_ohm: float = 0.0
     branch_l_h: float = 0.0
     conductor_ampacity_a: float | None = None
@@ -352,7 +354,7 @@ def _angles(fld: Fields, c: dict, key: str, path: str, lo: float, hi: float) -> 
 
 _CIRCUIT_FIELDS = {"id", "phase", "breaker_a", "breaker_curve", "dimmer", "conduction_deg",
                    "knob", "dimmer_rating_w", "led_derating", "dimmer_min_load_w",
-                   "dimmer_params", "fixtures", "branch_r_ohm", "branch_l_h",
+                   "dimmer_params", "dimmer_switch", "fixtures", "branch_r_ohm", "branch_l_h",
                    "conductor_ampacity_a", "description"}
 
 
@@ -402,6 +404,8 @@ def _circuit(fld: Fields, c: dict, path: str, panel: str, supply: SupplySpec,
         dimmer_min_load_w=fld.num(c, "dimmer_min_load_w", f"{path}.dimmer_min_load_w", None,
                                   nonneg=True),
         dimmer_params=dp,
+        dimmer_switch=fld.str_(c, "dimmer_switch", f"{path}.dimmer_switch", "triac",
+                               choices=("triac", "transistor")),
         branch_r_ohm=fld.num(c, "branch_r_ohm", f"{path}.branch_r_ohm", 0.0, nonneg=True),
         branch_l_h=fld.num(c, "branch_l_h", f"{path}.branch_l_h", 0.0, nonneg=True),
         conductor_ampacity_a=fld.num(c, "conductor_ampacity_a", f"{path}.conductor_ampacity_a",
