@@ -63,6 +63,27 @@ class Stresses:
     resistor_w: tuple[tuple[str, float], ...]  # resistor dissipation [W]
 
 
+class _Deferred:
+    """A dataclass field that may be given as a zero-argument callable: evaluated once, on
+    the first read (the light of ``extras=False``, whose normalisation needs a reference
+    solve that a caller after the waveform alone never pays for)."""
+
+    def __set_name__(self, owner, name: str) -> None:
+        self._key = "_deferred_" + name
+
+    def __get__(self, obj, owner=None):
+        if obj is None:
+            raise AttributeError(self._key)  # no class default: the field stays required
+        v = obj.__dict__[self._key]
+        if callable(v):
+            v = v()
+            obj.__dict__[self._key] = v
+        return v
+
+    def __set__(self, obj, value) -> None:
+        obj.__dict__[self._key] = value
+
+
 @dataclass(frozen=True)
 class GroupResult:
     """Results of one lamp of a :class:`LoadGroup` (the group draws ``count`` times this)."""
@@ -71,7 +92,7 @@ class GroupResult:
     params: tuple[tuple[str, float | None], ...]
     waveform: Waveform  # current of ONE lamp and the line voltage
     led_current_a: np.ndarray  # LED current of one lamp [A]
-    light: np.ndarray  # relative light output, 1.0 = rated full output [-]
+    light: np.ndarray = _Deferred()  # relative light output, 1.0 = rated full output [-]
     stresses: Stresses
 
     @property
@@ -298,8 +319,9 @@ def solve_circuit(supply: Supply, dimmer: DimmerSpec, loads, samples_per_cycle: 
         Samples per mains cycle of the returned waveforms (>= 4096 recommended).
     extras
         Also compute the inrush peak (a second transient solve) and the light normalisation
-        of models whose rated LED output needs a reference solve. ``False`` returns the
-        waveforms only (with ``light`` and ``inrush_peak_a`` left out), for speed.
+        of models whose rated LED output needs a reference solve. ``False`` is for speed:
+        ``inrush_peak_a`` is None, and that normalisation (a solve of the lamp alone on its
+        rated supply, memoised per fixture type) runs only when ``light`` is first read.
 
     Raises
     ------
@@ -469,8 +491,10 @@ def _assemble(supply, dimmer, dp, loads, gparams, levels, case, tr, period, iter
         m = b.m
         i1 = Y[col[(b.sense, "i")]] / m
         gw = Waveform(i1, fs, f, vline, period, label=f"{g.model} {g.power_w:g} W")
+        # extras=False: the light's normalisation (a reference solve) waits until it is
+        # read, except when the glow-when-off flag needs it now
         led, light = _light(case, b, g, p, Y, col, seg_state, ts, supply, period, levels[k],
-                            reference)
+                            reference, deferred=not extras and not dimmer_off)
         caps = tuple((c.removeprefix(b.prefix),
                       float(np.sqrt(np.mean((Y[col[(c, "i")]] / m) ** 2))))
                      for c in b.caps)
@@ -482,29 +506,46 @@ def _assemble(supply, dimmer, dp, loads, gparams, levels, case, tr, period, iter
         if "conv" in b.extra:
             ia = [i for i, a in enumerate(eng.automata) if isinstance(a, ConverterUVLO)
                   and a.el == b.extra["conv"]][0]
-            running = np.array([s[1][ia] for s in seg_state])
+            running = seg_state.automaton(ia, bool, dtype=bool)
             if not running.all() and not dimmer_off:
                 flags.add("drop-out")
         if dimmer_off and np.max(light) > 1e-3:
             flags.add("glow-when-off")
         pub = tuple((kk, v) for kk, v in p.items() if not kk.startswith("_"))
         groups.append(GroupResult(g, pub, gw, led, light, st))
-    for arr in [wf.current_a] + [gr.light for gr in groups]:
+    for arr in [wf.current_a] + [gr.led_current_a for gr in groups] + \
+            [gr.__dict__["_deferred_light"] for gr in groups
+             if not callable(gr.__dict__["_deferred_light"])]:
         if not np.all(np.isfinite(arr)):
             raise ConvergenceError("the solution holds non-finite values; the solver failed")
     return Solution(wf, tuple(groups), tuple(fl for fl in FLAGS if fl in flags), period, ok,
                     iters, measured, fires, tuple(sorted(dp.items())))
 
 
-def _segment_states(tr, ts):
-    """The discrete state of the segment that holds each (ascending) time of ``ts``."""
-    segs = tr.segments
-    ends = np.array([sg.t1 for sg in segs[:-1]])
-    idx = np.searchsorted(ends, ts, side="right")
-    return [segs[k].disc for k in idx]
+class _SegmentStates:
+    """The discrete states of a trajectory's segments and, for each (ascending) sample
+    time, the index of the segment that holds it: per-sample values of a function of the
+    discrete state cost one evaluation per segment."""
+
+    def __init__(self, tr, ts) -> None:
+        self.discs = [sg.disc for sg in tr.segments]
+        ends = np.array([sg.t1 for sg in tr.segments[:-1]])
+        self.idx = np.searchsorted(ends, ts, side="right")
+
+    def automaton(self, ia: int, fn=lambda s: s, dtype=float) -> np.ndarray:
+        """``fn`` of automaton ``ia``'s state at every sample."""
+        per_seg = np.array([fn(d[1][ia]) for d in self.discs], dtype=dtype)
+        return per_seg[self.idx]
 
 
-def _light(case, b, g, p, Y, col, seg_state, ts, supply, period, level, reference):
+def _segment_states(tr, ts) -> _SegmentStates:
+    return _SegmentStates(tr, ts)
+
+
+def _light(case, b, g, p, Y, col, seg_state, ts, supply, period, level, reference,
+           deferred=False):
+    """LED current and light of one lamp; with ``deferred`` the light of a model that
+    needs the reference solve for its normalisation is a callable computing it."""
     m = b.m
     f = supply.frequency_hz
     if b.light == "filament":
@@ -515,7 +556,7 @@ def _light(case, b, g, p, Y, col, seg_state, ts, supply, period, level, referenc
     if b.light in ("converter", "pwm"):
         ia = [i for i, a in enumerate(case.eng.automata) if isinstance(a, ConverterUVLO)
               and a.el == b.extra["conv"]][0]
-        running = np.array([1.0 if s[1][ia] else 0.0 for s in seg_state])
+        running = seg_state.automaton(ia, lambda s: 1.0 if s else 0.0)
         if b.light == "pwm":
             fp = p["pwm_frequency_hz"]
             duty = level
@@ -532,7 +573,7 @@ def _light(case, b, g, p, Y, col, seg_state, ts, supply, period, level, referenc
     if b.light == "tap":
         ia = [i for i, a in enumerate(case.eng.automata) if isinstance(a, TapLevels)
               and a.el == b.led][0]
-        lit = np.array([b.extra["lit"][s[1][ia]] for s in seg_state], dtype=float)
+        lit = seg_state.automaton(ia, lambda s: b.extra["lit"][s])
         i_led = Y[col[(b.led, "i")]] / m
         p_led = i_led * lit * b.extra["vseg"]
     elif b.light == "dc-load":
@@ -544,8 +585,17 @@ def _light(case, b, g, p, Y, col, seg_state, ts, supply, period, level, referenc
         p_led = i_led * Y[col[(b.led, "v")]]
     if reference:
         return i_led, p_led
-    ref = _reference_led_power(supply.v_rms_v, f, g.model, g.power_w, g.params)
-    return i_led, p_led / ref
+    key = (supply.v_rms_v, f, g.model, g.power_w, g.params)
+    if not deferred:
+        return i_led, p_led / _reference_led_power(*key)
+
+    def normalised():
+        light = p_led / _reference_led_power(*key)
+        if not np.all(np.isfinite(light)):
+            raise ConvergenceError("the solution holds non-finite values; the solver failed")
+        return light
+
+    return i_led, normalised
 
 
 @functools.lru_cache(maxsize=128)
