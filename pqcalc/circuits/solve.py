@@ -48,6 +48,8 @@ NO_HOLD_DEG = 5.0
 #: mains cycles simulated to read a triac's latching period when the one-cycle shooting
 #: fails (the pattern of the last half of them; periods up to GUESS_CYCLES / 2 cycles)
 GUESS_CYCLES = 12
+#: the pattern read may stop after this many cycles once it repeats (see _period_guess)
+GUESS_MIN_CYCLES = 4
 #: incandescent light against filament power, L ~ P^(3.4/1.6) from L ~ V^3.4 and P ~ V^1.6
 #: (common practice; exponents from memory)
 FILAMENT_LIGHT_EXPONENT = 3.4 / 1.6
@@ -207,29 +209,64 @@ def _stable(eng: Engine, tr, cycles: int, scale: np.ndarray, exact_phi: bool) ->
     return bool(e1 <= 1.05e-3 and a.sT == tr.s0)  # the perturbation has not grown
 
 
-def _period_guess(eng: Engine, x0, d0, cycles: int = GUESS_CYCLES):
-    """The period [mains cycles] of the triac's latching pattern over ``cycles`` simulated
-    cycles from ``x0`` (the last ``cycles`` half cycles compared), the state at the end."""
-    tr = eng.run(0.0, cycles * eng.T1, x0, d0, record=True)
-    on, _f, _n = _conduction(tr, eng, cycles)
-    pat = [c > NO_HOLD_DEG for c in on][cycles:]  # the second half: transients faded
+def _pattern_period(pat: list[bool]) -> int | None:
+    """The smallest period [half cycles] in which ``pat`` repeats at least twice."""
     for p in range(1, len(pat) // 2 + 1):
         if all(pat[i] == pat[i + p] for i in range(len(pat) - p)):
-            return (p // 2 if p % 2 == 0 else p), tr.xT, tr.sT
-    return None, tr.xT, tr.sT
+            return p
+    return None
+
+
+def _period_guess(eng: Engine, x0, d0, cycles: int = GUESS_CYCLES,
+                  min_cycles: int = GUESS_MIN_CYCLES):
+    """The period [mains cycles] of the triac's latching pattern, simulated from ``x0``
+    for up to ``cycles`` cycles, and the state at the end. The pattern read is the second
+    half of the simulated half cycles (transients faded); the read stops early, from
+    ``min_cycles`` on, once that half repeats twice within its length. The guess only
+    orders the periods tried: each is confirmed by shooting and a stability check."""
+    latched: list[bool] = []
+    x, d, c = x0, d0, 0
+    while c < cycles:
+        step = min(min_cycles if c == 0 else 2, cycles - c)
+        tr = eng.run(0.0, step * eng.T1, x, d, record=True)
+        on, _f, _n = _conduction(tr, eng, step)
+        latched += [v > NO_HOLD_DEG for v in on]
+        x, d, c = tr.xT, tr.sT, c + step
+        p = _pattern_period(latched[c:])
+        if p is not None:
+            # an odd number of half cycles alternates polarity: p whole cycles
+            return (p // 2 if p % 2 == 0 else p), x, d
+    return None, x, d
 
 
 def _steady(case: _Case, supply: Supply, check_stability: bool, max_period: int = 4,
             exact_phi: bool = False, triac: bool = False):
     eng = case.eng
     x0, d0 = _initial(case, supply)
-    # two cycles from the initial guess give Newton a state near the orbit
-    warm = eng.run(0.0, eng.T1, x0, d0)
+    # one cycle from the initial guess gives Newton a state near the orbit
+    warm = eng.run(0.0, eng.T1, x0, d0, record=triac)
     x0, d0 = warm.xT, warm.sT
     tried = []
     total = 0
     order = list(range(1, max_period + 1))
     k_i = 0
+    guessed = False  # the full pattern read has been done
+    x_read = None  # the physical state where an early pattern read ended
+    if triac:
+        # a half cycle of that cycle fired without staying latched: the triac may latch
+        # only every few half cycles. Read the latching pattern now, from this physical
+        # state, and shoot at its period first (rather than after a failed one-cycle
+        # shooting, whose last iterate can be far from any orbit)
+        on, fires, nolatch = _conduction(warm, eng, 1)
+        if nolatch or any(k > 0 and c < NO_HOLD_DEG for c, k in zip(on, fires, strict=True)):
+            guess, x0, d0 = _period_guess(eng, x0, d0)
+            x_read = (x0, d0)
+            guessed = guess is None or guess > 1
+            if guess is not None and guess > 1:
+                if guess not in order:
+                    order.append(guess)
+                order.remove(guess)
+                order.insert(0, guess)
     while k_i < len(order):
         k = order[k_i]
         k_i += 1
@@ -244,10 +281,15 @@ def _steady(case: _Case, supply: Supply, check_stability: bool, max_period: int 
         tried.append(f"{k}-cycle period: {'unstable' if ok else 'no convergence'} after "
                      f"{it} Newton iterations")
         x0, d0 = tr.xT, tr.sT
-        if k == 1 and triac:
+        if k == 1 and triac and not guessed:
             # a triac that latches only every few half cycles: read the period off the
-            # latching pattern of a few simulated cycles, then shoot at that period first
-            guess, x0, d0 = _period_guess(eng, x0, d0)
+            # latching pattern of GUESS_CYCLES simulated cycles (continuing an early read
+            # that found period 1 from where it ended, a physical state), then shoot at
+            # that period first
+            guessed = True
+            if x_read is not None:
+                x0, d0 = x_read
+            guess, x0, d0 = _period_guess(eng, x0, d0, min_cycles=GUESS_CYCLES)
             if guess is not None and guess > 1:
                 if guess not in order:
                     order.append(guess)
