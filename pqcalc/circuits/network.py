@@ -157,59 +157,34 @@ class Network:
             self._cache[key] = ms
         return ms
 
-    def _build(self, on: tuple[bool, ...]) -> ModeSystem:
+    def _static(self) -> dict:
+        """The mode-independent part of the nodal equations (resistors, sources, reactive
+        elements) and the element incidence, assembled once."""
         els = self.elements
         nn = len(self.node_index) - 1
         vsrc = [i for i, e in enumerate(els) if e.kind in "CV"]
-        nb = len(vsrc)
-        nz = nn + nb
+        nz = nn + len(vsrc)
         ncol = self.n_x + self.n_u
         M = np.zeros((nz, nz))
         Rhs = np.zeros((nz, ncol))
         state_col = {k: j for j, k in enumerate(self.caps + self.inds)}
-        sw_on = dict(zip(self.switchable, on, strict=True))
-        g_of = {}
-
-        def stamp_g(a, b, g):
-            if a:
-                M[a - 1, a - 1] += g
-            if b:
-                M[b - 1, b - 1] += g
-            if a and b:
-                M[a - 1, b - 1] -= g
-                M[b - 1, a - 1] -= g
-
-        def inject(a, b, col, gain):
-            # a current gain*[x,u][col] leaves node a, enters node b
-            if a:
-                Rhs[a - 1, col] -= gain
-            if b:
-                Rhs[b - 1, col] += gain
-
+        g = np.zeros(self.n_e)
+        # the nodal stamps of every element, in element order (each mode sums them in
+        # that order, so that a mode's equations do not depend on how they were built):
+        # (index, kind, a, b, Rhs column or -1, gain)
+        stamps = []
         for i, e in enumerate(els):
             if e.kind == "R":
-                g_of[i] = 1.0 / e.value
-                stamp_g(e.a, e.b, g_of[i])
-            elif e.kind in "DS":
-                g = 1.0 / e.r_on if sw_on[i] else e.g_off
-                g_of[i] = g
-                stamp_g(e.a, e.b, g)
-                if e.kind == "D" and sw_on[i] and e.v_on != 0.0:
-                    # i = g (v - v_on): a Norton source g*v_on from b to a
-                    inject(e.a, e.b, self.n_x + CH_ONE, -g * e.v_on)
-            elif e.kind == "G":
-                g, i0 = e.table[int(sw_on[i])]
-                g_of[i] = g
-                stamp_g(e.a, e.b, g)
-                if i0:
-                    inject(e.a, e.b, self.n_x + CH_ONE, i0)
+                g[i] = 1.0 / e.value
+                stamps.append((i, "R", e.a, e.b, -1, 0.0))
+            elif e.kind in "DSG":
+                stamps.append((i, e.kind, e.a, e.b, -1, 0.0))
             elif e.kind == "L":
-                inject(e.a, e.b, state_col[i], 1.0)
+                stamps.append((i, "L", e.a, e.b, state_col[i], 1.0))
             elif e.kind == "I":
-                inject(e.a, e.b, self.n_x + e.channel, e.value)
+                stamps.append((i, "I", e.a, e.b, self.n_x + e.channel, e.value))
         for j, i in enumerate(vsrc):
-            e = els[i]
-            r = nn + j
+            e, r = els[i], nn + j
             if e.a:
                 M[e.a - 1, r] += 1.0
                 M[r, e.a - 1] += 1.0
@@ -220,6 +195,56 @@ class Network:
                 Rhs[r, state_col[i]] = 1.0
             else:
                 Rhs[r, self.n_x + e.channel] = e.value
+        Q0 = np.zeros((self.n_e, ncol))  # currents fixed by a state or an input
+        for i, e in enumerate(els):
+            if e.kind == "L":
+                Q0[i, state_col[i]] = 1.0
+            elif e.kind == "I":
+                Q0[i, self.n_x + e.channel] = e.value
+        return {
+            "nn": nn, "ncol": ncol, "M": M, "Rhs": Rhs, "g": g, "Q0": Q0, "stamps": stamps,
+            "a": np.array([e.a for e in els], dtype=int),
+            "b": np.array([e.b for e in els], dtype=int),
+            "cond": np.array([i for i, e in enumerate(els) if e.kind in "RDSG"], dtype=int),
+            "vsrc": np.array(vsrc, dtype=int),
+            "caps": np.array(self.caps, dtype=int),
+            "inds": np.array(self.inds, dtype=int),
+            "c_val": np.array([els[i].value for i in self.caps]),
+            "l_val": np.array([els[i].value for i in self.inds]),
+        }
+
+    def _build(self, on: tuple[bool, ...]) -> ModeSystem:
+        st = getattr(self, "_st", None)
+        if st is None:
+            st = self._st = self._static()
+        els = self.elements
+        nn, ncol, one = st["nn"], st["ncol"], self.n_x + CH_ONE
+        M = st["M"].copy()
+        Rhs = st["Rhs"].copy()
+        g_of = st["g"].copy()
+        i_one = np.zeros(self.n_e)  # constant current terms of conducting elements [A]
+        sw_on = dict(zip(self.switchable, on, strict=True))
+        for i, kind, a, b, col, gain in st["stamps"]:
+            if kind == "R":
+                _stamp_g(M, a, b, g_of[i])
+            elif kind in "LI":
+                _inject(Rhs, a, b, col, gain)
+            else:
+                e, is_on = els[i], sw_on[i]
+                if kind == "G":
+                    g, i0 = e.table[int(is_on)]
+                    _stamp_g(M, a, b, g)
+                    if i0:
+                        _inject(Rhs, a, b, one, i0)
+                        i_one[i] = i0
+                else:
+                    g = 1.0 / e.r_on if is_on else e.g_off
+                    _stamp_g(M, a, b, g)
+                    if kind == "D" and is_on and e.v_on != 0.0:
+                        # i = g (v - v_on): a Norton source g*v_on from b to a
+                        _inject(Rhs, a, b, one, -g * e.v_on)
+                        i_one[i] = -g * e.v_on
+                g_of[i] = g
         try:
             Z = np.linalg.solve(M, Rhs)
         except np.linalg.LinAlgError as err:
@@ -227,34 +252,37 @@ class Network:
                 "the circuit has a floating node or a loop of capacitors and sources; "
                 "check the component values"
             ) from err
-
-        def vnode(k):
-            return Z[k - 1] if k else np.zeros(ncol)
-
-        Q = np.zeros((2 * self.n_e, ncol))
-        bidx = {i: nn + j for j, i in enumerate(vsrc)}
-        for i, e in enumerate(els):
-            v = vnode(e.a) - vnode(e.b)
-            Q[self.n_e + i] = v
-            if e.kind in "RDSG":
-                cur = g_of[i] * v
-                if e.kind == "D" and sw_on[i] and e.v_on != 0.0:
-                    cur[self.n_x + CH_ONE] -= g_of[i] * e.v_on
-                if e.kind == "G":
-                    cur[self.n_x + CH_ONE] += e.table[int(sw_on[i])][1]
-                Q[i] = cur
-            elif e.kind in "CV":
-                Q[i] = Z[bidx[i]]
-            elif e.kind == "L":
-                Q[i, state_col[i]] = 1.0
-            elif e.kind == "I":
-                Q[i, self.n_x + e.channel] = e.value
-        AB = np.zeros((self.n_x, ncol))
-        for j, i in enumerate(self.caps):
-            AB[j] = Q[i] / els[i].value
-        for j, i in enumerate(self.inds):
-            AB[len(self.caps) + j] = Q[self.n_e + i] / els[i].value
+        Vn = np.vstack([np.zeros((1, ncol)), Z[:nn]])  # node voltages, ground first
+        Vel = Vn[st["a"]] - Vn[st["b"]]
+        Q = np.empty((2 * self.n_e, ncol))
+        Q[self.n_e:] = Vel
+        cur = st["Q0"].copy()
+        c = st["cond"]
+        cur[c] = g_of[c, None] * Vel[c]
+        cur[:, one] += i_one
+        cur[st["vsrc"]] = Z[nn:]
+        Q[: self.n_e] = cur
+        AB = np.vstack([cur[st["caps"]] / st["c_val"][:, None],
+                        Vel[st["inds"]] / st["l_val"][:, None]])
         return ModeSystem(AB[:, : self.n_x].copy(), AB[:, self.n_x :].copy(), Q)
+
+
+def _stamp_g(M: np.ndarray, a: int, b: int, g: float) -> None:
+    if a:
+        M[a - 1, a - 1] += g
+    if b:
+        M[b - 1, b - 1] += g
+    if a and b:
+        M[a - 1, b - 1] -= g
+        M[b - 1, a - 1] -= g
+
+
+def _inject(Rhs: np.ndarray, a: int, b: int, col: int, gain: float) -> None:
+    """A current ``gain * [x, u][col]`` leaves node ``a`` and enters node ``b``."""
+    if a:
+        Rhs[a - 1, col] -= gain
+    if b:
+        Rhs[b - 1, col] += gain
 
 
 def _positive(name: str, x: float) -> None:
