@@ -171,6 +171,7 @@ class Engine:
         self._md: dict[tuple, _ModeData] = {}
         self._gd: dict[tuple, tuple] = {}
         self._by_disc: dict[tuple, _ModeData] = {}
+        self._sd: dict[tuple, tuple] = {}
         self.n_events = 0
 
     # ------------------------------------------------------------------ modes
@@ -278,25 +279,40 @@ class Engine:
         a2[ia] = s_new
         return (diodes, tuple(a2)), x_new
 
-    def settle(self, disc, t, x, events=None):
-        """Fire every guard already violated at ``t`` until the discrete state is consistent."""
-        for _ in range(64):
+    def _settle_data(self, disc):
+        """The guards of a discrete state as a matrix over ``[x, u]``, their thresholds,
+        tags and firing priorities (cached)."""
+        sd = self._sd.get(disc)
+        if sd is None:
             md = self.mode_data(disc)
             gl = self.guards(disc, md)
             if gl:
-                z = np.concatenate([x, self.u_at(t, md.consts)[:, 0]])
                 G = np.array([g[0] for g in gl])
                 th = np.array([g[1] for g in gl])
-                gv = G @ z - th
-            worst, wtag = 0.0, None
-            for (_row, th_k, tag), g in zip(gl, gv if gl else (), strict=True):
-                if g > 0:
-                    # diodes: the most violated first; automaton events before diodes
-                    score = np.inf if tag[0] == "A" else g / (abs(th_k) + 1.0)
-                    if score > worst:
-                        worst, wtag = score, tag
-            if wtag is None:
+                # diodes: the most violated first (relative to the threshold); automaton
+                # events before diodes
+                w = np.array([np.inf if g[2][0] == "A" else 1.0 / (abs(g[1]) + 1.0)
+                              for g in gl])
+                sd = (md, G, th, w, [g[2] for g in gl])
+            else:
+                sd = (md, None, None, None, [])
+            self._sd[disc] = sd
+        return sd
+
+    def settle(self, disc, t, x, events=None):
+        """Fire every guard already violated at ``t`` until the discrete state is consistent."""
+        for _ in range(64):
+            md, G, th, w, tags = self._settle_data(disc)
+            if G is None:
                 return disc, x
+            z = np.concatenate([x, self.u_at(t, md.consts)[:, 0]])
+            gv = G @ z - th
+            viol = gv > 0
+            if not viol.any():
+                return disc, x
+            with np.errstate(invalid="ignore"):
+                score = np.where(viol, w * gv, -np.inf)
+            wtag = tags[int(np.argmax(score))]
             disc, x = self._fire(wtag, disc, t, x, md)
             if events is not None:
                 events.append((t, wtag))
