@@ -36,6 +36,7 @@ inputs", Proc. IEEE 60(1), 1972 (shooting with the monodromy matrix).
 
 from __future__ import annotations
 
+import cmath
 from dataclasses import dataclass
 
 import numpy as np
@@ -511,11 +512,23 @@ def _root(a_hom, lam, a_part, jwh, g0, t0, ta, tb, fa, fb) -> float:
     just past the root so the event has truly happened: Newton with the exact derivative,
     kept inside the bracket (regula falsi step when Newton leaves it)."""
 
+    # scalar complex arithmetic: a few terms, where numpy's per-call overhead would dominate
+    hom = [(complex(a), complex(b)) for a, b in zip(a_hom, lam, strict=True)]
+    part = [(complex(a), complex(b)) for a, b in zip(a_part, jwh, strict=True)]
+    g0 = float(g0)
+
     def f(t):
-        eh = np.exp(lam * (t - t0))
-        ep = np.exp(jwh * t)
-        return (float(np.real(a_hom @ eh) + np.real(a_part @ ep) + g0),
-                float(np.real(a_hom @ (lam * eh)) + np.real(a_part @ (jwh * ep))))
+        v, d = g0, 0.0
+        dt = t - t0
+        for a, b in hom:
+            e = a * cmath.exp(b * dt)
+            v += e.real
+            d += (e * b).real
+        for a, b in part:
+            e = a * cmath.exp(b * t)
+            v += e.real
+            d += (e * b).real
+        return v, d
 
     if fa > 0:
         return ta
