@@ -91,25 +91,46 @@ def _solve_one(ft: FixtureType, v: float, f: float, kind: str, cond: float | Non
     return sol.waveform
 
 
-def fixture_states(ft: FixtureType, v: float, f: float, kind: str, grid: int = 19
-                   ) -> list[tuple[str, float | None, Waveform]]:
+def fixture_states(ft: FixtureType, v: float, f: float, kind: str, grid: int = 19,
+                   notes: list | None = None) -> list[tuple[str, float | None, Waveform]]:
     """The maximum-power state and five equidistant-power dimmed states of a modelled
-    fixture behind a reference phase cut of ``kind``."""
+    fixture behind a reference phase cut of ``kind``.
+
+    A setting the circuit model cannot solve is left out (and named in ``notes``); when the
+    input power stays within 2 % of its maximum over the whole range (a constant-power
+    driver) there is no dimmed state to test, and ``notes`` says so.
+    """
+    from .errors import ConvergenceError
     from .standards import dimmed_test_powers
 
+    notes = [] if notes is None else notes
     full = _solve_one(ft, v, f, "none", None)
     states = [("full", 180.0, full)]
     if kind == "none":
         return states
     angles = np.linspace(ft.min_conduction_deg, 180.0, grid)[:-1]
-    solved = [(a, _solve_one(ft, v, f, kind, float(a))) for a in angles]
+    solved, failed = [], []
+    for a in angles:
+        try:
+            solved.append((a, _solve_one(ft, v, f, kind, float(a))))
+        except ConvergenceError:
+            failed.append(f"{a:.0f}")
+    if failed:
+        notes.append(f"{ft.id}: no steady state behind the {kind} cut at {', '.join(failed)} "
+                     "deg; those settings were left out")
+    if not solved:
+        return states
     powers = np.array([w.p_w for _, w in solved])
     p_max = float(full.p_w)
     working = powers > 0.02 * p_max
     if not np.any(working):
+        notes.append(f"{ft.id}: the lamp draws almost no power at every dimmed setting")
         return states
     p_min = float(powers[working].min())
     if p_max - p_min < 0.02 * p_max:
+        notes.append(f"{ft.id}: the input power stays within 2 % of its maximum from "
+                     f"{ft.min_conduction_deg:g} to 180 deg (a constant-power driver): no "
+                     "dimmed state differs from full output")
         return states
     targets = dimmed_test_powers(p_min, p_max, 5)
     used = set()
@@ -143,6 +164,10 @@ def evaluate_lineup(inst: Installation, equipment_class: str = "C") -> list[Line
                          f"{v:g} V on request, for information only")
         if ft.measured:
             w = _capture_waveform(ft)
+            if not w.has_voltage:
+                notes.append(f"{fid}: the record has no voltage channel; its power factor is "
+                             "taken as 1.0 (the most lenient for the 30 x lambda % third-order "
+                             "limit) and option b's waveform test cannot be made")
             r = evaluate_fixture(w if w.has_voltage else spectrum(w), None if w.has_voltage
                                  else ft.power_w, None if w.has_voltage else 1.0,
                                  equipment_class, fixture=fid, setting="as recorded",
@@ -153,8 +178,14 @@ def evaluate_lineup(inst: Installation, equipment_class: str = "C") -> list[Line
                                        "as recorded", r.verdict, r.rule, (st,), r,
                                        tuple(notes)))
             continue
-        for kind in [k for k in kinds[fid] if k != "none"] or ["none"]:
-            states = fixture_states(ft, v, f, kind)
+        dimmed = [k for k in kinds[fid] if k != "none"]
+        if ft.model == "resistive" and dimmed:
+            notes.append(f"{fid}: a filament lamp is resistive; behind a phase-cut dimmer the "
+                         "harmonics are the dimmer's, and independent phase-control dimmers are "
+                         "Class A equipment (IEC 61000-3-2): evaluated at full output only")
+            dimmed = []
+        for kind in dimmed or ["none"]:
+            states = fixture_states(ft, v, f, kind, notes=notes)
             recs = [(lab, w, None, None) for lab, _, w in states]
             try:
                 res = evaluate_dimmable(recs, equipment_class, fixture=fid, nominal_voltage_v=v,

@@ -47,25 +47,23 @@ def test_undimmed_filament_passes_class_c(tmp_path):
     assert s.limits_a[3] == pytest.approx(0.30 * s.result.pf * s.spectrum.i1_a, rel=1e-6)
 
 
-def test_dimmed_filament_fails_in_dimmed_states(tmp_path):
-    # Fourier series of a phase-controlled sine: at 90 deg, I3/I1 = 53.7 % while the
-    # maximum-power state allows about 30 % of a larger I1 in amperes; the deep dimmed states
-    # exceed it, so the lineup fails. Five dimmed states plus full output (IEC 61000-3-2
-    # test conditions for dimmable lighting).
+def test_dimmed_filament_is_judged_at_full_output_with_the_class_a_note(tmp_path):
+    # IEC 61000-3-2 scope (seen, in the project's reference list): independent phase-control
+    # dimmers are Class A equipment; a filament behind one draws the dimmer's harmonics, so
+    # the lamp itself is judged at full output, where it draws a sine and passes Table 2.
     inst = load_installation(site(tmp_path))
     (e,) = evaluate_lineup(inst)
-    assert e.dimmer == "leading-edge"
-    assert 4 <= len(e.states) <= 6
-    assert e.states[0].result.verdict == "pass"
-    assert e.verdict == "fail"
+    assert e.dimmer == "none" and len(e.states) == 1
+    assert e.verdict == "pass"
+    assert any("Class A" in n for n in e.notes)
 
 
 def test_comply_installation_cli(tmp_path):
     r = CliRunner().invoke(main, ["comply", "--installation", str(site(tmp_path)), "--json"])
-    assert r.exit_code == 1, r.output
+    assert r.exit_code == 0, r.output
     d = json.loads(r.output)
     assert {"fixture", "setting", "verdict", "rule"} <= set(d["results"][0])
-    assert any(x["verdict"] == "fail" for x in d["results"])
+    assert any("Class A" in n for n in d["notes"])
 
 
 def test_plot_installation_figures(tmp_path):
