@@ -39,6 +39,9 @@ __all__ = ["CaseResult", "CaseSolver", "CircuitResult", "LineResult", "PanelResu
            "ScenarioResult", "Assessment", "assess", "grid_phasors"]
 
 MAX_ORDER = 50
+#: The highest conduction a phase-cut triac dimmer reaches at its top setting [deg]
+#: (common practice; the circuit model's dimming-curve range uses the same value).
+TRIAC_MAX_CONDUCTION_DEG = 170.0
 
 
 def grid_phasors(x: np.ndarray, cycles: int, max_order: int = MAX_ORDER) -> np.ndarray:
@@ -158,6 +161,14 @@ class CaseSolver:
 
     def _case(self, c: Circuit, scenario: int, voltage) -> CaseResult:
         cond, knob = c.setting(scenario)
+        extra_notes: tuple[str, ...] = ()
+        if (c.dimmer == "leading-edge" and c.dimmer_switch == "triac" and cond is not None
+                and cond > TRIAC_MAX_CONDUCTION_DEG):
+            extra_notes = (f"a triac dimmer at its top setting conducts about "
+                           f"{TRIAC_MAX_CONDUCTION_DEG:g} deg (it fires a few degrees after the "
+                           f"zero crossing; common practice): {cond:g} deg was read as "
+                           f"{TRIAC_MAX_CONDUCTION_DEG:g} deg",)
+            cond = TRIAC_MAX_CONDUCTION_DEG
         measured = [g for g in c.groups if self.inst.fixtures[g.fixture].measured]
         modelled = [g for g in c.groups if not self.inst.fixtures[g.fixture].measured]
         parts = [self._capture_case(g.fixture, g.count) for g in measured]
@@ -175,7 +186,7 @@ class CaseSolver:
                                             one.flags, (GroupStress(g.fixture, g.count,
                                                                     *_group_tail(one)),),
                                             one.notes))
-        return _sum_cases(parts)
+        return _sum_cases(parts, notes=extra_notes)
 
     def _model_case(self, c: Circuit, cond, knob, groups, voltage) -> CaseResult:
         sup = self.inst.supply
