@@ -173,6 +173,7 @@ class Engine:
         self._gd: dict[tuple, tuple] = {}
         self._by_disc: dict[tuple, _ModeData] = {}
         self._sd: dict[tuple, tuple] = {}
+        self._jwh = 1j * source.omega * source.orders
         self.n_events = 0
 
     # ------------------------------------------------------------------ modes
@@ -236,10 +237,27 @@ class Engine:
             U[ch] = v
         return U
 
+    def _u1(self, t: float, consts=()) -> np.ndarray:
+        """The inputs at the one time ``t``: :meth:`u_at` without its array set-up."""
+        u = np.zeros(self.net.n_u)
+        u[CH_SOURCE] = self.src.dc_v + np.real(np.exp(self._jwh * t) @ self.src.amplitudes)
+        u[CH_ONE] = 1.0
+        for ch, v in consts:
+            u[ch] = v
+        return u
+
     def xp(self, md: _ModeData, t) -> np.ndarray:
         t = np.atleast_1d(np.asarray(t, dtype=float))
         ph = np.exp(1j * self.src.omega * np.multiply.outer(self.src.orders, t))
         return np.real(md.P @ ph) + md.p0[:, None]
+
+    def _x1(self, md: _ModeData, t0: float, c: np.ndarray | None, t: float) -> np.ndarray:
+        """The state at the one time ``t`` (the particular solution alone if ``c`` is
+        None): :meth:`x_lin` without its array set-up."""
+        xp = np.real(md.P @ np.exp(self._jwh * t)) + md.p0
+        if c is None:
+            return xp
+        return xp + np.real(md.V @ (np.exp(md.lam * (t - t0)) * c))
 
     def x_lin(self, md: _ModeData, t0: float, c: np.ndarray, t) -> np.ndarray:
         t = np.atleast_1d(np.asarray(t, dtype=float))
@@ -264,7 +282,7 @@ class Engine:
         return out
 
     def _value_fn(self, md, t, x):
-        z = np.concatenate([x, self.u_at(t, md.consts)[:, 0]])
+        z = np.concatenate([x, self._u1(t, md.consts)])
         return lambda row: float((row(md) if callable(row) else row) @ z)
 
     def _fire(self, tag, disc, t, x, md):
@@ -306,7 +324,7 @@ class Engine:
             md, G, th, w, tags = self._settle_data(disc)
             if G is None:
                 return disc, x
-            z = np.concatenate([x, self.u_at(t, md.consts)[:, 0]])
+            z = np.concatenate([x, self._u1(t, md.consts)])
             gv = G @ z - th
             viol = gv > 0
             if not viol.any():
@@ -391,13 +409,13 @@ class Engine:
         return gd
 
     def _advance_lin(self, md, disc, t0, x0, t_stop):
-        c = md.Vinv @ (x0 - self.xp(md, t0)[:, 0])
+        c = md.Vinv @ (x0 - self._x1(md, t0, None, t0))
         seg = _Segment(t0, t_stop, disc, md, x0, c=c)
         tags, GV, GP, g0 = self._guard_data(disc, md)
         if tags and t_stop > t0:
             GVc = GV * c[None, :]
             lam = md.lam
-            jwh = 1j * self.src.omega * self.src.orders
+            jwh = self._jwh
 
             def gval(ts):
                 hom = np.real(GVc @ np.exp(np.multiply.outer(lam, ts - t0)))
@@ -407,7 +425,8 @@ class Engine:
             span = t_stop - t0
             nstep = max(int(np.ceil(span / self.dt_grid)), 1)
             chunk = 64
-            prev_t, prev_g = t0, np.minimum(gval(np.array([t0]))[:, 0], 0.0)
+            g_t0 = np.real(GVc.sum(axis=1)) + np.real(GP @ np.exp(jwh * t0)) + g0
+            prev_t, prev_g = t0, np.minimum(g_t0, 0.0)
             k = 0
             while k < nstep:
                 kk = np.arange(k + 1, min(k + chunk, nstep) + 1)
@@ -426,12 +445,12 @@ class Engine:
                                    allg[i, col], allg[i, col + 1])
                         if tr <= best:
                             best, btag = tr, tags[i]
-                    x1 = self.x_lin(md, t0, c, best)[:, 0]
+                    x1 = self._x1(md, t0, c, best)
                     seg.t1 = best
                     return best, btag, x1, seg
                 prev_t, prev_g = ts[-1], gv[:, -1]
                 k = kk[-1]
-        x1 = self.x_lin(md, t0, c, t_stop)[:, 0]
+        x1 = self._x1(md, t0, c, t_stop)
         return t_stop, None, x1, seg
 
     # ------------------------------------------------------------------ steady state
