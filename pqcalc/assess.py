@@ -748,9 +748,11 @@ def _node_result(inst, name, kind, node: _Node, cyc, vmap_lines, panel: Panel | 
     checks = []
     if kind == "panel" and neutral is not None and max_phase > 0:
         if sup.system == "three-phase-wye":
+            lo = min(r.i_rms_a for r in lines.values())
             checks.append(ck.neutral_conductor(lines[worst].i3_pct_of_rms, max_phase,
                                                neutral.i_rms_a,
-                                               panel.neutral_ampacity_a if panel else None))
+                                               panel.neutral_ampacity_a if panel else None,
+                                               (max_phase - lo) / max_phase))
         if neutral.ratio_to_max_phase > 1:
             checks.append(ck.Check("neutral current", "warn",
                                    f"the neutral carries {neutral.ratio_to_max_phase:.2f} times "

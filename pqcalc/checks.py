@@ -157,8 +157,8 @@ def neutral_factor_iec(third_harmonic_pct: float) -> tuple[float, str]:
     """Reduction factor and the current a 4- or 5-core cable is sized on.
 
     ``third_harmonic_pct`` is the third-harmonic content of the line current [% of the
-    line current; the table speaks of the line current and this takes I3 as a share of
-    the fundamental where the difference is small]. Bands: 0-15 % factor 1.0 on the line
+    line current's RMS; the reading of the table's "third harmonic content of line current"
+    as I3/I_rms is from memory]. Bands: 0-15 % factor 1.0 on the line
     current; >15-33 % 0.86 on the line current; >33-45 % 0.86 on the neutral current;
     >45 % 1.0 on the neutral current.
 
@@ -183,26 +183,37 @@ def neutral_factor_iec(third_harmonic_pct: float) -> tuple[float, str]:
 
 def neutral_conductor(
     third_harmonic_pct: float, line_current_a: float, neutral_current_a: float,
-    neutral_ampacity_a: float | None = None,
+    neutral_ampacity_a: float | None = None, imbalance: float = 0.0,
 ) -> Check:
     """The IEC 60364-5-52 Table E.52.1 sizing current of a 4/5-core cable and, when the
     ampacity is known, whether the neutral (and the cable) carry it.
 
-    Sizing current: ``I_line / factor`` or ``I_neutral / factor`` by the band. With the
-    neutral's third-harmonic current ``3 * I_3`` the neutral often exceeds the lines.
+    Sizing current: ``I_line / factor`` or ``I_neutral / factor`` by the band. The table
+    assumes balanced lines whose neutral current is the third harmonic's; where the neutral
+    actually carries more than the table's sizing current (other triplens, the 9th and 15th,
+    or unbalanced lines), the neutral current itself is the sizing current (conservative).
+    ``imbalance`` is the spread of the line currents as a fraction of the highest [-].
     """
     factor, basis = neutral_factor_iec(third_harmonic_pct)
     base = line_current_a if basis == "line" else neutral_current_a
     size_on = base / factor
-    msg = (f"third harmonic {third_harmonic_pct:.0f} % of line current: size the cable on the "
-           f"{basis} current with factor {factor:g}: {size_on:.1f} A")
+    msg = (f"third harmonic {third_harmonic_pct:.0f} % of line current: Table E.52.1 sizes "
+           f"the cable on the {basis} current with factor {factor:g}: {size_on:.1f} A")
+    details = {"factor": factor, "basis": basis, "table_sizing_a": size_on}
+    if neutral_current_a > size_on:
+        size_on = neutral_current_a
+        msg += (f"; the neutral carries {neutral_current_a:.1f} A (triplens beyond the 3rd or "
+                f"unbalanced lines), so size on that")
+        details["basis"] = "neutral (measured above the table's figure)"
+    if imbalance > 0.1:
+        msg += (f"; the lines differ by {100 * imbalance:.0f} % but the table is for balanced "
+                "loads")
     if neutral_ampacity_a is None:
-        return Check("neutral conductor", "info", msg, _E52, float(size_on), None, "A",
-                     {"factor": factor, "basis": basis})
+        return Check("neutral conductor", "info", msg, _E52, float(size_on), None, "A", details)
     st = "pass" if size_on <= neutral_ampacity_a else "fail"
-    msg += f" against the conductor ampacity {neutral_ampacity_a:.0f} A"
+    msg += f"; conductor ampacity {neutral_ampacity_a:.0f} A"
     return Check("neutral conductor", st, msg, _E52, float(size_on), float(neutral_ampacity_a),
-                 "A", {"factor": factor, "basis": basis})
+                 "A", details)
 
 
 def nec_neutral_note(nonlinear_share: float, system: str) -> Check | None:

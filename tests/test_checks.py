@@ -61,3 +61,14 @@ def test_dimmer_derating_and_minimum_load():
     assert ck.dimmer_load(200, 600, 0.25, None, 200).status == "fail"
     assert ck.dimmer_load(100, 600, 0.25, None, 100).status == "pass"
     assert ck.dimmer_load(10, 600, 0.25, 25.0, 10).status == "warn"
+
+
+def test_neutral_above_the_tables_figure_is_sized_on_itself():
+    # Table E.52.1 assumes the neutral carries the 3rd harmonic of balanced lines; with 18 %
+    # third harmonic it sizes on the line current / 0.86 (IEC 60364-5-52 Annex E). A neutral
+    # that carries more (9th, 15th ... add too) is sized on its own current (conservative,
+    # common practice), and an ampacity between the two figures fails.
+    c = ck.neutral_conductor(18.0, 3.0, 4.3, neutral_ampacity_a=4.0, imbalance=0.0)
+    assert c.details["table_sizing_a"] == pytest.approx(3.0 / 0.86)
+    assert c.value == pytest.approx(4.3)
+    assert c.status == "fail"
