@@ -267,14 +267,17 @@ def transformer_derating(
     src = "IEEE Std C57.110-2018, clause 5; K ratings per UL 1561 (common practice)"
     if rated_current_a is None:
         return Check("transformer", "info",
-                     f"F_HL {harmonic_loss_factor:.2f}: a standard transformer may carry "
+                     f"F_HL {harmonic_loss_factor:.2f} (this load's spectrum, orders 1..50, most "
+                     f"loaded line): a standard transformer serving only this load may carry "
                      f"{100 * i_max_pu:.0f} % of its rated current; a K-rated replacement "
                      f"needs {_k_text(k_needed)}", src, i_max_pu, None,
                      "pu", det)
     allowed = i_max_pu * rated_current_a
     st = "pass" if load_current_a <= allowed else "fail"
     return Check("transformer", st,
-                 f"F_HL {harmonic_loss_factor:.2f}: derated capacity {allowed:.0f} A "
+                 f"F_HL {harmonic_loss_factor:.2f} (this load's spectrum, orders 1..50, most "
+                 f"loaded line): if the whole load had this spectrum, the derated capacity "
+                 f"would be {allowed:.0f} A "
                  f"({100 * i_max_pu:.0f} % of {rated_current_a:.0f} A) against a load of "
                  f"{load_current_a:.0f} A; a K-rated replacement needs {_k_text(k_needed)}",
                  src, float(load_current_a), float(allowed), "A", det)
