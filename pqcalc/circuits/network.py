@@ -169,20 +169,13 @@ class Network:
         Rhs = np.zeros((nz, ncol))
         state_col = {k: j for j, k in enumerate(self.caps + self.inds)}
         g = np.zeros(self.n_e)
-        # the nodal stamps of every element, in element order (each mode sums them in
-        # that order, so that a mode's equations do not depend on how they were built):
-        # (index, kind, a, b, Rhs column or -1, gain)
-        stamps = []
         for i, e in enumerate(els):
             if e.kind == "R":
                 g[i] = 1.0 / e.value
-                stamps.append((i, "R", e.a, e.b, -1, 0.0))
-            elif e.kind in "DSG":
-                stamps.append((i, e.kind, e.a, e.b, -1, 0.0))
             elif e.kind == "L":
-                stamps.append((i, "L", e.a, e.b, state_col[i], 1.0))
+                _inject(Rhs, e.a, e.b, state_col[i], 1.0)
             elif e.kind == "I":
-                stamps.append((i, "I", e.a, e.b, self.n_x + e.channel, e.value))
+                _inject(Rhs, e.a, e.b, self.n_x + e.channel, e.value)
         for j, i in enumerate(vsrc):
             e, r = els[i], nn + j
             if e.a:
@@ -201,11 +194,30 @@ class Network:
                 Q0[i, state_col[i]] = 1.0
             elif e.kind == "I":
                 Q0[i, self.n_x + e.channel] = e.value
+        # node incidence of the conducting elements (R, D, S, G): a mode's conductance
+        # stamps are Inc diag(g) Inc^T, its constant currents -Inc i0 in the CH_ONE column
+        cond = [i for i, e in enumerate(els) if e.kind in "RDSG"]
+        inc = np.zeros((nz, len(cond)))
+        for k, i in enumerate(cond):
+            if els[i].a:
+                inc[els[i].a - 1, k] = 1.0
+            if els[i].b:
+                inc[els[i].b - 1, k] = -1.0
+        pos = {i: k for k, i in enumerate(cond)}
+        ds = [(j, i) for j, i in enumerate(self.switchable) if els[i].kind in "DS"]
+        gs = [(j, i) for j, i in enumerate(self.switchable) if els[i].kind == "G"]
         return {
-            "nn": nn, "ncol": ncol, "M": M, "Rhs": Rhs, "g": g, "Q0": Q0, "stamps": stamps,
+            "nn": nn, "ncol": ncol, "M": M, "Rhs": Rhs, "g": g, "Q0": Q0, "inc": inc,
+            "g_cond": g[cond], "cond": np.array(cond, dtype=int),
             "a": np.array([e.a for e in els], dtype=int),
             "b": np.array([e.b for e in els], dtype=int),
-            "cond": np.array([i for i, e in enumerate(els) if e.kind in "RDSG"], dtype=int),
+            "ds_on": np.array([j for j, _ in ds], dtype=int),
+            "ds_pos": np.array([pos[i] for _, i in ds], dtype=int),
+            "ds_el": np.array([i for _, i in ds], dtype=int),
+            "ds_g_on": np.array([1.0 / els[i].r_on for _, i in ds]),
+            "ds_g_off": np.array([els[i].g_off for _, i in ds]),
+            "ds_v_on": np.array([els[i].v_on if els[i].kind == "D" else 0.0 for _, i in ds]),
+            "gs": [(j, pos[i], i, els[i].table) for j, i in gs],
             "vsrc": np.array(vsrc, dtype=int),
             "caps": np.array(self.caps, dtype=int),
             "inds": np.array(self.inds, dtype=int),
@@ -217,34 +229,26 @@ class Network:
         st = getattr(self, "_st", None)
         if st is None:
             st = self._st = self._static()
-        els = self.elements
         nn, ncol, one = st["nn"], st["ncol"], self.n_x + CH_ONE
-        M = st["M"].copy()
+        onv = np.array(on, dtype=float)
+        # conductances and constant currents (a diode's Norton source g v_on from b to a;
+        # a piecewise-affine element's i0) of the conducting elements in this mode
+        g_c = st["g_cond"].copy()
+        i0_c = np.zeros(g_c.size)
+        ds_on = onv[st["ds_on"]] != 0
+        g_ds = np.where(ds_on, st["ds_g_on"], st["ds_g_off"])
+        g_c[st["ds_pos"]] = g_ds
+        i0_c[st["ds_pos"]] = np.where(ds_on, -g_ds * st["ds_v_on"], 0.0)
+        for j, k, _i, table in st["gs"]:
+            g_c[k], i0_c[k] = table[int(on[j])]
+        inc = st["inc"]
+        M = st["M"] + (inc * g_c) @ inc.T
         Rhs = st["Rhs"].copy()
+        Rhs[:, one] -= inc @ i0_c
         g_of = st["g"].copy()
-        i_one = np.zeros(self.n_e)  # constant current terms of conducting elements [A]
-        sw_on = dict(zip(self.switchable, on, strict=True))
-        for i, kind, a, b, col, gain in st["stamps"]:
-            if kind == "R":
-                _stamp_g(M, a, b, g_of[i])
-            elif kind in "LI":
-                _inject(Rhs, a, b, col, gain)
-            else:
-                e, is_on = els[i], sw_on[i]
-                if kind == "G":
-                    g, i0 = e.table[int(is_on)]
-                    _stamp_g(M, a, b, g)
-                    if i0:
-                        _inject(Rhs, a, b, one, i0)
-                        i_one[i] = i0
-                else:
-                    g = 1.0 / e.r_on if is_on else e.g_off
-                    _stamp_g(M, a, b, g)
-                    if kind == "D" and is_on and e.v_on != 0.0:
-                        # i = g (v - v_on): a Norton source g*v_on from b to a
-                        _inject(Rhs, a, b, one, -g * e.v_on)
-                        i_one[i] = -g * e.v_on
-                g_of[i] = g
+        g_of[st["cond"]] = g_c
+        i_one = np.zeros(self.n_e)
+        i_one[st["cond"]] = i0_c
         try:
             Z = np.linalg.solve(M, Rhs)
         except np.linalg.LinAlgError as err:
@@ -265,16 +269,6 @@ class Network:
         AB = np.vstack([cur[st["caps"]] / st["c_val"][:, None],
                         Vel[st["inds"]] / st["l_val"][:, None]])
         return ModeSystem(AB[:, : self.n_x].copy(), AB[:, self.n_x :].copy(), Q)
-
-
-def _stamp_g(M: np.ndarray, a: int, b: int, g: float) -> None:
-    if a:
-        M[a - 1, a - 1] += g
-    if b:
-        M[b - 1, b - 1] += g
-    if a and b:
-        M[a - 1, b - 1] -= g
-        M[b - 1, a - 1] -= g
 
 
 def _inject(Rhs: np.ndarray, a: int, b: int, col: int, gain: float) -> None:
