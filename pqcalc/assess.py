@@ -156,7 +156,14 @@ class CaseSolver:
                c.branch_r_ohm, c.branch_l_h, voltage)
         hit = self.cache.get(key)
         if hit is None:
-            hit = self.cache[key] = self._case(c, scenario, voltage)
+            try:
+                hit = self._case(c, scenario, voltage)
+            except ConvergenceError as e:
+                # leave the circuit out of the sums, loudly: a FAIL on the circuit, and its
+                # current counted as zero (the rest of the installation is still worth seeing)
+                hit = CaseResult(np.zeros(GRID_SAMPLES), 1, 0.0, ("no-solution",), (),
+                                 (f"{e}",))
+            self.cache[key] = hit
         return hit
 
     def _case(self, c: Circuit, scenario: int, voltage) -> CaseResult:
@@ -667,6 +674,8 @@ def _case_metrics(inst, cs: CaseResult, v_own):
 
 #: What each circuit-model flag means for the user.
 _FLAG_TEXT = {
+    "no-solution": "the circuit model found no periodic steady state (unstable or chaotic "
+                   "operation: expect flicker); this circuit is LEFT OUT of the panel sums",
     "no-latch": "the triac does not stay on after firing (load current below its latching or "
                 "holding current): flicker or no light; add load, a bleeder, or use a "
                 "trailing-edge dimmer",
@@ -714,7 +723,8 @@ def _circuit_result(inst, c: Circuit, cs: CaseResult, scenario: int, v_own) -> C
         connected_w = sum(g.count * inst.fixtures[g.fixture].power_w for g in cs.groups)
         checks.append(ck.dimmer_load(led_w, c.dimmer_rating_w, c.led_derating,
                                      c.dimmer_min_load_w, connected_w))
-    bad = {"no-latch": "fail", "misfire": "fail", "subharmonic": "fail", "re-fire": "warn",
+    bad = {"no-solution": "fail", "no-latch": "fail", "misfire": "fail", "subharmonic": "fail",
+           "re-fire": "warn",
            "drop-out": "warn", "glow-when-off": "warn"}
     for fl in cs.flags:
         st = bad.get(fl, "warn")
