@@ -210,3 +210,16 @@ def test_unknown_column_lists_available(tmp_path):
 def test_smooth_needs_windows(tmp_path):
     r = run(write(tmp_path / "c.csv"), "--smooth")
     assert r.exit_code == 2 and "--windows" in r.stderr
+
+
+def test_usage_mistakes_are_one_line_with_exit_2():
+    # House rule for bad input (one line on stderr, exit code 2) also for click's own
+    # usage errors: an out-of-range option, an unknown command.
+    from click.testing import CliRunner
+
+    from pqcalc.cli import main
+
+    for args in (["analyze", "x.csv", "--max-order", "99"], ["no-such-command"]):
+        r = CliRunner().invoke(main, args)
+        assert r.exit_code == 2
+        assert len(r.stderr.strip().splitlines()) == 1 and r.stderr.startswith("error:")

@@ -49,6 +49,24 @@ class _LazyGroup(click.Group):
         with formatter.section("Commands"):
             formatter.write_dl([(n, h) for n, (_, h) in COMMANDS.items()])
 
+    def main(self, args=None, prog_name=None, **kwargs):
+        """Run the command line; a usage mistake (unknown option, bad choice) is one line
+        on stderr with exit code 2, like every other bad input."""
+        kwargs.setdefault("standalone_mode", False)
+        try:
+            rv = super().main(args, prog_name or "pqcalc", **kwargs)
+        except click.exceptions.UsageError as e:
+            where = f"{e.ctx.command_path}: " if e.ctx is not None else ""
+            click.echo(f"error: {where}{one_line(e.format_message())} (see --help)", err=True)
+            sys.exit(2)
+        except click.exceptions.Abort:
+            click.echo("aborted", err=True)
+            sys.exit(1)
+        except click.exceptions.ClickException as e:
+            click.echo(f"error: {one_line(e.format_message())}", err=True)
+            sys.exit(e.exit_code)
+        sys.exit(rv if isinstance(rv, int) else 0)
+
 
 @click.group(cls=_LazyGroup, context_settings=CONTEXT)
 @click.version_option(__version__, "--version", prog_name="pqcalc")
