@@ -129,11 +129,13 @@ def _installation_figure(figure, source, unit, log, max_order, cycles, title, pa
     if figure in ("spectrum", "waveform"):
         from ..lineup import evaluate_lineup
 
+        known = list(inst.fixtures)
+        if fixture_id is not None and fixture_id not in known:
+            raise InputError(f"--fixture: no fixture type {fixture_id!r}; known: "
+                             f"{', '.join(known)}")
         entries = evaluate_lineup(inst)
         ids = [e.fixture for e in entries]
         pick = fixture_id or ids[0]
-        if pick not in ids:
-            raise InputError(f"--fixture: no fixture type {pick!r}; known: {', '.join(ids)}")
         e = entries[ids.index(pick)]
         st = e.states[0]
         if figure == "waveform":

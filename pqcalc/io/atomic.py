@@ -45,13 +45,19 @@ def atomic_output(path: str | os.PathLike) -> Iterator[Path]:
     ordinary permissions of a new file, not the private ones of a temporary file); on any
     error it is removed and nothing is left behind."""
     p = check_output_path(path)
-    fd, tmp = tempfile.mkstemp(dir=p.parent if str(p.parent) else ".", prefix=f".{p.name}.",
-                               suffix=".tmp")
+    try:
+        fd, tmp = tempfile.mkstemp(dir=p.parent if str(p.parent) else ".",
+                                   prefix=f".{p.name}.", suffix=".tmp")
+    except OSError as e:
+        raise InputError(f"{p}: cannot write in {p.parent or '.'}: {e.strerror}") from None
     os.close(fd)
     try:
         yield Path(tmp)
         os.chmod(tmp, _new_file_mode())
         os.replace(tmp, p)
+    except OSError as e:
+        Path(tmp).unlink(missing_ok=True)
+        raise InputError(f"{p}: could not be written: {e.strerror}") from None
     except BaseException:
         Path(tmp).unlink(missing_ok=True)
         raise
