@@ -330,6 +330,8 @@ def cases(spec: SweepSpec) -> np.ndarray:
 
 #: flag of a case whose current has no fundamental (the lamp is off): its ratios are NaN
 NO_CURRENT = "no-current"
+#: flag of a case the circuit model found no periodic steady state for: every figure NaN
+NO_SOLUTION = "no-solution"
 
 
 def _off(ph: np.ndarray, i_rms_a: float, p_w: float, light_rel, flags) -> CaseOutcome:
@@ -372,8 +374,17 @@ def circuit_case(case: Case) -> CaseOutcome:
     if case.dimmer != "none":
         kw["switch"] = case.switch
         kw["conduction_deg" if case.setting_kind == "conduction" else "knob"] = case.setting
-    sol = solve_circuit(supply, DimmerSpec(**kw),
-                        [LoadGroup(case.model, case.power_w, case.lamps, case.params)])
+    from .errors import ConvergenceError
+
+    try:
+        sol = solve_circuit(supply, DimmerSpec(**kw),
+                            [LoadGroup(case.model, case.power_w, case.lamps, case.params)])
+    except ConvergenceError:
+        # no periodic steady state at this setting: every figure NaN, flagged, the sweep goes on
+        nan = float("nan")
+        return CaseOutcome(i_rms_a=nan, i1_rms_a=nan, thd_i=nan, pf=nan, dpf=nan, p_w=nan,
+                           crest_factor=nan, current_h_a=np.full(MAX_ORDER + 1, nan + 0j),
+                           light_rel=None, flags=(NO_SOLUTION,))
     light = None
     if sol.groups:
         g = sol.groups[0]
