@@ -6,6 +6,7 @@ import math
 from pathlib import Path
 
 import click
+import numpy as np
 
 from ..errors import InputError
 from ..io.capture import load_capture, record_to_waveform
@@ -25,9 +26,12 @@ def guess_nominal_voltage(waveforms) -> float | None:
     """Nearest common nominal voltage to the highest ``v_peak / sqrt(2)`` of the records.
 
     The peak rather than the RMS, because a phase-cut voltage keeps the supply's peak while
-    its RMS drops. None when no record has a voltage channel.
+    its RMS drops; the 98th percentile of |v| rather than the maximum, because the
+    resampling overshoots at the steps of a phase-cut voltage (within 0.2 % of the crest of a
+    sine). None when no record has a voltage channel.
     """
-    peaks = [float(abs(w.voltage_v).max()) / math.sqrt(2) for w in waveforms if w.has_voltage]
+    peaks = [float(np.percentile(np.abs(w.voltage_v), 98)) / math.sqrt(2) for w in waveforms
+             if w.has_voltage]
     if not peaks:
         return None
     v = max(peaks)

@@ -130,7 +130,7 @@ def waveform_figure(
             handles.append(_mpl().Patch(facecolor=SHADE, label="voltage cut by the dimmer"))
         handles += ax.plot(angle, i, color=INK, ls="-", lw=1.5, label="current", zorder=3)
         ax.axhline(0, color="#888888", lw=0.6, zorder=1)
-        ax.set_xlabel("angle from the voltage zero crossing [deg]" if waveform.has_voltage
+        ax.set_xlabel("angle from the zero crossing of the voltage fundamental [deg]" if waveform.has_voltage
                       else "angle from the current zero crossing [deg]")
         ax.set_ylabel("current [A]")
         ax.set_xlim(0, 360 * cycles)
