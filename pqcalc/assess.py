@@ -944,14 +944,14 @@ def _summation(inst: Installation, solver: CaseSolver, scen) -> dict:
         per_line = {ln: [] for ln in angles}
         fund = {ln: 0j for ln in angles}
         for c in p.circuits:
-            mags = []
-            for k in range(inst.n_scenarios):
-                cs = solver.case(c, k)
-                ph = grid_phasors(cs.current_a, cs.cycles)
-                mags.append(np.abs(ph))
+            phs = [grid_phasors(cs.current_a, cs.cycles)
+                   for cs in (solver.case(c, k) for k in range(inst.n_scenarios))]
+            mags = np.abs(phs)
             m = np.max(mags, axis=0)
             per_line[c.phase].append(m)
-            fund[c.phase] += m[1] * np.exp(1j * np.radians(angles[c.phase]))
+            # the fundamental keeps its phase (displacement) from the scenario of largest I1
+            p1 = phs[int(np.argmax(mags[:, 1]))][1]
+            fund[c.phase] += p1 * np.exp(1j * np.radians(angles[c.phase]))
         res = {}
         for ln, ms in per_line.items():
             s = summation_law(np.array(ms)) if ms else np.zeros(MAX_ORDER + 1)
@@ -959,11 +959,11 @@ def _summation(inst: Installation, solver: CaseSolver, scen) -> dict:
         allm = [m for ms in per_line.values() for m in ms]
         entry = {"id": p.id, "phases": res}
         if inst.supply.system != "single-phase" and allm:
+            # every order by the summation law over all the panel's circuits (their relative
+            # phases unknown), but the fundamental as the phasor sum of the lines (set by the
+            # load balance, not by the dimmer settings)
             sn = summation_law(np.array(allm))
             sn[1] = abs(sum(fund.values()))
-            h = np.arange(sn.size)
-            if inst.supply.system == "split-phase":
-                sn[(h % 2 == 1) & (h > 1)] = summation_law(np.array(allm))[(h % 2 == 1) & (h > 1)]
             entry["neutral"] = {"i_rms_a": float(np.sqrt(np.sum(sn**2))),
                                 "triplen_share_pct": 100 * triplen_share(sn)}
         out["panels"].append(entry)
