@@ -72,6 +72,21 @@ def assess_cmd(installation, as_json, which, no_interaction):
     sys.exit(1 if a.failed else 0)
 
 
+def _worst_bounds(a, cid: str, fixture: str) -> dict:
+    """The smallest fixture counts per breaker over every scenario (dimmed currents can
+    exceed full-output ones)."""
+    out = {"inrush_bound": None, "steady_bound": None}
+    for sc in a.scenarios:
+        for c in sc.circuits:
+            m = c.max_fixtures.get(fixture) if c.id == cid else None
+            if not m:
+                continue
+            for k in out:
+                if m[k] is not None and (out[k] is None or m[k] < out[k]):
+                    out[k] = m[k]
+    return out
+
+
 def _groups(a, c):
     return next(x.groups for x in a.installation.circuits if x.id == c.id)
 
@@ -118,11 +133,13 @@ def print_assessment(a, scenarios) -> None:
         if cap:
             out("")
             out(f"  {'circuit':<12} {'fixture type':<26} {'count':>5} {'max by inrush':>13} "
-                f"{'max by load':>11}  (IEC 60898-1 band, 80 % continuous load)")
-            for c, f, m in cap:
+                f"{'max by load':>11}  (worst scenario; IEC 60898-1 band, 80 % continuous "
+                "load: common practice)")
+            for c, f, _m in cap:
                 n = next((g.count for g in _groups(a, c) if g.fixture == f), 0)
-                out(f"  {c.id:<12} {f:<26} {n:>5} {fmt(m['inrush_bound'], 'd'):>13} "
-                    f"{fmt(m['steady_bound'], 'd'):>11}")
+                worst = _worst_bounds(a, c.id, f)
+                out(f"  {c.id:<12} {f:<26} {n:>5} {fmt(worst['inrush_bound'], 'd'):>13} "
+                    f"{fmt(worst['steady_bound'], 'd'):>11}")
         out("")
         out(f"  {'node':<12} {'kind':<11} {'line':<4} {'Irms A':>8} {'I1 A':>8} {'THDi %':>7} "
             f"{'PF':>5} {'THDv %':>7}")
