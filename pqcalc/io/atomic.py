@@ -57,7 +57,7 @@ def atomic_output(path: str | os.PathLike) -> Iterator[Path]:
         os.replace(tmp, p)
     except OSError as e:
         Path(tmp).unlink(missing_ok=True)
-        raise InputError(f"{p}: could not be written: {e.strerror}") from None
+        raise InputError(f"{p}: could not be written: {e.strerror or e}") from None
     except BaseException:
         Path(tmp).unlink(missing_ok=True)
         raise

@@ -377,9 +377,10 @@ def standards_section(doc: Doc, a: Assessment, lineup: Sequence[LineupEntry]) ->
 
     rows = []
     keys = ["iec61000-3-2:class-c", "iec61000-3-2:class-c:5-25w", "iec61000-3-2:class-d"]
-    ed = {str(c.details.get("edition")) for sc in a.scenarios for c in sc.checks
-          if c.name == "IEEE 519 at the PCC" and c.details}
-    keys += [f"ieee519:{e}:current" for e in sorted(ed) if e and e != "None"]
+    if any(c.name == "IEEE 519 at the PCC" and c.details for sc in a.scenarios
+           for c in sc.checks):
+        e = str(a.installation.pcc.get("ieee519_edition", "2022"))
+        keys += [f"ieee519:{e}:current", f"ieee519:{e}:voltage"]
     for k in keys:
         try:
             src = load_limits(k).source
@@ -389,6 +390,11 @@ def standards_section(doc: Doc, a: Assessment, lineup: Sequence[LineupEntry]) ->
     doc.table([Col("standard", 1.3), Col("edition", 2.0, wrap=True),
                Col("table or clause", 2.6, wrap=True), Col("values", 0.9)], rows,
               title="Limit tables shipped with pqcalc and used here")
+    doc.para("'values' is the certainty of the table as a whole (seen: read in a public copy; "
+             "memory: recalled, unverified); single rows or rules may differ and are marked in "
+             "the table files (standards_limits/) and in the results' notes, e.g. the 2022 "
+             "even-order treatment of IEEE 519 and the dimmed-state rule of IEC 61000-3-2 rest "
+             "on memory. Confirm against the purchased standards.", size=8, color=_GREY)
 
 
 def cautions(doc: Doc, a: Assessment, lineup: Sequence[LineupEntry]) -> None:
