@@ -159,3 +159,21 @@ def test_every_model_lists_input_parts():
     assert "r_series_ohm" in names["bulk-cap"] and "r_series_ohm" in names["pwm-detect"]
     assert "r_fuse_ohm" in names["sine-follow"]
     assert {"r_fuse_ohm", "l_emi_h", "r_emi_damp_ohm"} <= names["pfc"]
+
+
+@pytest.mark.parametrize("model", ["dropper", "sine-follow"])
+def test_light_without_extras_is_the_same_normalised_light(model):
+    # project contract (solve_circuit docstring): extras=False defers the light's
+    # normalisation (a reference solve of the lamp alone on its rated supply) until the
+    # light is read; it must then equal the light of a full solve exactly, also after a
+    # pickle round trip (the same computation on the same waveform: no tolerance)
+    import pickle
+
+    dim = _cut(120.0, "trailing-edge")
+    full = solve_circuit(SUP, dim, [LoadGroup(model, 5.0)])
+    quick = solve_circuit(SUP, dim, [LoadGroup(model, 5.0)], extras=False)
+    assert quick.groups[0].stresses.inrush_peak_a is None
+    again = pickle.loads(pickle.dumps(quick))
+    for sol in (quick, again):
+        assert np.array_equal(sol.groups[0].light, full.groups[0].light)
+    assert full.groups[0].light_mean > 0.05  # the lamp is lit: a real light, not zeros

@@ -97,6 +97,10 @@ class GroupResult:
     light: np.ndarray = _Deferred()  # relative light output, 1.0 = rated full output [-]
     stresses: Stresses
 
+    def __getstate__(self):
+        self.light  # noqa: B018  (a deferred light is computed before pickling)
+        return self.__dict__
+
     @property
     def light_mean(self) -> float:
         return float(np.mean(self.light))
