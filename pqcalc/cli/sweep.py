@@ -2,10 +2,8 @@
 
 from __future__ import annotations
 
-import os
 import sys
 import time
-from pathlib import Path
 
 import click
 
@@ -50,15 +48,15 @@ class _Progress:
 
 
 def _check_output(path: str) -> None:
-    """Refuse a missing or read-only output folder before any work is done."""
-    p = Path(path)
-    folder = p.parent if str(p.parent) else Path(".")
+    """Refuse a missing or read-only output folder, or a name that is not ``.nc``, before
+    any work is done."""
+    from ..io.atomic import check_output_path
+
+    p = check_output_path(path)
     if p.is_dir():
         raise InputError(f"-o {p}: is a folder; expected a file name such as sweep.nc")
-    if not folder.is_dir():
-        raise InputError(f"-o {p}: the folder {folder} does not exist")
-    if not os.access(folder, os.W_OK):
-        raise InputError(f"-o {p}: the folder {folder} is not writable")
+    if p.suffix.lower() not in (".nc", ".nc4"):
+        raise InputError(f"-o {p}: expected a netCDF file name ending in .nc")
 
 
 def _fixtures(models: tuple[str, ...], powers: tuple[str, ...]) -> tuple[Fixture, ...]:
