@@ -166,6 +166,10 @@ def comply_cmd(captures, installation, equipment_class, settings_of, power_w, pf
     Exit code 0 when every fixture passes, 1 when any fails (the tables are printed), 2 for
     bad input, including a verdict that hinges on option b without a voltage channel.
     """
+    if power_w is not None and not (math.isfinite(power_w) and power_w > 0):
+        raise InputError(f"--power-w: expected a positive power [W], got {power_w:g}")
+    if pf is not None and not (math.isfinite(pf) and 0 < pf <= 1):
+        raise InputError(f"--pf: expected a power factor in (0, 1], got {pf:g}")
     if nominal_voltage is not None and not nominal_voltage > 0:
         raise InputError(f"--nominal-voltage: expected a positive voltage, got {nominal_voltage}")
     jobs = []  # (fixture, [(setting, waveform)])

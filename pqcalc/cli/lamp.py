@@ -118,7 +118,7 @@ LAMP_FIGURES = ("waveform", "spectrum", "light", "curve")
 @click.option("--voltage", type=float, default=230.0, show_default=True,
               help="Supply voltage, line to neutral [V rms], 100 to 277.")
 @click.option("--frequency", type=float, default=50.0, show_default=True,
-              help="Supply frequency [Hz], 50 or 60.")
+              help="Supply frequency [Hz], 45 to 65 (mains: 50 or 60).")
 @click.option("--dimmer", "dimmer", default="none", show_default=True,
               help=f"Dimmer: {', '.join(DIMMER_KINDS)}.")
 @click.option("--switch", "switch", default="triac", show_default=True,
@@ -350,7 +350,7 @@ def _print_solution(a, sol, spec, supply, fl, group) -> None:
     cond = ", ".join(f"{c:.1f}" for c in sol.conduction_deg)
     rows = [
         ("period", f"{sol.period_cycles}", "cycle(s)"),
-        ("conduction per half cycle", cond, "deg"),
+        ("measured conduction, each half", cond, "deg"),
         ("flags", ", ".join(sol.flags) or "none", ""),
         ("P", fmt(s.p_w), "W"),
         ("I rms", fmt(s.i_rms_a), "A"),
