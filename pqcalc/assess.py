@@ -16,7 +16,7 @@ interacting results are kept.
 
 from __future__ import annotations
 
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 
 import numpy as np
 
@@ -39,9 +39,8 @@ __all__ = ["CaseResult", "CaseSolver", "CircuitResult", "LineResult", "PanelResu
            "ScenarioResult", "Assessment", "assess", "grid_phasors"]
 
 MAX_ORDER = 50
-#: The highest conduction a phase-cut triac dimmer reaches at its top setting [deg]
-#: (common practice; the circuit model's dimming-curve range uses the same value).
-TRIAC_MAX_CONDUCTION_DEG = 170.0
+#: A setting at or above this conduction angle [deg] is a dimmer fully on.
+FULL_CONDUCTION_DEG = 179.5
 
 
 def grid_phasors(x: np.ndarray, cycles: int, max_order: int = MAX_ORDER) -> np.ndarray:
@@ -169,13 +168,13 @@ class CaseSolver:
     def _case(self, c: Circuit, scenario: int, voltage) -> CaseResult:
         cond, knob = c.setting(scenario)
         extra_notes: tuple[str, ...] = ()
-        if (c.dimmer == "leading-edge" and c.dimmer_switch == "triac" and cond is not None
-                and cond > TRIAC_MAX_CONDUCTION_DEG):
-            extra_notes = (f"a triac dimmer at its top setting conducts about "
-                           f"{TRIAC_MAX_CONDUCTION_DEG:g} deg (it fires a few degrees after the "
-                           f"zero crossing; common practice): {cond:g} deg was read as "
-                           f"{TRIAC_MAX_CONDUCTION_DEG:g} deg",)
-            cond = TRIAC_MAX_CONDUCTION_DEG
+        if c.dimmer != "none" and cond is not None and cond >= FULL_CONDUCTION_DEG:
+            # a dimmer at full conduction passes the whole wave: solved as the uncut supply
+            # (a single gate pulse at the zero crossing would find no current to latch on)
+            extra_notes = (f"{c.dimmer} dimmer at {cond:g} deg: the whole wave passes; solved "
+                           "as the uncut supply",)
+            c = replace(c, dimmer="none", conduction_deg=(180.0,), knob=None)
+            cond = 180.0
         measured = [g for g in c.groups if self.inst.fixtures[g.fixture].measured]
         modelled = [g for g in c.groups if not self.inst.fixtures[g.fixture].measured]
         parts = [self._capture_case(g.fixture, g.count) for g in measured]

@@ -136,7 +136,7 @@ def summary(doc: Doc, a: Assessment, lineup: Sequence[LineupEntry], lineup_notes
               title=f"Currents in the design scenario ({sc.name})")
     f = _findings(a)
     limit = 16
-    doc.table([Col("status", 0.55), Col("where", 1.2), Col("check", 1.2, wrap=True),
+    doc.table([Col("status", 0.55), Col("where", 1.2, wrap=True), Col("check", 1.2, wrap=True),
                Col("finding [scenarios]", 4.0, wrap=True)],
               [(s.upper(), w, c, m) for s, w, c, m in f[:limit]], status_col=0,
               title="Failed and warned checks")
@@ -224,7 +224,7 @@ def _node_rows(a: Assessment, node_id: str) -> list[tuple]:
     return rows
 
 
-_NODE_COLS = [Col("scenario", 1.15), Col("cond.", 0.45), Col("I rms [A]", 0.65, "right"),
+_NODE_COLS = [Col("scenario", 1.15, wrap=True), Col("cond.", 0.45), Col("I rms [A]", 0.65, "right"),
               Col("I1 [A]", 0.6, "right"), Col("THDi [%]", 0.6, "right"),
               Col("PF [-]", 0.5, "right"), Col("V [V]", 0.55, "right"),
               Col("THDv [%]", 0.6, "right"), Col("neutral", 1.6)]
@@ -240,8 +240,8 @@ def _checks_rows(a: Assessment, pick) -> list[tuple]:
     return rows
 
 
-_CHECK_COLS = [Col("status", 0.5), Col("scenario", 1.0), Col("where", 0.8),
-               Col("check", 1.1), Col("message", 3.6, wrap=True)]
+_CHECK_COLS = [Col("status", 0.5), Col("scenario", 1.0, wrap=True), Col("where", 0.8, wrap=True),
+               Col("check", 1.1, wrap=True), Col("message", 3.6, wrap=True)]
 
 
 def panels_section(doc: Doc, a: Assessment) -> None:
@@ -276,7 +276,7 @@ def panels_section(doc: Doc, a: Assessment) -> None:
                 flags = ", ".join(list(c.flags) + [f"{x.status} {x.name}" for x in bad]) or "ok"
                 crow.append((c.id, c.phase, sc.name, st, fmt_num(c.i_rms_a),
                              fmt_pct(c.thd_i), fmt_num(c.pf), fmt_num(c.p_w, ".0f"), flags))
-        doc.table([Col("circuit", 0.75), Col("line", 0.4), Col("scenario", 1.1),
+        doc.table([Col("circuit", 0.75), Col("line", 0.4), Col("scenario", 1.1, wrap=True),
                    Col("setting", 0.7), Col("I rms [A]", 0.6, "right"),
                    Col("THDi [%]", 0.6, "right"), Col("PF [-]", 0.45, "right"),
                    Col("P [W]", 0.5, "right"), Col("flags and checks", 1.7, wrap=True)],
@@ -341,7 +341,7 @@ def assumptions(doc: Doc, a: Assessment, version: str) -> None:
         frows.append((fid, kind, fmt_num(f.power_w, "g"),
                       f"{f.min_conduction_deg:g}..{f.max_conduction_deg:g}", params,
                       f.description))
-    doc.table([Col("fixture type", 1.3), Col("source", 1.6, wrap=True), Col("P [W]", 0.5, "right"),
+    doc.table([Col("fixture type", 1.3, wrap=True), Col("source", 1.6, wrap=True), Col("P [W]", 0.5, "right"),
                Col("conduction [deg]", 0.8), Col("parameters (SI)", 1.5, wrap=True),
                Col("description", 1.4, wrap=True)], frows, title="Fixture types")
     drows = []
@@ -355,7 +355,7 @@ def assumptions(doc: Doc, a: Assessment, version: str) -> None:
                       c.dimmer, sett, fmt_num(c.dimmer_rating_w, "g"), dp or "-",
                       ", ".join(f"{g.count} x {g.fixture}" for g in c.groups)))
     doc.table([Col("circuit", 0.7), Col("panel", 0.7), Col("line", 0.35), Col("breaker", 0.6),
-               Col("dimmer", 0.9), Col("settings", 1.0, wrap=True),
+               Col("dimmer", 0.9, wrap=True), Col("settings", 1.0, wrap=True),
                Col("rating [W]", 0.55, "right"), Col("dimmer parameters", 0.9, wrap=True),
                Col("fixtures", 1.3, wrap=True)], drows, title="Circuits and dimmers")
     notes = list(dict.fromkeys(n for sc in a.scenarios for c in sc.circuits for n in c.notes))
