@@ -187,9 +187,10 @@ class Doc:
         self.y -= 0.15
 
     def image(self, fig: Figure, width_in: float | None = None, caption: str | None = None,
-              heading: str | None = None) -> None:
+              heading: str | None = None, keep_with_in: float = 0.0) -> None:
         """Embed a figure as a 200 dpi image, width ``width_in`` (default full width); a
-        ``heading`` (level 3) is kept on the same page as the image."""
+        ``heading`` (level 3) is kept on the same page as the image, and so is
+        ``keep_with_in`` of what follows it (its notes) [in]."""
         from matplotlib.image import imread
 
         from ..plotting.style import STYLE, _mpl
@@ -203,7 +204,7 @@ class Doc:
         h = w * img.shape[0] / img.shape[1]
         cap_h = 0.3 if caption else 0.0
         head_h = 10.0 / 72 * 1.6 + 0.12 if heading else 0.0
-        self.need(h + cap_h + head_h)
+        self.need(h + cap_h + head_h + keep_with_in)
         if heading:
             self.heading(heading, level=3)
         ax = self.fig.add_axes([(_LEFT + (_WIDTH - w) / 2) / A4_IN[0], (self.y - h) / A4_IN[1],

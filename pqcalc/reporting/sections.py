@@ -196,14 +196,17 @@ def lineup_section(doc: Doc, lineup: Sequence[LineupEntry], notes: Sequence[str]
     for n in notes:
         doc.para(n, size=8, color=_GREY)
     for e in lineup:
-        doc.image(_spectrum_fig(e), width_in=6.0,
+        own = [n for n in e.notes if n not in notes]
+        # keep the fixture's notes on the figure's page: about 110 characters a line of
+        # 7.5 pt text, 0.14 in a line, plus the paragraph gaps
+        notes_h = sum(0.14 * (len(n) // 110 + 1) + 0.06 for n in own)
+        doc.image(_spectrum_fig(e), width_in=5.0,
                   heading=f"{e.title}" + (f": {e.description}" if e.description else ""),
                   caption="Bars: harmonic current of the state shown (the maximum-power "
                           "state); black marks: the limit of the deciding rule per order; "
-                          "hatched bars exceed it.")
-        for n in e.notes:
-            if n not in notes:
-                doc.para(n, size=7.5, color=_GREY)
+                          "hatched bars exceed it.", keep_with_in=min(notes_h, 3.0))
+        for n in own:
+            doc.para(n, size=7.5, color=_GREY)
 
 
 # ----------------------------------------------------------------------------- panels
