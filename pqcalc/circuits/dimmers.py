@@ -164,7 +164,13 @@ class Triac(Automaton):
     """Triac with latching and holding, fired by the RC network's trigger diode or by an
     ideal trigger at a fixed angle. States: ``("off",)``, ``("gate", t_end, sign)``,
     ``("on", sign)``, ``("low", t_end, sign)`` (below holding, turning off at ``t_end``
-    unless the current recovers; a current zero turns it off at once)."""
+    unless the current recovers; a current zero turns it off at once).
+
+    ``t_end`` is held as a phase of the mains cycle (``[0, 2H)``), not as an absolute time:
+    a run starts each cycle at t = 0 (the source repeats every cycle), so a gate pulse or a
+    recovery that spans the end of one run must end at the same phase of the next. An
+    absolute end time carried over would lie a whole cycle late and hold the triac in its
+    gate pulse (conducting) through the whole next run, and every run after it."""
 
     def __init__(self, p: dict, half_s: float, fire_s: float | None, ct_state: int | None,
                  n_x: int, n_u: int, i_row_fn, v_row_fn) -> None:
@@ -197,11 +203,20 @@ class Triac(Automaton):
             return [(r, vbo, "fire+"), (-r, vbo, "fire-")]
         return []
 
+    def _at(self, phase: float, t: float) -> float:
+        """The first time after ``t`` at the cycle phase ``phase`` [s]."""
+        T = 2 * self.H
+        tt = np.floor(t / T) * T + phase
+        return tt + T if tt <= t + 1e-13 else tt
+
+    def _phase(self, t: float) -> float:
+        return float(t % (2 * self.H))
+
     def next_time(self, s, t):
         if s[0] == "gate":
-            return s[1], "gate-end"
+            return self._at(s[1], t), "gate-end"
         if s[0] == "low":
-            return s[1], "release"
+            return self._at(s[1], t), "release"
         if s[0] == "off" and self.fire_at is not None:
             k = np.floor(t / self.H)
             for kk in (k, k + 1):
@@ -221,14 +236,14 @@ class Triac(Automaton):
                 sign = 1.0 if tag == "fire+" else -1.0
                 x = x.copy()
                 x[self.j] -= sign * p["breakback_v"]
-            return ("gate", t + p["gate_pulse_s"], sign), x
+            return ("gate", self._phase(t + p["gate_pulse_s"]), sign), x
         if tag == "gate-end":
             i = value(self.i_row)
             if abs(i) >= p["latching_current_a"]:
                 return ("on", 1.0 if i >= 0 else -1.0), x
             return ("off",), x
         if tag == "low":
-            return ("low", t + p["recovery_s"], s[1]), x
+            return ("low", self._phase(t + p["recovery_s"]), s[1]), x
         if tag == "recover":
             return ("on", s[2]), x
         if tag == "release":

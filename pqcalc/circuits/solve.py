@@ -50,6 +50,9 @@ NO_HOLD_DEG = 5.0
 GUESS_CYCLES = 12
 #: the pattern read may stop after this many cycles once it repeats (see _period_guess)
 GUESS_MIN_CYCLES = 4
+#: mains cycles simulated, when no periodic state is found, to describe what the circuit
+#: does instead (the latching pattern of the last half of them, and the drift of the state)
+REPORT_CYCLES = 24
 #: incandescent light against filament power, L ~ P^(3.4/1.6) from L ~ V^3.4 and P ~ V^1.6
 #: (common practice; exponents from memory)
 FILAMENT_LIGHT_EXPONENT = 3.4 / 1.6
@@ -250,6 +253,7 @@ def _steady(case: _Case, supply: Supply, check_stability: bool, max_period: int 
     # one cycle from the initial guess gives Newton a state near the orbit
     warm = eng.run(0.0, eng.T1, x0, d0, record=triac)
     x0, d0 = warm.xT, warm.sT
+    x_phys = (x0, d0)  # a simulated (physical) state, where a failure report starts
     tried = []
     total = 0
     order = list(range(1, max_period + 1))
@@ -301,8 +305,58 @@ def _steady(case: _Case, supply: Supply, check_stability: bool, max_period: int 
                 order.insert(k_i, guess)
     raise ConvergenceError(
         "no periodic steady state found; tried shooting (Newton on the state at the cycle "
-        "start) over " + "; ".join(tried)
+        "start) over " + "; ".join(tried) + ". " + _no_orbit_report(case, *x_phys, triac,
+                                                                   max(order))
     )
+
+
+def _no_orbit_report(case: _Case, x, d, triac: bool, max_period: int) -> str:
+    """What the circuit does instead of settling: simulated for REPORT_CYCLES cycles from a
+    physical state, the triac's firing and latching pattern over the last half of them and
+    the state's drift over the last cycle (a slow mode the shooting could not close)."""
+    eng = case.eng
+    n = REPORT_CYCLES
+    tr = eng.run(0.0, n * eng.T1, x, d, record=triac)
+    parts = [f"Simulated over {n} mains cycles"]
+    if triac:
+        on, fires, _nl = _conduction(tr, eng, n)
+        marks = ["L" if c > NO_HOLD_DEG else ("x" if k > 0 else ".")
+                 for c, k in zip(on, fires, strict=True)]
+        tail = marks[n:]
+        shown = "".join(tail)
+        p = _pattern_period(tail)
+        parts.append(f", the triac's last {len(tail)} half cycles were {shown!r} (L latched, "
+                     "x fired without latching, . not fired)")
+        if p is None:
+            parts.append(f": an irregular latching pattern, no repeat within {n // 2} "
+                         "cycles (chaotic, or a period longer than the search)")
+        else:
+            parts.append(f": it repeats every {p} half cycle{'s' if p > 1 else ''}")
+    last = eng.run(0.0, eng.T1, tr.xT, tr.sT)
+    ref = np.abs(last.xT) + 1e4 * case.scale
+    if last.xT.size:
+        rel = np.abs(last.xT - last.x0) / ref
+        j = int(np.argmax(rel))
+        name = next(k for k, v in case.net.state_of.items() if v == j)
+        lam = np.abs(np.linalg.eigvals(last.phi))
+        slow = float(np.max(lam)) if lam.size else 0.0
+        unit = "V" if case.net.elements[case.net.index[name]].kind == "C" else "A"
+        parts.append(f"; the state still drifts, most in {name} "
+                     f"({last.xT[j] - last.x0[j]:+.3g} {unit} per cycle at {last.xT[j]:.4g} "
+                     f"{unit})")
+        if 0.999 < slow < 1.0:
+            tau = -1.0 / np.log(slow)
+            hours = tau / eng.src.frequency_hz / 3600.0
+            parts.append(f", along a slow mode that decays by {slow:.9f} per cycle (time "
+                         f"constant about {tau:.3g} cycles, {hours:.3g} h)")
+            if triac and "L" not in marks[n:]:
+                parts.append(": the triac never latches while that store holds it off, and "
+                             "the latching comes back (if at all) only when the slow drift "
+                             "has run its course, a cycle far longer than the search")
+    parts.append(f". No periodic state of up to {max_period} cycles exists near this "
+                 "behaviour; a pattern that only repeats over more cycles than that is not "
+                 "solved here.")
+    return "".join(parts)
 
 
 def _conduction(tr, eng: Engine, cycles: int):
@@ -325,7 +379,9 @@ def _conduction(tr, eng: Engine, cycles: int):
     for t, tag in tr.events:
         name = tag[-1]
         if tag[0] in "AT" and tag[1] == 0 and name in ("fire+", "fire-", "fire"):
-            fires[min(int(t / H), nh - 1)] += 1
+            # a trigger at the very end of the run (phase 0, the zero crossing) is the
+            # first half cycle's of the next period: by periodicity it counts in half 0
+            fires[int(np.floor(t / H + 1e-9)) % nh] += 1
     # a gate pulse that ends with the triac off: its current had not reached latching
     prev = None
     for sg in tr.segments:
@@ -374,7 +430,9 @@ def solve_circuit(supply: Supply, dimmer: DimmerSpec, loads, samples_per_cycle: 
     InputError
         A bad parameter (the message names it and lists the valid ones).
     ConvergenceError
-        No periodic state found (the message says what was tried).
+        No periodic state found (the message says what was tried, and what the circuit
+        does instead over REPORT_CYCLES simulated cycles: the triac's latching pattern
+        and the state's remaining drift).
     """
     loads = tuple(loads)
     if not loads:
