@@ -802,8 +802,9 @@ def _scenario(inst, solver, k, progress=None) -> ScenarioResult:
     # circuits are re-solved under each new voltage; it stops when the voltage update is
     # below the tolerance [fraction of V1] on every panel line.
     relax = 0.8
-    src = {cid: v for cid, (v, _) in _circuit_sources(inst, cases, feeders, total, cyc).items()}
-    loops = {cid: lp for cid, (_, lp) in _circuit_sources(inst, cases, feeders, total, cyc).items()}
+    first = _circuit_sources(inst, cases, feeders, total, cyc)
+    src = {cid: v for cid, (v, _) in first.items()}
+    loops = {cid: lp for cid, (_, lp) in first.items()}
     change = float("inf")
     for it in range(1, opts.max_iterations + 1):  # noqa: B007 (reported after the loop)
         solve_at = _source_frame(inst, {cid: (v, loops[cid]) for cid, v in src.items()})

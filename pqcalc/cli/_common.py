@@ -137,3 +137,27 @@ def echo_json(obj) -> None:
 
 def fmt(x, spec: str = ".4g", none: str = "-") -> str:
     return none if x is None else format(x, spec)
+
+
+class Progress:
+    """A progress bar on stderr, only when stderr is a terminal and the run is long;
+    called with ``(done, total)``."""
+
+    def __init__(self, label: str, min_total: int = 20):
+        self.label = label
+        self.min_total = min_total
+        self.bar = None
+        self.shown = 0
+
+    def __call__(self, done: int, total: int) -> None:
+        if self.bar is None:
+            if not (sys.stderr.isatty() and total >= self.min_total):
+                return
+            self.bar = click.progressbar(length=total, label=self.label, file=sys.stderr)
+            self.bar.__enter__()
+        self.bar.update(done - self.shown)
+        self.shown = done
+
+    def close(self) -> None:
+        if self.bar is not None:
+            self.bar.__exit__(None, None, None)

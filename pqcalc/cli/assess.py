@@ -9,25 +9,7 @@ import click
 from ..assess import assess
 from ..checks import CAUTION
 from ..installation import load_installation
-from ._common import echo_json, fmt, main, user_errors
-
-
-class _Progress:
-    """A progress bar on stderr, only when stderr is a terminal."""
-
-    def __init__(self, total: int):
-        self.bar = None
-        if sys.stderr.isatty() and total > 50:
-            self.bar = click.progressbar(length=total, label="solving circuits", file=sys.stderr)
-            self.bar.__enter__()
-
-    def __call__(self, n: int) -> None:
-        if self.bar is not None:
-            self.bar.update(n)
-
-    def close(self) -> None:
-        if self.bar is not None:
-            self.bar.__exit__(None, None, None)
+from ._common import Progress, echo_json, fmt, main, user_errors
 
 
 @main.command("assess")
@@ -49,9 +31,16 @@ def assess_cmd(installation, as_json, which, no_interaction):
         from dataclasses import replace
 
         inst = replace(inst, analysis=replace(inst.analysis, supply_interaction=False))
-    prog = _Progress(len(inst.circuits) * inst.n_scenarios)
+    total = len(inst.circuits) * inst.n_scenarios
+    prog = Progress("solving circuits", min_total=50)
+    done = [0]
+
+    def step(n: int) -> None:
+        done[0] += n
+        prog(min(done[0], total), total)
+
     try:
-        a = assess(inst, progress=prog)
+        a = assess(inst, progress=step)
     finally:
         prog.close()
     if as_json:

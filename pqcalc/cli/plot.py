@@ -23,15 +23,14 @@ FIGURES: dict[str, tuple[str, ...]] = {
 
 
 def _check_output(output: str) -> Path:
-    p = Path(output)
-    fmt = p.suffix.lower().lstrip(".")
+    """The output path, refused before any work when its suffix or folder is wrong."""
+    from ..io.atomic import check_output_path
+
+    fmt = Path(output).suffix.lower().lstrip(".")
     if fmt not in FIGURE_FORMATS:
         raise InputError(f"-o {output}: expected a file ending in "
                          f"{', '.join('.' + f for f in FIGURE_FORMATS)}")
-    folder = p.parent if str(p.parent) else Path(".")
-    if not folder.is_dir():
-        raise InputError(f"-o {output}: the folder {folder} does not exist")
-    return p
+    return check_output_path(output)
 
 
 @main.command("plot")

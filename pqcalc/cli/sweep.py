@@ -2,7 +2,6 @@
 
 from __future__ import annotations
 
-import sys
 import time
 
 import click
@@ -21,30 +20,8 @@ from ..sweep import (
     sweep,
     write_netcdf,
 )
+from ._common import Progress as _Progress
 from ._common import main, user_errors
-
-
-class _Progress:
-    """A progress bar on stderr, only when stderr is a terminal and the run is long."""
-
-    def __init__(self, label: str, min_total: int = 20):
-        self.label = label
-        self.min_total = min_total
-        self.bar = None
-        self.shown = 0
-
-    def __call__(self, done: int, total: int) -> None:
-        if self.bar is None:
-            if not (sys.stderr.isatty() and total >= self.min_total):
-                return
-            self.bar = click.progressbar(length=total, label=self.label, file=sys.stderr)
-            self.bar.__enter__()
-        self.bar.update(done - self.shown)
-        self.shown = done
-
-    def close(self) -> None:
-        if self.bar is not None:
-            self.bar.__exit__(None, None, None)
 
 
 def _check_output(path: str) -> None:
