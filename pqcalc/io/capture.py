@@ -13,13 +13,15 @@ from __future__ import annotations
 import csv
 import os
 import warnings
-from dataclasses import dataclass, field
+from dataclasses import dataclass
 from pathlib import Path
 
 import numpy as np
 
 from ..errors import ClippingWarning, InputError
 from ..waveform import Waveform, estimate_frequency, resample_whole_cycles
+from .comtrade import open_comtrade, read_comtrade
+from .record import RawRecord
 
 __all__ = [
     "RawRecord",
@@ -35,33 +37,6 @@ __all__ = [
 
 #: Multipliers from a current unit to amperes.
 UNIT_SCALE = {"A": 1.0, "mA": 1e-3, "kA": 1e3, "uA": 1e-6}
-
-
-@dataclass(frozen=True)
-class RawRecord:
-    """Uniformly sampled samples as read from a file, before alignment to the mains.
-
-    Attributes
-    ----------
-    current_a, voltage_v
-        Samples after scaling [A], [V] (voltage may be None).
-    sample_rate_hz
-        Sampling rate [Hz].
-    source
-        The file it came from (for messages and reports).
-    meta
-        Anything else the file said (channel names, station, start time ...).
-    """
-
-    current_a: np.ndarray
-    sample_rate_hz: float
-    voltage_v: np.ndarray | None = None
-    source: str = ""
-    meta: dict = field(default_factory=dict)
-
-    @property
-    def duration_s(self) -> float:
-        return self.current_a.size / self.sample_rate_hz
 
 
 @dataclass(frozen=True)
@@ -390,8 +365,6 @@ class ComtradeStream:
     """A COMTRADE record read in blocks, with the same interface as :class:`CsvStream`."""
 
     def __init__(self, path: str | os.PathLike, options: CsvOptions | None = None):
-        from .comtrade import open_comtrade
-
         o = options or CsvOptions()
         f = open_comtrade(path)
         self.file = f
@@ -467,8 +440,6 @@ def load_capture(path: str | os.PathLike, options: CsvOptions | None = None) -> 
     if p.is_dir():
         raise InputError(f"{p}: is a directory; expected a capture file")
     if _is_comtrade(p):
-        from .comtrade import read_comtrade
-
         o = options or CsvOptions()
         return read_comtrade(
             p,

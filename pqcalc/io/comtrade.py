@@ -39,6 +39,7 @@ from pathlib import Path
 import numpy as np
 
 from ..errors import InputError
+from .record import RawRecord
 
 __all__ = [
     "AnalogChannel",
@@ -532,14 +533,12 @@ def open_comtrade(path: str | os.PathLike) -> ComtradeFile:
 
 def read_comtrade(path, current_channel=None, voltage_channel=None, current_scale=1.0,
                   voltage_scale=1.0):
-    """Read a COMTRADE record into a :class:`~pqcalc.io.capture.RawRecord`.
+    """Read a COMTRADE record into a :class:`~pqcalc.io.record.RawRecord`.
 
     Channels are chosen by name or number (see :meth:`ComtradeFile.channel_index`); by
     default the first current and the first voltage channel. Values are primary [A], [V],
     then multiplied by the scale factors.
     """
-    from .capture import RawRecord
-
     f = open_comtrade(path)
     ii = f.channel_index(current_channel, "A")
     if ii is None:
