@@ -10,8 +10,10 @@ Ratios are returned as fractions [-]; the command line and reports show percent.
 from __future__ import annotations
 
 from dataclasses import asdict, dataclass
+from typing import Any
 
 import numpy as np
+import numpy.typing as npt
 
 from .errors import InputError
 from .spectrum import Spectrum
@@ -31,10 +33,15 @@ __all__ = [
     "rms_from_orders",
     "Summary",
     "summarize",
+    "OrderValues",
 ]
 
+#: What the functions of this module take as ``x``: a Spectrum, or RMS magnitudes (or complex
+#: RMS phasors) indexed by harmonic order, optionally stacked along leading axes.
+OrderValues = Spectrum | npt.ArrayLike
 
-def _mags(x) -> np.ndarray:
+
+def _mags(x: OrderValues) -> np.ndarray:
     if isinstance(x, Spectrum):
         return np.abs(x.current_a)
     a = np.abs(np.asarray(x))
@@ -50,7 +57,7 @@ def _fundamental(m: np.ndarray) -> np.ndarray:
     return i1
 
 
-def rms_from_orders(x, max_order: int | None = None) -> float | np.ndarray:
+def rms_from_orders(x: OrderValues, max_order: int | None = None) -> float | np.ndarray:
     """RMS from the orders 0..max_order (Parseval) [A].
 
     ``sqrt(I_0^2 + sum_h |I_h|^2)``; equals the time-domain RMS for a record band-limited to
@@ -61,7 +68,7 @@ def rms_from_orders(x, max_order: int | None = None) -> float | np.ndarray:
     return np.sqrt(np.sum(m[..., : top + 1] ** 2, axis=-1))
 
 
-def thd(x, max_order: int = 40, relative_to: str = "fundamental") -> float | np.ndarray:
+def thd(x: OrderValues, max_order: int = 40, relative_to: str = "fundamental") -> float | np.ndarray:
     """Total harmonic distortion of orders 2..max_order [-].
 
     ``sqrt(sum_{h=2}^{H} I_h^2) / I_1`` (``relative_to="fundamental"``, the IEC definition),
@@ -86,7 +93,7 @@ def thd(x, max_order: int = 40, relative_to: str = "fundamental") -> float | np.
     raise InputError(f"relative_to: expected 'fundamental' or 'rms', got {relative_to!r}")
 
 
-def tdd(x, demand_current_a: float, max_order: int = 50) -> float | np.ndarray:
+def tdd(x: OrderValues, demand_current_a: float, max_order: int = 50) -> float | np.ndarray:
     """Total demand distortion ``sqrt(sum_{h=2}^{50} I_h^2) / I_L`` [-].
 
     ``demand_current_a`` is I_L, the maximum demand load current (fundamental) at the point
@@ -103,7 +110,7 @@ def tdd(x, demand_current_a: float, max_order: int = 50) -> float | np.ndarray:
     return np.sqrt(np.sum(m[..., 2 : top + 1] ** 2, axis=-1)) / demand_current_a
 
 
-def pwhd(x, min_order: int = 14, max_order: int = 40) -> float | np.ndarray:
+def pwhd(x: OrderValues, min_order: int = 14, max_order: int = 40) -> float | np.ndarray:
     """Partial weighted harmonic distortion ``sqrt(sum_{h=14}^{40} h (I_h/I_1)^2)`` [-].
 
     References
@@ -117,7 +124,7 @@ def pwhd(x, min_order: int = 14, max_order: int = 40) -> float | np.ndarray:
     return np.sqrt(np.sum(h * r**2, axis=-1))
 
 
-def crest_factor(samples) -> float:
+def crest_factor(samples: npt.ArrayLike) -> float:
     """Peak over RMS of a sampled waveform [-] (sqrt 2 for a sine)."""
     s = np.asarray(samples, dtype=float)
     rms = np.sqrt(np.mean(s**2))
@@ -126,7 +133,7 @@ def crest_factor(samples) -> float:
     return float(np.max(np.abs(s)) / rms)
 
 
-def distortion_factor(x) -> float:
+def distortion_factor(x: OrderValues) -> float:
     """``I_1 / I_rms`` [-], the share of the power factor lost to distortion.
 
     With a Spectrum the time-domain RMS is used; with magnitudes, the RMS of the orders.
@@ -162,6 +169,7 @@ def fundamental_reactive_power(s: Spectrum) -> float:
     IEEE Std 1459-2010, 3.1.2.3.
     """
     phi = _phase_diff(s)
+    assert s.voltage_v is not None  # _phase_diff raised otherwise
     return float(abs(s.voltage_v[1]) * abs(s.current_a[1]) * np.sin(phi))
 
 
@@ -180,7 +188,7 @@ def power_factor(s: Spectrum) -> float:
     return float(s.p_w / sva)
 
 
-def harmonic_loss_factor(x, max_order: int = 50) -> float | np.ndarray:
+def harmonic_loss_factor(x: OrderValues, max_order: int = 50) -> float | np.ndarray:
     """IEEE C57.110 harmonic loss factor for winding eddy-current losses ``F_HL`` [-].
 
     ``F_HL = sum_h (I_h/I_1)^2 h^2 / sum_h (I_h/I_1)^2`` over h = 1..max_order.
@@ -201,7 +209,7 @@ def harmonic_loss_factor(x, max_order: int = 50) -> float | np.ndarray:
     return np.sum(r2 * h**2, axis=-1) / np.sum(r2, axis=-1)
 
 
-def k_factor(x, max_order: int = 50) -> float | np.ndarray:
+def k_factor(x: OrderValues, max_order: int = 50) -> float | np.ndarray:
     """The transformer K-factor ``K = sum_h (I_h/I_rms)^2 h^2`` [-] (orders 1..max_order).
 
     Numerically equal to :func:`harmonic_loss_factor` when I_rms is the RMS of the same
@@ -219,7 +227,7 @@ def k_factor(x, max_order: int = 50) -> float | np.ndarray:
     return np.sum(p * h**2, axis=-1) / np.sum(p, axis=-1)
 
 
-def factor_k(x, e: float = 0.1, q: float = 1.7, max_order: int = 50) -> float | np.ndarray:
+def factor_k(x: OrderValues, e: float = 0.1, q: float = 1.7, max_order: int = 50) -> float | np.ndarray:
     """The transformer derating "factor K" of BS 7821 / EN 50464-3 style [-].
 
     ``K = [1 + e/(1+e) (I_1/I)^2 sum_{n>=2} n^q (I_n/I_1)^2]^0.5``, where I is the RMS of
@@ -265,7 +273,8 @@ class Summary:
     pf: float | None = None
     dpf: float | None = None
 
-    def to_dict(self) -> dict:
+    def to_dict(self) -> dict[str, Any]:
+        """The figures by field name (None where absent)."""
         return asdict(self)
 
 
@@ -273,14 +282,15 @@ def summarize(s: Spectrum, max_order: int = 40) -> Summary:
     """All the figures of :class:`Summary` for a spectrum, THD over orders 2..max_order."""
     if s.i1_a <= 0:
         raise InputError("the record has no fundamental current")
-    kw = {}
-    if s.has_voltage:
+    kw: dict[str, float | None] = {}
+    if s.voltage_v is not None:
+        v, v_rms = s.voltage_v, s.v_rms_v
         kw = dict(
-            v_rms_v=s.v_rms_v,
-            v1_rms_v=float(abs(s.voltage_v[1])),
-            thd_v=float(thd(np.abs(s.voltage_v), max_order)) if abs(s.voltage_v[1]) > 0 else None,
+            v_rms_v=v_rms,
+            v1_rms_v=float(abs(v[1])),
+            thd_v=float(thd(np.abs(v), max_order)) if abs(v[1]) > 0 else None,
             p_w=s.p_w,
-            s_va=s.v_rms_v * s.i_rms_a,
+            s_va=None if v_rms is None else v_rms * s.i_rms_a,  # power_factor() then raises
             q1_var=fundamental_reactive_power(s),
             pf=power_factor(s),
             dpf=displacement_power_factor(s),

@@ -13,6 +13,7 @@ from __future__ import annotations
 import csv
 import os
 import warnings
+from collections.abc import Iterator
 from dataclasses import dataclass
 from pathlib import Path
 
@@ -227,6 +228,7 @@ class CsvStream:
         t0 = self._first_t
         self.t_first_s = None if t0 is None else float(t0[0])
         if ti is not None:
+            assert t0 is not None  # _parse keeps the time column whenever there is one
             if t0.size < 2:
                 raise InputError(f"{p}: one sample only; expected a record of several cycles")
             fs = (t0.size - 1) / float(t0[-1] - t0[0])
@@ -328,9 +330,9 @@ class CsvStream:
                 f"{p}:{rows[bad + 1 - off][0]}: {kind} time stamp {tt[bad + 1]:.9g}; expected "
                 "time to increase from row to row"
             )
-        if self._step is None and dt.size:
-            self._step = float(np.median(dt))
         if dt.size:
+            if self._step is None:
+                self._step = float(np.median(dt))
             step = self._step
             dev = np.abs(dt - step)
             if np.max(dev) > 0.01 * step:
@@ -342,7 +344,7 @@ class CsvStream:
         self._t_last = float(t[-1])
 
     # -- public
-    def chunks(self, size: int = 1 << 16):
+    def chunks(self, size: int = 1 << 16) -> Iterator[tuple[np.ndarray, np.ndarray | None]]:
         """Yield ``(current_a, voltage_v or None)`` blocks of up to ``size`` samples."""
         if self._first is not None:
             c, v, _ = self._first
@@ -387,7 +389,8 @@ class ComtradeStream:
         if vi is not None:
             self.meta["voltage_channel"] = f.config.analog[vi].name
 
-    def chunks(self, size: int = 1 << 16):
+    def chunks(self, size: int = 1 << 16) -> Iterator[tuple[np.ndarray, np.ndarray | None]]:
+        """Yield ``(current_a, voltage_v or None)`` blocks of up to ``size`` samples."""
         for x in self.file.chunks(self._cols, size, list(self._scale[: len(self._cols)])):
             yield x[:, 0], (x[:, 1] if self.has_voltage else None)
 
@@ -399,7 +402,8 @@ def _is_comtrade(p: Path) -> bool:
     return p.suffix.lower() in (".cfg", ".dat", ".cff")
 
 
-def open_capture(path: str | os.PathLike, options: CsvOptions | None = None):
+def open_capture(path: str | os.PathLike[str], options: CsvOptions | None = None
+                 ) -> CsvStream | ComtradeStream:
     """Open a capture for reading in blocks: a :class:`CsvStream` or :class:`ComtradeStream`
     by file ending. Both have ``source``, ``sample_rate_hz``, ``has_voltage``, ``meta`` and
     ``chunks(size)``."""
@@ -427,7 +431,8 @@ def read_csv(path: str | os.PathLike, options: CsvOptions | None = None) -> RawR
             vol.append(v)
     current = np.concatenate(cur)
     fs = st.sample_rate_hz
-    if st._ti is not None and current.size > 1 and st._t_last is not None:
+    if (st._ti is not None and current.size > 1 and st._t_last is not None
+            and t_first is not None):
         fs = (current.size - 1) / (st._t_last - t_first)  # over the whole record
     return RawRecord(current, float(fs), np.concatenate(vol) if vol else None, st.source,
                      dict(st.meta))

@@ -185,7 +185,7 @@ def parse_config(text: str, source: str = "<cfg>") -> ComtradeConfig:
         raise InputError(f"{source}:{ln}: expected 'TT,##A,##D' (channel counts), found "
                          f"{lines[ln - 1].strip()!r}")
     total = int(_num(f[0], f"{source}:{ln}", "TT"))
-    counts = {mm.group(2).upper(): int(mm.group(1)) for mm in m}
+    counts = {mm.group(2).upper(): int(mm.group(1)) for mm in m if mm is not None}
     na, nd = counts.get("A", 0), counts.get("D", 0)
     if na + nd != total:
         raise InputError(f"{source}:{ln}: TT = {total} but {na} analog + {nd} status channels")
@@ -531,8 +531,9 @@ def open_comtrade(path: str | os.PathLike) -> ComtradeFile:
     return ComtradeFile(cfg, conf, dat)
 
 
-def read_comtrade(path, current_channel=None, voltage_channel=None, current_scale=1.0,
-                  voltage_scale=1.0):
+def read_comtrade(path: str | os.PathLike[str], current_channel: str | int | None = None,
+                  voltage_channel: str | int | None = None, current_scale: float = 1.0,
+                  voltage_scale: float = 1.0) -> RawRecord:
     """Read a COMTRADE record into a :class:`~pqcalc.io.record.RawRecord`.
 
     Channels are chosen by name or number (see :meth:`ComtradeFile.channel_index`); by

@@ -13,6 +13,7 @@ from __future__ import annotations
 
 import re
 import sys
+from collections.abc import Collection
 from pathlib import Path
 from typing import Any
 
@@ -78,12 +79,12 @@ def _line_index(text: str) -> dict[str, int]:
             prefix = path
             index.setdefault(prefix, n)
             continue
-        k = _KEY.match(line)
-        if k:
-            key = ".".join(_split_key(k.group(1)))
+        key_match = _KEY.match(line)
+        if key_match:
+            key = ".".join(_split_key(key_match.group(1)))
             full = f"{prefix}.{key}" if prefix else key
             index.setdefault(full, n)
-            rest = line[k.end():]
+            rest = line[key_match.end():]
             opened = rest.count("[") - rest.count("]") + rest.count("{") - rest.count("}")
             if opened > 0:
                 depth = opened
@@ -153,7 +154,8 @@ class Fields:
             raise self.error(field, "a table", v)
         return v
 
-    def str_(self, d: dict, key: str, field: str, default: Any = ..., choices=None) -> Any:
+    def str_(self, d: dict, key: str, field: str, default: Any = ...,
+             choices: Collection[str] | None = None) -> Any:
         if key not in d:
             if default is ...:
                 raise self.error(field, "a value (required)" if not choices else
@@ -204,7 +206,7 @@ class Fields:
             raise self.error(field, "a list", v)
         return v
 
-    def unknown(self, d: dict, allowed, field: str) -> None:
+    def unknown(self, d: dict, allowed: Collection[str], field: str) -> None:
         for k in d:
             if k not in allowed:
                 f = f"{field}.{k}" if field else k

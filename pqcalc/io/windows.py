@@ -30,14 +30,19 @@ with a 1.5 s time constant). Subgroup and smoothing details recalled from memory
 from __future__ import annotations
 
 import os
-from collections.abc import Iterable, Iterator
+from collections.abc import Iterator
 from dataclasses import dataclass, field
+from typing import TYPE_CHECKING, Any
 
 import numpy as np
 from numpy.lib.stride_tricks import sliding_window_view
 
 from ..errors import InputError
 from ..waveform import estimate_frequency
+from .record import CaptureStream
+
+if TYPE_CHECKING:
+    from .capture import CsvOptions
 
 __all__ = [
     "WindowBlock",
@@ -131,7 +136,7 @@ class WindowBlock:
         """Fundamental group of the current [A rms]."""
         return self.i_group_a[:, 1]
 
-    def rows(self, first_index: int = 0) -> list[dict]:
+    def rows(self, first_index: int = 0) -> list[dict[str, Any]]:
         """JSON-ready rows, one per window (ratios in percent where the key says _pct)."""
         out = []
         for k in range(self.n_windows):
@@ -146,6 +151,9 @@ class WindowBlock:
                 "i_group_a": [float(x) for x in self.i_group_a[k, 1:]],
             }
             if self.v_rms_v is not None:
+                # the voltage fields are all present or all None (iter_windows)
+                assert self.thd_v_group is not None and self.p_w is not None
+                assert self.pf is not None and self.dpf is not None
                 r.update(
                     v_rms_v=float(self.v_rms_v[k]),
                     thd_v_pct=100.0 * float(self.thd_v_group[k]),
@@ -163,7 +171,7 @@ class WindowBlock:
             raise InputError("no windows to join")
         b0 = blocks[0]
 
-        def cat(name):
+        def cat(name: str) -> Any:  # the field's array, or None where the first has none
             if getattr(b0, name) is None:
                 return None
             return np.concatenate([getattr(b, name) for b in blocks], axis=0)
@@ -232,7 +240,7 @@ class _Smoother:
 
 
 def iter_windows(
-    stream,
+    stream: CaptureStream,
     nominal_hz: float | None = None,
     max_order: int = 50,
     thd_max_order: int = 40,
@@ -267,7 +275,7 @@ def iter_windows(
     has_v = bool(stream.has_voltage)
     chunks = stream.chunks(int(chunk_samples))
     buf_i = np.empty(0)
-    buf_v = np.empty(0) if has_v else None
+    buf_v = np.empty(0)  # stays empty without a voltage channel
     offset = 0  # absolute index of buf[0]
     exhausted = False
 
@@ -453,7 +461,7 @@ class _Quantiles:
                 r *= 2
             if self.R[col] > 0:
                 r = self.R[col] * 2.0 ** np.ceil(np.log2(r / self.R[col]))
-            self._grow(col, r)
+            self._grow(int(col), float(r))
         idx = np.floor((x + self.R) / (2 * self.R) * self.bins).astype(np.int64)
         np.clip(idx, 0, self.bins - 1, out=idx)
         flat = idx + np.arange(x.shape[1]) * self.bins
@@ -516,6 +524,7 @@ class WindowSummary:
             self._max = np.full(x.shape[1], -np.inf)
             self._min = np.full(x.shape[1], np.inf)
             self._q = _Quantiles(x.shape[1])
+        assert self._max is not None and self._min is not None  # set with _sum
         self._sum += x.sum(axis=0)
         self._max = np.maximum(self._max, x.max(axis=0))
         self._min = np.minimum(self._min, x.min(axis=0))
@@ -528,14 +537,18 @@ class WindowSummary:
 
     def _flush(self) -> None:
         if self._pending:
+            assert self._q is not None  # pending rows exist only after the first add()
             self._q.add(np.concatenate(self._pending, axis=0))
             self._pending, self._pending_rows = [], 0
 
-    def result(self) -> dict[str, dict[str, np.ndarray]]:
+    def result(self) -> dict[str, np.ndarray]:
         """``{"mean": ..., "max": ..., "min": ..., "p95": ...}`` arrays in column order."""
         if self.count == 0:
             raise InputError("no windows to summarise")
         self._flush()
+        # count > 0: add() has set every accumulator
+        assert self._sum is not None and self._max is not None and self._min is not None
+        assert self._q is not None
         return {
             "mean": self._sum / self.count,
             "max": self._max.copy(),
@@ -543,13 +556,13 @@ class WindowSummary:
             "p95": self._q.quantile(0.95, self._min, self._max),
         }
 
-    def to_dict(self) -> dict:
+    def to_dict(self) -> dict[str, Any]:
         """JSON form: per statistic, the scalars by name and the groups as lists."""
         r = self.result()
         ns = len(self.names) - self.orders * (2 if self.has_voltage else 1)
-        out = {"windows": self.count}
+        out: dict[str, Any] = {"windows": self.count}
         for stat, vals in r.items():
-            d = {}
+            d: dict[str, float | list[float]] = {}
             for k in range(ns):
                 name = self.names[k]
                 v = float(vals[k])
@@ -574,8 +587,9 @@ class WindowAnalysis:
     summary: WindowSummary
     windows: WindowBlock | None = None
 
-    def to_dict(self) -> dict:
-        d = {
+    def to_dict(self) -> dict[str, Any]:
+        """JSON form: source, window width, the summary and (when kept) the windows."""
+        d: dict[str, Any] = {
             "source": self.source,
             "sample_rate_hz": self.sample_rate_hz,
             "window_cycles": self.cycles,
@@ -588,8 +602,8 @@ class WindowAnalysis:
 
 
 def analyze_windows(
-    capture: str | os.PathLike | object,
-    options=None,
+    capture: str | os.PathLike[str] | CaptureStream,
+    options: CsvOptions | None = None,
     nominal_hz: float | None = None,
     max_order: int = 50,
     thd_max_order: int = 40,
@@ -605,9 +619,11 @@ def analyze_windows(
     """
     from .capture import open_capture
 
-    stream = capture
+    stream: CaptureStream
     if isinstance(capture, (str, os.PathLike)):
         stream = open_capture(capture, options)
+    else:
+        stream = capture
     summ = WindowSummary()
     kept: list[WindowBlock] = []
     cycles = 0
@@ -624,7 +640,8 @@ def analyze_windows(
 
 
 def blocks_from_arrays(current_a: np.ndarray, sample_rate_hz: float,
-                       voltage_v: np.ndarray | None = None, source: str = "<array>"):
+                       voltage_v: np.ndarray | None = None, source: str = "<array>"
+                       ) -> CaptureStream:
     """A stream over arrays already in memory (for notebooks and tests)."""
     return _ArrayStream(np.asarray(current_a, float), float(sample_rate_hz),
                         None if voltage_v is None else np.asarray(voltage_v, float), source)
@@ -641,7 +658,7 @@ class _ArrayStream:
     def has_voltage(self) -> bool:
         return self.voltage_v is not None
 
-    def chunks(self, size: int) -> Iterable[tuple[np.ndarray, np.ndarray | None]]:
+    def chunks(self, size: int) -> Iterator[tuple[np.ndarray, np.ndarray | None]]:
         for k in range(0, self.current_a.size, size):
             yield (self.current_a[k : k + size],
                    None if self.voltage_v is None else self.voltage_v[k : k + size])

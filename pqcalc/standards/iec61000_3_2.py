@@ -37,7 +37,7 @@ from ..errors import InputError
 from ..metrics import power_factor, thd
 from ..spectrum import Spectrum, spectrum
 from ..waveform import Waveform
-from .limits import OrderTable, SmallLightingLimits, WaveformTestLimits, load_limits
+from .limits import OrderLimit, OrderTable, SmallLightingLimits, WaveformTestLimits, load_limits
 from .results import CAUTION, Check, FixtureResult, RuleResult
 
 __all__ = [
@@ -148,7 +148,7 @@ def _order_checks(
         i_h = float(abs(s.current_a[h]))
         value = i_h if unit == "A" else i_h / s.i1_a
         checks.append(Check(f"I{h}", h, value, float(lim), unit, "max", i_h < level))
-    notes = ()
+    notes: tuple[str, ...] = ()
     if missing:
         notes = (f"orders {min(missing)} to {max(missing)} are above the spectrum's highest "
                  f"order ({s.max_order}) and were not checked",)
@@ -160,22 +160,36 @@ def _table_rule(rule: str, table: OrderTable, s: Spectrum, pf: float, disregard_
     unit = "fraction of I1" if table.relative else "A"
     if table.relative:
         _check_fundamental(s)
-    lims = [(x.order, x.value_at(pf)) for x in table.limits if x.limit is not None]
+    lims = [(x.order, lim) for x in table.limits if (lim := x.value_at(pf)) is not None]
     checks, notes = _order_checks(s, lims, unit, disregard_small)
     if any(x.certainty != "seen" for x in table.limits):
         notes += ("some limits of this table rest on memory",)
     return RuleResult(rule, table.source.citation(), checks, True, extra_notes + notes)
 
 
+def _order_table(key: str) -> OrderTable:
+    t = load_limits(key)
+    assert isinstance(t, OrderTable), key  # the per-order tables of this standard
+    return t
+
+
+def _needed(value: float | None, x: OrderLimit, table: OrderTable, what: str) -> float:
+    """A column a rule needs, or a message naming the limit file and the order."""
+    if value is None:
+        raise InputError(f"standards_limits/{table.source.file}: order {x.order}: expected "
+                         f"{what}, found none")
+    return value
+
+
 # ---------------------------------------------------------------------------- classes
 def evaluate_class_a(s: Spectrum, *, disregard_small: bool = True) -> RuleResult:
     """Class A: absolute limits per order [A] (IEC 61000-3-2:2018, Table 1)."""
-    return _table_rule("class A", load_limits("iec61000-3-2:class-a"), s, 1.0, disregard_small)
+    return _table_rule("class A", _order_table("iec61000-3-2:class-a"), s, 1.0, disregard_small)
 
 
 def evaluate_class_b(s: Spectrum, *, disregard_small: bool = True) -> RuleResult:
     """Class B: 1.5 times the Class A limits [A] (IEC 61000-3-2:2018, 7.2)."""
-    return _table_rule("class B", load_limits("iec61000-3-2:class-b"), s, 1.0, disregard_small)
+    return _table_rule("class B", _order_table("iec61000-3-2:class-b"), s, 1.0, disregard_small)
 
 
 def evaluate_class_c(s: Spectrum, pf: float, *, disregard_small: bool = True) -> RuleResult:
@@ -193,7 +207,7 @@ def evaluate_class_c(s: Spectrum, pf: float, *, disregard_small: bool = True) ->
     IEC 61000-3-2:2018, Table 2.
     """
     pf = _check_pf(pf)
-    return _table_rule("class C (> 25 W)", load_limits("iec61000-3-2:class-c"), s, pf,
+    return _table_rule("class C (> 25 W)", _order_table("iec61000-3-2:class-c"), s, pf,
                        disregard_small)
 
 
@@ -205,9 +219,10 @@ def evaluate_class_d(s: Spectrum, p_w: float, *, disregard_small: bool = True) -
     IEC 61000-3-2:2018, Table 3, columns 2 and 3.
     """
     p = _check_power(p_w)
-    t = load_limits("iec61000-3-2:class-d")
-    assert isinstance(t, OrderTable)
-    lims = [(x.order, min(x.per_watt_a_w * p, x.limit)) for x in t.limits]
+    t = _order_table("iec61000-3-2:class-d")
+    lims = [(x.order, min(_needed(x.per_watt_a_w, x, t, "a per-watt limit [A/W]") * p,
+                          _needed(x.limit, x, t, "an absolute limit [A]")))
+            for x in t.limits]
     checks, notes = _order_checks(s, lims, "A", disregard_small)
     if p <= 75.0 or p > 600.0:
         notes += (f"Class D covers equipment above 75 W and up to 600 W (from memory); "
@@ -230,7 +245,8 @@ def evaluate_option_a(s: Spectrum, p_w: float, *, disregard_small: bool = True) 
     """
     p = _check_power(p_w)
     t = _small().option_a
-    lims = [(x.order, x.per_watt_a_w * p) for x in t.limits]
+    lims = [(x.order, _needed(x.per_watt_a_w, x, t, "a per-watt limit [A/W]") * p)
+            for x in t.limits]
     checks, notes = _order_checks(s, lims, "A", disregard_small)
     return RuleResult("option a", t.source.citation(), checks, True, notes)
 
@@ -540,6 +556,8 @@ def _dimmed_rule(at_max: RuleResult, s_max: Spectrum, s: Spectrum,
     """The rule of the maximum-power state turned into absolute limits [A]."""
     lims = []
     for c in at_max.order_checks():
+        if c.order is None:  # order_checks() holds orders only; this narrows the type
+            continue
         lims.append((c.order, c.limit * s_max.i1_a if c.unit == "fraction of I1" else c.limit))
     checks, notes = _order_checks(s, lims, "A", disregard_small)
     if any(c.order is None for c in at_max.checks):
@@ -591,10 +609,10 @@ def evaluate_dimmable(
     kmax = max(range(len(prepared)), key=lambda k: prepared[k][3])
     label, s_max, w_max, p_max, pf_max = prepared[kmax]
     fixture = fixture or s_max.label
-    kw = dict(nominal_voltage_v=nominal_voltage_v, outside_scope=outside_scope,
-              disregard_small=disregard_small)
     top = evaluate_fixture(w_max if w_max is not None else s_max, p_max, pf_max,
-                           equipment_class, fixture=fixture, setting=label, **kw)
+                           equipment_class, fixture=fixture, setting=label,
+                           nominal_voltage_v=nominal_voltage_v, outside_scope=outside_scope,
+                           disregard_small=disregard_small)
     results = [top]
     notes = [DIMMED_RULE_NOTE, f"maximum power state: {label} at {p_max:.4g} W"]
     base_rules = [r for r in top.rules if r.verdict == "pass"] or [

@@ -16,15 +16,17 @@ from __future__ import annotations
 import functools
 import math
 import re
+import sys
+from collections.abc import Callable
 from dataclasses import dataclass
 from importlib import resources
 from typing import Literal
 
 from ..errors import InputError
 
-try:  # Python 3.11+
+if sys.version_info >= (3, 11):
     import tomllib
-except ModuleNotFoundError:  # pragma: no cover - Python 3.10
+else:  # pragma: no cover - Python 3.10
     import tomli as tomllib
 
 __all__ = [
@@ -410,7 +412,7 @@ def _voltage_distortion(key: str, fname: str, d: dict) -> VoltageDistortionLimit
     return VoltageDistortionLimits(src, rows, int(d["source"]["thd_max_order"]))
 
 
-_READERS = {
+_READERS: dict[str, Callable[[str, str, dict], LimitData]] = {
     "per-order": _order_table,
     "small-lighting": _small_lighting,
     "isc-il-bands": _current_distortion,
