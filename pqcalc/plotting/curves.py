@@ -6,6 +6,7 @@ from collections.abc import Mapping, Sequence
 from typing import TYPE_CHECKING, Literal
 
 import numpy as np
+import numpy.typing as npt
 
 from ..errors import InputError
 from ..waveform import Waveform
@@ -40,7 +41,7 @@ def _fundamental_phase_rad(x: np.ndarray, cycles: int) -> float:
     return float(np.angle(c)) + np.pi / 2
 
 
-def cut_intervals_deg(angle_deg, v, threshold: float = 0.03,
+def cut_intervals_deg(angle_deg: npt.ArrayLike, v: npt.ArrayLike, threshold: float = 0.03,
                       min_width_deg: float = 2.0) -> list[tuple[float, float]]:
     """Angle intervals where a phase-cut voltage is held near zero by the dimmer [deg].
 
@@ -98,7 +99,7 @@ def waveform_figure(
     if not (isinstance(cycles, (int, np.integer)) and 1 <= cycles <= waveform.cycles):
         raise InputError(f"cycles: expected a whole number 1..{waveform.cycles} (the record "
                          f"holds {waveform.cycles}), got {cycles!r}")
-    ref = waveform.voltage_v if waveform.has_voltage else waveform.current_a
+    ref = waveform.voltage_v if waveform.voltage_v is not None else waveform.current_a
     if not np.any(ref):
         raise InputError("waveform: the reference channel is all zeros; no phase origin")
     spc = waveform.samples_per_cycle
@@ -156,11 +157,11 @@ def waveform_figure(
 
 # ---------------------------------------------------------------------- dimming curves
 def dimming_curve_figure(
-    settings,
-    light,
-    power_w,
-    thd,
-    pf,
+    settings: npt.ArrayLike,
+    light: npt.ArrayLike,
+    power_w: npt.ArrayLike,
+    thd: npt.ArrayLike,
+    pf: npt.ArrayLike,
     setting_label: str = "dimmer setting [%]",
     thd_max_order: int = 40,
     title: str | None = None,
@@ -287,7 +288,7 @@ def panel_figure(
                                  label="triplen orders in the neutral (rms)"))
             del inner
         for xi, val in zip(x, vals, strict=True):
-            ax.text(xi, val + 0.015 * top, f"{val:.3g} A", ha="center", va="bottom", fontsize=8)
+            ax.text(float(xi), val + 0.015 * top, f"{val:.3g} A", ha="center", va="bottom", fontsize=8)
         ax.set_xticks(x, names)
         ax.grid(False, axis="x")
         ax.set_xlabel("conductor")
@@ -306,8 +307,8 @@ def panel_figure(
 
 # ---------------------------------------------------------------------- light output
 def light_figure(
-    time_or_angle,
-    light_rel,
+    time_or_angle: npt.ArrayLike,
+    light_rel: npt.ArrayLike,
     percent_flicker: float,
     flicker_index: float,
     freq_hz: float,

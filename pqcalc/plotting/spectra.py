@@ -5,9 +5,10 @@ from __future__ import annotations
 import textwrap
 from collections.abc import Collection, Mapping
 from dataclasses import dataclass
-from typing import TYPE_CHECKING, get_args
+from typing import TYPE_CHECKING, Any, TypeAlias, get_args
 
 import numpy as np
+import numpy.typing as npt
 
 from ..errors import InputError
 from ..spectrum import Spectrum
@@ -26,13 +27,20 @@ from .style import (
 )
 
 if TYPE_CHECKING:
+    import xarray as xr
     from matplotlib.figure import Figure
 
+    from ..standards.results import FixtureResult, RuleResult
+
 __all__ = ["order_magnitudes", "exceeding_orders", "LimitMarks", "limit_marks",
-           "spectrum_figure", "neutral_spectrum_figure"]
+           "spectrum_figure", "neutral_spectrum_figure", "OrderSeries"]
+
+#: The spectrum forms the figures take: a Spectrum (its current), a DataArray over the one
+#: dimension ``order``, a mapping order -> value, or values indexed by order (index 0 = DC).
+OrderSeries: TypeAlias = "Spectrum | xr.DataArray | Mapping[int, complex] | npt.ArrayLike"
 
 
-def order_magnitudes(x, name: str = "spectrum") -> tuple[np.ndarray, np.ndarray]:
+def order_magnitudes(x: OrderSeries, name: str = "spectrum") -> tuple[np.ndarray, np.ndarray]:
     """Harmonic orders and RMS magnitudes from any of pqcalc's spectrum forms.
 
     ``x`` is a :class:`~pqcalc.spectrum.Spectrum` (its current), a one-dimensional
@@ -46,12 +54,13 @@ def order_magnitudes(x, name: str = "spectrum") -> tuple[np.ndarray, np.ndarray]
     """
     if isinstance(x, Spectrum):
         return x.orders.astype(int), x.i_h_a.astype(float)
-    if hasattr(x, "dims") and hasattr(x, "coords"):  # xarray.DataArray
-        if tuple(x.dims) != ("order",):
+    if hasattr(x, "dims") and hasattr(x, "coords"):  # xarray.DataArray, or alike
+        da: Any = x
+        if tuple(da.dims) != ("order",):
             raise InputError(f"{name}: expected a DataArray over the single dimension 'order', "
-                             f"got dimensions {tuple(x.dims)}")
-        orders = np.asarray(x["order"].values)
-        vals = np.abs(np.asarray(x.values))
+                             f"got dimensions {tuple(da.dims)}")
+        orders = np.asarray(da["order"].values)
+        vals = np.abs(np.asarray(da.values))
     elif isinstance(x, Mapping):
         orders = np.array(sorted(x), dtype=float)
         vals = np.abs(np.array([x[k] for k in sorted(x)], dtype=complex))
@@ -69,7 +78,8 @@ def order_magnitudes(x, name: str = "spectrum") -> tuple[np.ndarray, np.ndarray]
     return orders[o].astype(int), vals[o]
 
 
-def exceeding_orders(orders, values, limits: Mapping[int, float] | None) -> np.ndarray:
+def exceeding_orders(orders: npt.ArrayLike, values: npt.ArrayLike,
+                     limits: Mapping[int, float | None] | None) -> np.ndarray:
     """Boolean mask: which ``values`` lie strictly above the limit of their order.
 
     Orders absent from ``limits`` (or mapped to ``None``/NaN) have no limit and never exceed.
@@ -112,7 +122,8 @@ class LimitMarks:
     disregarded: tuple[int, ...] = ()
 
 
-def limit_marks(result, i1_a: float, unit: SpectrumUnit = "pct") -> LimitMarks:
+def limit_marks(result: FixtureResult | RuleResult, i1_a: float, unit: SpectrumUnit = "pct"
+                ) -> LimitMarks:
     """The per-order limits of a compliance result, in the unit of a spectrum figure.
 
     Parameters
@@ -137,6 +148,8 @@ def limit_marks(result, i1_a: float, unit: SpectrumUnit = "pct") -> LimitMarks:
         return LimitMarks({}, unit, str(getattr(result, "rule", "no limits")))
     limits, skip = {}, []
     for c in rule.order_checks():
+        if c.order is None:  # order_checks() holds orders only; this narrows the type
+            continue
         if c.unit == "A":
             lim = c.limit if unit == "A" else 100.0 * c.limit / i1_a
         elif c.unit == "fraction of I1":
@@ -217,7 +230,7 @@ def _draw_limit_marks(ax, orders, limits: Mapping[int, float], width: float, lab
 
 # ---------------------------------------------------------------------- spectra
 def spectrum_figure(
-    spectrum,
+    spectrum: OrderSeries,
     limits: Mapping[int, float] | None = None,
     unit: SpectrumUnit = "A",
     log: bool = False,
@@ -337,7 +350,7 @@ def _title(base: str, obj) -> str:
 
 
 def neutral_spectrum_figure(
-    spectrum_or_magnitudes,
+    spectrum_or_magnitudes: OrderSeries,
     max_order: int = 40,
     log: bool = False,
     title: str | None = None,

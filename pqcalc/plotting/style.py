@@ -11,9 +11,10 @@ from __future__ import annotations
 
 import functools
 import io
+import os
 from pathlib import Path
 from types import SimpleNamespace
-from typing import TYPE_CHECKING, Literal
+from typing import TYPE_CHECKING, Any, Literal
 
 import numpy as np
 from cycler import cycler
@@ -103,7 +104,7 @@ def _mpl() -> SimpleNamespace:
                            MaxNLocator=MaxNLocator, MultipleLocator=MultipleLocator)
 
 
-def new_figure(figsize: tuple[float, float] | None = None, **kw) -> Figure:
+def new_figure(figsize: tuple[float, float] | None = None, **kw: Any) -> Figure:
     """A blank :class:`~matplotlib.figure.Figure` in the house style (constrained layout)."""
     with _mpl().rc_context(STYLE):
         return _mpl().Figure(figsize=figsize or STYLE["figure.figsize"], layout="constrained",
@@ -127,8 +128,12 @@ def _legend_below(fig: Figure, handles) -> None:
 
 
 def _caution(fig: Figure) -> None:
+    from matplotlib.layout_engine import ConstrainedLayoutEngine
+
+    engine = fig.get_layout_engine()
+    assert isinstance(engine, ConstrainedLayoutEngine)  # new_figure() makes every figure
     with _mpl().rc_context(STYLE):
-        fig.get_layout_engine().set(h_pad=0.06)
+        engine.set(h_pad=0.06)
         fig.supxlabel(CAUTION, fontsize=6.5, color="#555555", x=0.01, ha="left")
 
 
@@ -148,7 +153,7 @@ def _finite(a, name: str, allow_nan: bool = False) -> np.ndarray:
 
 
 # ---------------------------------------------------------------------- output
-def save_figure(fig: Figure, path, dpi: float | None = None) -> Path:
+def save_figure(fig: Figure, path: str | os.PathLike[str], dpi: float | None = None) -> Path:
     """Write ``fig`` to ``path`` as PNG, SVG or PDF (by suffix), atomically.
 
     The figure is rendered in memory first, then written through a temporary file in the

@@ -7,7 +7,7 @@ import io
 import textwrap
 from collections.abc import Iterable, Sequence
 from dataclasses import dataclass
-from typing import TYPE_CHECKING
+from typing import TYPE_CHECKING, Any, SupportsFloat
 
 import numpy as np
 
@@ -54,7 +54,8 @@ class Doc:
     def new_page(self) -> None:
         from matplotlib.figure import Figure
 
-        fig = Figure(figsize=A4_IN, layout="none")
+        # "none" (no layout engine) is documented by matplotlib but missing from its stubs
+        fig = Figure(figsize=A4_IN, layout="none")  # type: ignore[arg-type]
         fig.patch.set_facecolor("white")
         self.pages.append(fig)
         self.y = A4_IN[1] - _TOP
@@ -70,11 +71,13 @@ class Doc:
             return True
         return False
 
-    def text(self, x_in, y_in, s, size=9.0, weight="normal", color=_INK, ha="left", **kw):
+    def text(self, x_in: float, y_in: float, s: str, size: float = 9.0, weight: str = "normal",
+             color: str = _INK, ha: str = "left", **kw: Any) -> None:
         self.fig.text(x_in / A4_IN[0], y_in / A4_IN[1], s, fontsize=size, fontweight=weight,
                       color=color, ha=ha, va="top", family="DejaVu Sans", **kw)
 
-    def rule(self, y_in, x0=_LEFT, x1=A4_IN[0] - _RIGHT, color=_RULE, lw=0.6):
+    def rule(self, y_in: float, x0: float = _LEFT, x1: float = A4_IN[0] - _RIGHT,
+             color: str = _RULE, lw: float = 0.6) -> None:
         from matplotlib.lines import Line2D
 
         self.fig.add_artist(Line2D([x0 / A4_IN[0], x1 / A4_IN[0]], [y_in / A4_IN[1]] * 2,
@@ -98,8 +101,8 @@ class Doc:
             self.rule(self.y + 0.06, color=_INK, lw=0.9)
             self.y -= 0.08
 
-    def para(self, s: str, size: float = 9.0, color=_INK, indent_in: float = 0.0,
-             weight="normal", gap_in: float = 0.06) -> None:
+    def para(self, s: str, size: float = 9.0, color: str = _INK, indent_in: float = 0.0,
+             weight: str = "normal", gap_in: float = 0.06) -> None:
         lh = size / 72 * 1.35
         for line in _wrap(s, _chars(_WIDTH - indent_in, size)):
             self.need(lh)
@@ -107,7 +110,7 @@ class Doc:
             self.y -= lh
         self.y -= gap_in
 
-    def bullets(self, items: Iterable[str], size: float = 9.0, color=_INK) -> None:
+    def bullets(self, items: Iterable[str], size: float = 9.0, color: str = _INK) -> None:
         lh = size / 72 * 1.35
         for it in items:
             lines = _wrap(it, _chars(_WIDTH - 0.2, size))
@@ -207,8 +210,8 @@ class Doc:
         self.need(h + cap_h + head_h + keep_with_in)
         if heading:
             self.heading(heading, level=3)
-        ax = self.fig.add_axes([(_LEFT + (_WIDTH - w) / 2) / A4_IN[0], (self.y - h) / A4_IN[1],
-                                w / A4_IN[0], h / A4_IN[1]])
+        ax = self.fig.add_axes(((_LEFT + (_WIDTH - w) / 2) / A4_IN[0], (self.y - h) / A4_IN[1],
+                                w / A4_IN[0], h / A4_IN[1]))
         ax.imshow(img, interpolation="none")  # embedded at its own 200 dpi
         ax.set_axis_off()
         self.y -= h + 0.05
@@ -231,7 +234,7 @@ class Doc:
                      color=_GREY, va="top", family="DejaVu Sans")
 
     @staticmethod
-    def fig_rule(fig, y_in):
+    def fig_rule(fig: Figure, y_in: float) -> None:
         from matplotlib.lines import Line2D
 
         fig.add_artist(Line2D([_LEFT / A4_IN[0], 1 - _RIGHT / A4_IN[0]], [y_in / A4_IN[1]] * 2,
@@ -246,12 +249,14 @@ def _wrap(s: str, width: int) -> list[str]:
     return out
 
 
-def fmt_num(x, spec=".2f", none="-") -> str:
+def fmt_num(x: SupportsFloat | None, spec: str = ".2f", none: str = "-") -> str:
+    """``x`` formatted by ``spec``; ``none`` for None or a value that is not finite."""
     if x is None:
         return none
-    x = float(x)
-    return none if not np.isfinite(x) else format(x, spec)
+    v = float(x)
+    return none if not np.isfinite(v) else format(v, spec)
 
 
-def fmt_pct(x, spec=".1f") -> str:
+def fmt_pct(x: SupportsFloat | None, spec: str = ".1f") -> str:
+    """A fraction [-] as percent by ``spec`` (without the sign); "-" for None."""
     return "-" if x is None else format(100 * float(x), spec)

@@ -60,8 +60,8 @@ def cover(doc: Doc, a: Assessment, version: str, generated: str, n_lineup: int) 
     doc.y -= 0.4
     doc.text(0.75, doc.y, "Contents", size=12, weight="bold")
     doc.y -= 0.3
-    for k, t in enumerate(SECTION_TITLES, 1):
-        doc.text(0.95, doc.y, f"{k}.  {t}", size=10)
+    for n, t in enumerate(SECTION_TITLES, 1):
+        doc.text(0.95, doc.y, f"{n}.  {t}", size=10)
         doc.y -= 0.22
     doc.y -= 0.4
     doc.para("The figures in this report support, and never replace, the local electrical "
@@ -92,7 +92,7 @@ def _findings(a: Assessment) -> list[tuple[str, str, str, str]]:
                 key = (c.status, where, c.name)
                 seen.setdefault(key, []).append(sc.name)
                 msg.setdefault(key, c.message)
-    out = []
+    out: list[tuple[str, str, str, str]] = []
     for key, scen in seen.items():
         which = "all scenarios" if len(scen) == len(a.scenarios) and len(scen) > 1 else \
             ", ".join(scen)
@@ -101,7 +101,8 @@ def _findings(a: Assessment) -> list[tuple[str, str, str, str]]:
     return out
 
 
-def summary(doc: Doc, a: Assessment, lineup: Sequence[LineupEntry], lineup_notes) -> None:
+def summary(doc: Doc, a: Assessment, lineup: Sequence[LineupEntry],
+            lineup_notes: Sequence[str]) -> None:
     doc.heading(SECTION_TITLES[0], new_page=True)
     n_fail = sum(c.status == "fail" for s in a.scenarios for c in s.all_checks())
     n_warn = sum(c.status == "warn" for s in a.scenarios for c in s.all_checks())
@@ -333,17 +334,17 @@ def assumptions(doc: Doc, a: Assessment, version: str) -> None:
     doc.table([Col("item", 2.0, wrap=True), Col("value", 4.8, wrap=True)], rows,
               title="Supply and analysis")
     frows = []
-    for fid, f in inst.fixtures.items():
-        if f.measured:
-            kind = f"measured: {f.capture}"
+    for fid, ft in inst.fixtures.items():
+        if ft.measured:
+            kind = f"measured: {ft.capture}"
         else:
-            kind = f"model {f.model}"
-        params = ", ".join(f"{k} = {v:g}" for k, v in f.params) or "model defaults"
-        if f.measured:
+            kind = f"model {ft.model}"
+        params = ", ".join(f"{k} = {v:g}" for k, v in ft.params) or "model defaults"
+        if ft.measured:
             params = "as recorded"
-        frows.append((fid, kind, fmt_num(f.power_w, "g"),
-                      f"{f.min_conduction_deg:g}..{f.max_conduction_deg:g}", params,
-                      f.description))
+        frows.append((fid, kind, fmt_num(ft.power_w, "g"),
+                      f"{ft.min_conduction_deg:g}..{ft.max_conduction_deg:g}", params,
+                      ft.description))
     doc.table([Col("fixture type", 1.3, wrap=True), Col("source", 1.6, wrap=True), Col("P [W]", 0.5, "right"),
                Col("conduction [deg]", 0.8), Col("parameters (SI)", 1.5, wrap=True),
                Col("description", 1.4, wrap=True)], frows, title="Fixture types")
