@@ -28,9 +28,9 @@ from typing import Literal, get_args
 import numpy as np
 
 from ..errors import ConvergenceError, InputError
-from ..waveform import Waveform
 from .dimmers import SWITCH, build_dimmer, conduction_from_knob, resolve_dimmer
 from .drivers import ConverterUVLO, TapLevels, build_group, dim_fraction, resolve_params
+from .exact import MAX_ORDER, Figures, SolvedWaveform, corrected_samples, expand, figures
 from .network import CH_ONE, CH_SOURCE, Network
 from .pwl import Engine, Source
 from .spec import DimmerSpec, LoadGroup, Supply
@@ -95,7 +95,7 @@ class GroupResult:
 
     group: LoadGroup
     params: tuple[tuple[str, float | None], ...]
-    waveform: Waveform  # current of ONE lamp and the line voltage
+    waveform: SolvedWaveform  # current of ONE lamp and the line voltage (see its figures)
     led_current_a: np.ndarray  # LED current of one lamp [A]
     light: np.ndarray = _Deferred()  # relative light output, 1.0 = rated full output [-]
     stresses: Stresses
@@ -109,15 +109,39 @@ class GroupResult:
         return float(np.mean(self.light))
 
     @property
+    def figures(self) -> Figures:
+        """Exact figures of one lamp's current (phasors, rms, power, peak)."""
+        assert self.waveform.figures is not None
+        return self.waveform.figures
+
+    @property
+    def current_phasors_a(self) -> np.ndarray:
+        """RMS phasors of one lamp's current, orders 0..50 [A] (exact; the convention of
+        :mod:`pqcalc.spectrum`, on the line voltage's fundamental)."""
+        return self.figures.current_phasors_a
+
+    @property
+    def i_rms_a(self) -> float:
+        """RMS input current of one lamp [A] (exact)."""
+        return self.figures.i_rms_a
+
+    @property
     def p_w(self) -> float:
-        return float(self.waveform.p_w)
+        """Mean input power of one lamp at the line voltage [W] (exact)."""
+        return self.figures.p_w
 
 
 @dataclass(frozen=True)
 class Solution:
-    """Periodic steady state of one (supply, dimmer, loads) case."""
+    """Periodic steady state of one (supply, dimmer, loads) case.
 
-    waveform: Waveform  # total input current and the voltage at the dimmer's line terminal
+    The figures (``current_phasors_a``, ``i_rms_a``, ``p_w``, ``i_peak_a``, :meth:`spectrum`)
+    are integrated exactly over the piecewise solution (:mod:`pqcalc.circuits.exact`); the
+    ``waveform`` is a sampled copy for plots and CSV whose DFT at orders 0..50, rms and
+    power agree with them (see :class:`~pqcalc.circuits.exact.SolvedWaveform`).
+    """
+
+    waveform: SolvedWaveform  # total input current and the voltage at the dimmer's line terminal
     groups: tuple[GroupResult, ...]
     flags: tuple[str, ...]
     period_cycles: int
@@ -126,6 +150,42 @@ class Solution:
     conduction_deg: tuple[float, ...]  # measured conduction of each half cycle [deg]
     firings: tuple[int, ...]  # trigger events per half cycle (leading-edge triac)
     dimmer_p: tuple[tuple[str, float], ...] = ()
+
+    @property
+    def figures(self) -> Figures:
+        """Exact figures of the total input current against the line voltage."""
+        assert self.waveform.figures is not None
+        return self.waveform.figures
+
+    @property
+    def current_phasors_a(self) -> np.ndarray:
+        """RMS phasors of the total input current, orders 0..50 [A] (exact; the convention
+        of :mod:`pqcalc.spectrum`, on the line voltage's fundamental)."""
+        return self.figures.current_phasors_a
+
+    @property
+    def voltage_phasors_v(self) -> np.ndarray:
+        """RMS phasors of the line voltage at the dimmer, orders 0..50 [V] (exact)."""
+        return self.figures.voltage_phasors_v
+
+    @property
+    def i_rms_a(self) -> float:
+        """RMS of the total input current [A] (exact)."""
+        return self.figures.i_rms_a
+
+    @property
+    def p_w(self) -> float:
+        """Mean power into the dimmer and its lamps [W] (exact)."""
+        return self.figures.p_w
+
+    @property
+    def i_peak_a(self) -> float:
+        """Largest absolute total input current [A] (exact, not a sample)."""
+        return self.figures.i_peak_a
+
+    def spectrum(self, max_order: int = MAX_ORDER):
+        """The exact figures as a :class:`pqcalc.spectrum.Spectrum` (orders 0..max_order)."""
+        return self.figures.spectrum(max_order, self.waveform.label)
 
 
 # ---------------------------------------------------------------------- building
@@ -545,34 +605,44 @@ def _detected(tr, eng: Engine, cycles: int, dimmer: DimmerSpec, on_deg) -> list[
 
 
 def _input_power(case, tr, b, period) -> float:
-    """Mean input power of one lamp of group ``b`` at the dimmer's output [W]."""
-    eng = case.eng
-    ts = np.arange(1024 * period) / (1024 * eng.src.frequency_hz)
-    Y, _ = eng.sample(tr, ts, [(b.sense, "i"), ("R_vline", "v"), (SWITCH, "v")])
-    return float(np.mean(Y[0] * (Y[1] - Y[2]))) / b.m
+    """Mean input power of one lamp of group ``b`` at the dimmer's output [W] (exact)."""
+    net = case.eng.net
+    ex = expand(case.eng, tr, [net.index[b.sense], net.n_e + net.index["R_vline"],
+                               net.n_e + net.index[SWITCH]])
+    return (ex.mean_product(0, 1) - ex.mean_product(0, 2)) / b.m
 
 
 def _assemble(supply, dimmer, dp, loads, gparams, levels, case, tr, period, iters, ok, spc,
               extras, measured, fires, nolatch, cond_set, reference) -> Solution:
     eng = case.eng
+    net = eng.net
     f = supply.frequency_hz
     n = spc * period
     ts = np.arange(n) / (spc * f)
-    outs = [("A_line", "i"), ("R_vline", "v")]
+    # point samples: the light and the LED current (plots of what the lamp does)
+    outs = []
     for b in case.builds:
-        outs.append((b.sense, "i"))
         if b.led:
             outs.append((b.led, "i"))
             outs.append((b.led, "v"))
-        outs += [(c, "i") for c in b.caps]
         outs += [(r, "i") for r in b.resistors]
         outs += [(r, "v") for r in b.resistors]
-    Y, X = eng.sample(tr, ts, outs)
+    outs = list(dict.fromkeys(outs))
+    Y, _ = eng.sample(tr, ts, outs) if outs else (np.zeros((0, n)), None)
     col = {o: i for i, o in enumerate(outs)}
     seg_state = _segment_states(tr, ts)
     fs = spc * f
-    vline = Y[col[("A_line", "i")] + 1]
-    wf = Waveform(Y[col[("A_line", "i")]], fs, f, vline, period, label="dimmer input")
+    # exact figures: the line current, the line voltage and each group's current, their
+    # phasors and cell means (the waveforms); capacitor currents and resistor power
+    wave_rows = [net.index["A_line"], net.n_e + net.index["R_vline"]] + \
+        [net.index[b.sense] for b in case.builds]
+    ex = expand(eng, tr, wave_rows)
+    coef = ex.fourier(eng.src.omega, MAX_ORDER)
+    means = corrected_samples(ex.cell_means(n), coef, period)
+    vline = means[1]
+    v_peak = ex.peak(1)
+    fig = figures(ex, 0, 1, coef[1], coef[0], f, v_peak)
+    wf = SolvedWaveform(means[0], fs, f, vline, period, label="dimmer input", figures=fig)
     flags = set()
     if period > 1:
         flags.add("subharmonic")
@@ -593,20 +663,24 @@ def _assemble(supply, dimmer, dp, loads, gparams, levels, case, tr, period, iter
     groups = []
     for k, (b, g, p) in enumerate(zip(case.builds, loads, gparams, strict=True)):
         m = b.m
-        i1 = Y[col[(b.sense, "i")]] / m
-        gw = Waveform(i1, fs, f, vline, period, label=f"{g.model} {g.power_w:g} W")
+        gfig = figures(ex, 2 + k, 1, coef[1], coef[2 + k], f, v_peak, scale=1.0 / m)
+        gw = SolvedWaveform(means[2 + k] / m, fs, f, vline, period,
+                            label=f"{g.model} {g.power_w:g} W", figures=gfig)
         # extras=False: the light's normalisation (a reference solve) waits until it is
         # read, except when the glow-when-off flag needs it now
         led, light = _light(case, b, g, p, Y, col, seg_state, ts, supply, period, levels[k],
                             reference, deferred=not extras and not dimmer_off)
+        srows = [net.index[c] for c in b.caps] + [net.index[r] for r in b.resistors] + \
+            [net.n_e + net.index[r] for r in b.resistors]
+        sx = expand(eng, tr, srows) if srows else None
+        nc, nr = len(b.caps), len(b.resistors)
         caps = tuple((c.removeprefix(b.prefix),
-                      float(np.sqrt(np.mean((Y[col[(c, "i")]] / m) ** 2))))
-                     for c in b.caps)
-        res = tuple((r.removeprefix(b.prefix),
-                     float(np.mean(Y[col[(r, "i")]] * Y[col[(r, "v")]]) / m))
-                    for r in b.resistors)
+                      float(np.sqrt(max(sx.mean_product(j, j), 0.0))) / m)
+                     for j, c in enumerate(b.caps)) if sx else ()
+        res = tuple((r.removeprefix(b.prefix), sx.mean_product(nc + j, nc + nr + j) / m)
+                    for j, r in enumerate(b.resistors)) if sx else ()
         inrush = _inrush(supply, dimmer, dp, loads, gparams, levels, k) if extras else None
-        st = Stresses(float(np.max(np.abs(i1))), inrush, caps, res)
+        st = Stresses(gfig.i_peak_a, inrush, caps, res)
         if "conv" in b.extra:
             ia = [i for i, a in enumerate(eng.automata) if isinstance(a, ConverterUVLO)
                   and a.el == b.extra["conv"]][0]
@@ -617,7 +691,8 @@ def _assemble(supply, dimmer, dp, loads, gparams, levels, case, tr, period, iter
             flags.add("glow-when-off")
         pub = tuple((kk, v) for kk, v in p.items() if not kk.startswith("_"))
         groups.append(GroupResult(g, pub, gw, led, light, st))
-    for arr in [wf.current_a] + [gr.led_current_a for gr in groups] + \
+    for arr in [wf.current_a, coef, np.array([fig.i_rms_a, fig.p_w, fig.i_peak_a])] + \
+            [gr.led_current_a for gr in groups] + \
             [gr.__dict__["_deferred_light"] for gr in groups
              if not callable(gr.__dict__["_deferred_light"])]:
         if not np.all(np.isfinite(arr)):

@@ -39,7 +39,7 @@ STEP_S = 2e-6
 class Case:
     """One reference case: a lamp circuit behind an ideal phase cut."""
 
-    model: str  # resistive | bulk-cap | dropper
+    model: str  # resistive | bulk-cap | bulk-cap-cp | dropper | sine-follow
     v_rms: float
     f_hz: float
     kind: str  # leading-edge | trailing-edge
@@ -60,6 +60,10 @@ class Case:
         from the initial condition below (checked by comparing the last two cycles)."""
         if self.model == "dropper":
             return 6
+        if self.model == "sine-follow":
+            # C_in is recharged to the line voltage at every firing and discharged by the
+            # regulator down to its first tap every half cycle: little memory between cycles
+            return 4
         return {"resistive": 2, "bulk-cap": 4 if self.v_rms > 200 else 8,
                 "bulk-cap-cp": 8}[self.model]
 
@@ -76,11 +80,39 @@ LOADS = {
 }
 #: power of the constant-power converter of ``bulk-cap-cp`` [W]
 CP_POWER_W = 9.0
+#: rated power of the sine-following lamp of the reference cases [W]; its parts are the
+#: model's own defaults at that power (``pqcalc.circuits.model_params``)
+SF_POWER_W = 10.0
+
+
+def sine_follow_parts(case: Case) -> dict:
+    """The sine-following lamp's default parts at ``SF_POWER_W`` on the case's supply."""
+    from pqcalc.circuits import model_params
+
+    return {r["name"]: r["default"] for r in model_params("sine-follow", SF_POWER_W,
+                                                          case.v_rms, case.f_hz)}
+
+
+def regulator_points(parts: dict) -> list[tuple[float, float]]:
+    """The tapped linear regulator's current against its voltage as (v, i) corners, from its
+    description (:mod:`pqcalc.circuits.drivers`): segment k (1..n) lights at k * v_segment
+    and its current ramps with slope 1 / r_dyn from the level of k - 1 lit segments to
+    I_k = k / n * i_max, then stays there. Below the first tap it draws nothing."""
+    n = int(parts["n_segments"])
+    vseg, imax, rd = parts["v_segment_v"], parts["i_max_a"], parts["r_dyn_ohm"]
+    pts = [(-1.0, 0.0), (0.0, 0.0)]
+    for k in range(1, n + 1):
+        lo, hi = imax * (k - 1) / n, imax * k / n
+        pts += [(k * vseg, lo), (k * vseg + (hi - lo) * rd, hi)]
+    pts.append((10 * n * vseg, imax))
+    return pts
 
 
 def loads_for(case: Case) -> dict:
     """The case's component values. At 120 V the dropper's string is 100 V instead of
     200 V (a 200 V string never conducts on a 170 V peak: no reference to compare)."""
+    if case.model == "sine-follow":
+        return sine_follow_parts(case)
     p = dict(LOADS[case.model])
     if case.model == "dropper" and case.v_rms < 200:
         p["v_string_v"] = 100.0
@@ -105,6 +137,11 @@ def all_cases() -> list[Case]:
             Case("bulk-cap-cp", 230.0, 50.0, "leading-edge", 90.0),
             Case("bulk-cap-cp", 230.0, 50.0, "trailing-edge", 90.0),
             Case("bulk-cap-cp", 120.0, 60.0, "leading-edge", 135.0)]
+    # the sine-following lamp with its default parts behind a leading edge: the input
+    # capacitor's charging pulse at each firing (about 10 us) is narrower than a sample
+    # cell of a 4096-point grid, so these cases check the exact spectra of the solution
+    out += [Case("sine-follow", 230.0, 50.0, "leading-edge", 120.0),
+            Case("sine-follow", 230.0, 50.0, "leading-edge", 90.0)]
     return out
 
 
@@ -144,6 +181,8 @@ def netlist(case: Case, out_path: str, attempt: int = 0) -> str:
     else:
         if case.model.startswith("bulk-cap"):
             lines.append(f"Rf dout ac {p['r_series_ohm']:g}")
+        elif case.model == "sine-follow":
+            lines.append(f"Rf dout ac {p['r_fuse_ohm']:.9g}")
         else:
             lines += [f"Cser dout x1 {p['c_series_f']:g}",
                       f"Rbl dout x1 {p['r_bleed_ohm']:g}",
@@ -159,6 +198,10 @@ def netlist(case: Case, out_path: str, attempt: int = 0) -> str:
             lines += [f"Cb p n {p['c_bulk_f']:g}", f"Rbl p n {p['r_bleed_ohm']:g}",
                       f"Bcp p n I = {CP_POWER_W:g} * V(p,n) / (V(p,n) * V(p,n) + 1) * 0.5 * "
                       f"(1 + tanh((V(p,n) - {v_lo:.6g}) / 5))"]
+        elif case.model == "sine-follow":
+            table = ", ".join(f"{v:.9g}, {i:.9g}" for v, i in regulator_points(p))
+            lines += [f"Cin p n {p['c_in_f']:.9g}", f"Rbl p n {p['r_bleed_ohm']:.9g}",
+                      f"Breg p n I = pwl(V(p,n), {table})"]
         else:
             lines += ["Dst p s1 DR",
                       f"Vst s1 s2 DC {p['v_string_v'] - DIODE_DROP_V:g}",
@@ -173,7 +216,6 @@ def netlist(case: Case, out_path: str, attempt: int = 0) -> str:
               "set wr_singlescale",
               f"tran {STEP_S:g} {t_stop:.9g} {max(t_save, 0):.9g} {STEP_S:g}"
               + (" uic" if uic else ""),
-              "linearize",
               f"wrdata {out_path} i(vsense) v(line)",
               "quit",
               ".endc",
@@ -183,7 +225,10 @@ def netlist(case: Case, out_path: str, attempt: int = 0) -> str:
 
 def run(case: Case) -> dict:
     """Run ngspice on the case; the last cycle resampled to 4096 points and the one before
-    (to check that the reference itself has settled)."""
+    (to check that the reference itself has settled), and both cycles' harmonic phasors
+    and rms integrated exactly over ngspice's own time points (``"last_exact"``,
+    ``"before_exact"``, see :func:`pwl_figures`): a pulse narrower than the 4096-point grid
+    is then measured as ngspice resolved it, not as the grid happens to sample it."""
     with tempfile.TemporaryDirectory() as d:
         out = os.path.join(d, "out.txt")
         cir = os.path.join(d, "case.cir")
@@ -210,7 +255,36 @@ def run(case: Case) -> dict:
         tt = k * T + np.arange(n) * T / n
         # i(vsense) is the current into the dimmer (line -> din)
         res[name] = (np.interp(tt, t, i), np.interp(tt, t, v))
+        res[name + "_exact"] = pwl_figures(t, i, v, k * T, T, case.f_hz)
     return res
+
+
+def pwl_figures(t: np.ndarray, i: np.ndarray, v: np.ndarray, t0: float, T: float, f_hz: float,
+                max_order: int = 50) -> dict:
+    """Harmonic magnitudes [A rms, index = order 0..max_order], rms current [A] and mean
+    power [W] of one period ``[t0, t0 + T]`` of ngspice's output, integrated in closed form
+    over the straight lines between its time points (ngspice's own interpolant of the
+    solution): ``int (a + b t) exp(-j h w t) dt`` and ``int (a + b t)^2 dt`` per interval."""
+    grid = np.unique(np.concatenate([t[(t > t0) & (t < t0 + T)], [t0, t0 + T]]))
+    ii, vv = np.interp(grid, t, i), np.interp(grid, t, v)
+    ta, dt = grid[:-1], np.diff(grid)
+    ya, yb = ii[:-1], ii[1:]
+    va, vb = vv[:-1], vv[1:]
+    out = np.zeros(max_order + 1)
+    out[0] = float(np.sum(0.5 * (ya + yb) * dt) / T)
+    w = 2 * np.pi * f_hz
+    for h in range(1, max_order + 1):
+        # int_0^d (ya + s tau) e^{-j h w (ta + tau)} dtau, s = (yb - ya) / d, z = -j h w
+        z = -1j * h * w
+        e0 = np.exp(z * ta)
+        ed = np.exp(z * dt)
+        i0 = (ed - 1) / z  # int e^{z tau}
+        i1 = (dt * ed - i0) / z  # int tau e^{z tau}
+        c = np.sum(e0 * (ya * i0 + (yb - ya) / dt * i1)) / T
+        out[h] = np.sqrt(2) * abs(c)
+    rms = float(np.sqrt(np.sum(dt * (ya * ya + ya * yb + yb * yb) / 3) / T))
+    p = float(np.sum(dt * (2 * ya * va + ya * vb + yb * va + 2 * yb * vb) / 6) / T)
+    return {"i_h_a": out, "i_rms_a": rms, "p_w": p}
 
 
 def run_all(cases: list[Case], workers: int = 2) -> dict[str, dict]:
