@@ -621,26 +621,32 @@ def sweep(spec: SweepSpec, evaluator: Callable[[Case], CaseOutcome] | None = Non
                                       "voltage's positive-going zero crossing"})
     data["flags"] = xr.Variable(dims, np.array([";".join(o.flags) for o in res],
                                                dtype=str).reshape(shape),
-                                {"long_name": "solver flags joined by ';' (empty: none)"})
+                                {"units": "1",
+                                 "long_name": "solver flags joined by ';' (empty: none)"})
     s_units = "deg" if spec.setting_kind == "conduction" else "1"
     s_long = ("conduction angle per half cycle" if spec.setting_kind == "conduction"
               else "knob position")
     coords = {
         "setting": ("setting", np.array(spec.settings), {"units": s_units, "long_name": s_long}),
-        "fixture": ("fixture", np.array([f.name for f in spec.fixtures], dtype=str)),
+        "fixture": ("fixture", np.array([f.name for f in spec.fixtures], dtype=str),
+                    {"units": "1", "long_name": "fixture type (model and rated power)"}),
         "model": ("fixture", np.array([f.model for f in spec.fixtures], dtype=str),
-                  {"long_name": "driver model"}),
+                  {"units": "1", "long_name": "driver model"}),
         "power_w": ("fixture", np.array([f.power_w for f in spec.fixtures]),
                     {"units": "W", "long_name": "rated input power of one lamp"}),
         "voltage": ("voltage", np.array(spec.voltages_v),
                     {"units": "V", "long_name": "supply voltage, line to neutral, rms"}),
         "draw": ("draw", np.arange(spec.draws + 1),
-                 {"long_name": "Monte Carlo draw of component tolerances (0: nominal)"}),
-        "order": ("order", np.arange(MAX_ORDER + 1), {"long_name": "harmonic order"}),
+                 {"units": "1",
+                  "long_name": "Monte Carlo draw of component tolerances (0: nominal)"}),
+        "order": ("order", np.arange(MAX_ORDER + 1),
+                  {"units": "1", "long_name": "harmonic order"}),
     }
     from . import __version__
+    from .io.export import CF_CONVENTIONS
 
     attrs = {
+        "Conventions": CF_CONVENTIONS,
         "title": "pqcalc sweep",
         "pqcalc_version": __version__,
         "evaluator": f"{evaluator.__module__}.{getattr(evaluator, '__qualname__', evaluator)}",
@@ -696,21 +702,21 @@ def _assess_one(inst) -> dict:
     }
 
 
-_PORTFOLIO_VARS = {
-    "project": (None, "project name from the installation file"),
-    "system": (None, "supply system"),
-    "lamps": (None, "number of lamps"),
-    "distinct_solves": (None, "distinct circuit cases solved"),
-    "design_scenario": (None, "the scenario with the largest phase plus neutral current"),
+_PORTFOLIO_VARS = {  # name: (units, long name); counts and labels are dimensionless ("1")
+    "project": ("1", "project name from the installation file"),
+    "system": ("1", "supply system"),
+    "lamps": ("1", "number of lamps"),
+    "distinct_solves": ("1", "distinct circuit cases solved"),
+    "design_scenario": ("1", "the scenario with the largest phase plus neutral current"),
     "p_w": ("W", "active power at the service, design scenario"),
     "i_line_max_a": ("A", "largest line current at the service, rms, design scenario"),
     "thd_i_line_max": ("1", "current THD of that line, orders 2..40, fraction"),
     "i_neutral_a": ("A", "neutral current at the service, rms (NaN: single-phase)"),
     "neutral_ratio": ("1", "neutral over the largest line current (NaN: single-phase)"),
     "k_factor": ("1", "transformer K-factor of the service current"),
-    "verdict": (None, "pass or fail over every check of every scenario"),
-    "checks_failed": (None, "checks failed, all scenarios"),
-    "checks_warned": (None, "checks with a warning, all scenarios"),
+    "verdict": ("1", "pass or fail over every check of every scenario"),
+    "checks_failed": ("1", "checks failed, all scenarios"),
+    "checks_warned": ("1", "checks with a warning, all scenarios"),
 }
 
 
@@ -749,10 +755,7 @@ def portfolio(paths: Sequence[str | os.PathLike], *, client=None, scheduler: str
     for name, (units, long) in _PORTFOLIO_VARS.items():
         vals = [o[name] for o in outs]
         arr = np.array(vals, dtype=str) if isinstance(vals[0], str) else np.array(vals)
-        attrs = {"long_name": long}
-        if units:
-            attrs["units"] = units
-        data[name] = xr.Variable(("building",), arr, attrs)
+        data[name] = xr.Variable(("building",), arr, {"units": units, "long_name": long})
     data["i_h_line_a"] = xr.Variable(("building", "phase", "order"),
                                      np.array([o["i_h_line_a"] for o in outs]),
                                      {"units": "A", "long_name": "service line current per "
@@ -761,14 +764,19 @@ def portfolio(paths: Sequence[str | os.PathLike], *, client=None, scheduler: str
                                         np.array([o["i_h_neutral_a"] for o in outs]),
                                         {"units": "A", "long_name": "service neutral current "
                                          "per order, rms (NaN: single-phase)"})
-    coords = {"building": ("building", np.array(labels, dtype=str)),
-              "file": ("building", np.array([str(p) for p in paths], dtype=str)),
-              "phase": ("phase", np.array(["L1", "L2", "L3"])),
-              "order": ("order", np.arange(MAX_ORDER + 1))}
+    coords = {"building": ("building", np.array(labels, dtype=str),
+                           {"units": "1", "long_name": "building (installation file stem)"}),
+              "file": ("building", np.array([str(p) for p in paths], dtype=str),
+                       {"units": "1", "long_name": "installation file"}),
+              "phase": ("phase", np.array(["L1", "L2", "L3"]),
+                        {"units": "1", "long_name": "line at the service"}),
+              "order": ("order", np.arange(MAX_ORDER + 1),
+                        {"units": "1", "long_name": "harmonic order"})}
     from . import __version__
+    from .io.export import CF_CONVENTIONS
 
-    return xr.Dataset(data, coords, {"title": "pqcalc portfolio", "pqcalc_version": __version__,
-                                     "caution": CAUTION})
+    return xr.Dataset(data, coords, {"Conventions": CF_CONVENTIONS, "title": "pqcalc portfolio",
+                                     "pqcalc_version": __version__, "caution": CAUTION})
 
 
 # ------------------------------------------------------------------------ helpers

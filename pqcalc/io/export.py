@@ -20,10 +20,12 @@
   as at every edge of pqcalc.
 - :func:`to_dataset`: an :class:`xarray.Dataset` with the named dimensions ``setting``
   (the scenarios), ``circuit``, ``node``, ``phase`` (conductor: L1, L2, L3, N) and ``order``
-  (0..50); every variable has a ``units`` attribute (UDUNITS spelling: ``A``, ``V``, ``W``,
-  ``degree``, ``1`` for a fraction). Ratios stay fractions here (``thd_i`` = 0.42), as inside
-  pqcalc. Quantities that do not exist for a conductor (a neutral's power factor, the
-  fourth conductor of a single-phase node) are NaN, and the variable's ``note`` says so.
+  (0..50); every variable and coordinate has ``units`` (UDUNITS spelling: ``A``, ``V``,
+  ``W``, ``degree``, ``1`` for a fraction or a label) and ``long_name`` attributes, and the
+  global ``Conventions`` attribute is ``CF-1.10``. Ratios stay fractions here
+  (``thd_i`` = 0.42), as inside pqcalc. Quantities that do not exist for a conductor (a
+  neutral's power factor, the fourth conductor of a single-phase node) are NaN, and the
+  variable's ``note`` says so.
 - :func:`to_netcdf`: that Dataset written with the ``h5netcdf`` engine, atomically, and
   readable with :func:`xarray.open_dataset`.
 
@@ -82,6 +84,11 @@ CSV_TABLES: tuple[str, ...] = ("circuits.csv", "nodes.csv", "orders.csv", "circu
 
 #: Conductor labels of the ``phase`` dimension.
 CONDUCTORS: tuple[str, ...] = ("L1", "L2", "L3", "N")
+
+#: The metadata convention every netCDF output of pqcalc follows (global ``Conventions``):
+#: CF 1.10, with ``units`` (UDUNITS spelling, ``1`` for fractions and labels) and
+#: ``long_name`` on every variable and coordinate.
+CF_CONVENTIONS = "CF-1.10"
 
 _NO_NEUTRAL = ("NaN for the neutral (N), where the quantity is not defined, and for "
                "conductors the supply system does not have")
@@ -509,21 +516,28 @@ def to_dataset(assessment: Assessment) -> xr.Dataset:
         "node_status": _units(V(sn, n_status.astype(str)), "1",
                               "worst check status of the node"),
     }
+    label = {"units": "1"}  # labels are dimensionless (CF: units "1")
     coords = {
-        "setting": ("setting", np.array(settings, dtype=str), {"long_name": "scenario"}),
-        "circuit": ("circuit", np.array(circuits, dtype=str), {"long_name": "circuit id"}),
+        "setting": ("setting", np.array(settings, dtype=str),
+                    {**label, "long_name": "scenario"}),
+        "circuit": ("circuit", np.array(circuits, dtype=str),
+                    {**label, "long_name": "circuit id"}),
         "node": ("node", np.array(nodes, dtype=str),
-                 {"long_name": "summing point: panel, feeder or service"}),
+                 {**label, "long_name": "summing point: panel, feeder or service"}),
         "phase": ("phase", np.array(CONDUCTORS, dtype=str),
-                  {"long_name": "conductor (lines and neutral)"}),
+                  {**label, "long_name": "conductor (lines and neutral)"}),
         "order": ("order", np.arange(nh), {"long_name": "harmonic order", "units": "1"}),
-        "circuit_panel": ("circuit", np.array([c.panel for c in s0.circuits], dtype=str)),
-        "circuit_line": ("circuit", np.array([c.phase for c in s0.circuits], dtype=str)),
-        "node_kind": ("node", np.array(kinds, dtype=str)),
+        "circuit_panel": ("circuit", np.array([c.panel for c in s0.circuits], dtype=str),
+                          {**label, "long_name": "panel feeding the circuit"}),
+        "circuit_line": ("circuit", np.array([c.phase for c in s0.circuits], dtype=str),
+                         {**label, "long_name": "line the circuit is connected to"}),
+        "node_kind": ("node", np.array(kinds, dtype=str),
+                      {**label, "long_name": "kind of summing point"}),
     }
     sup = inst.supply
     pj = inst.project
     attrs = {
+        "Conventions": CF_CONVENTIONS,
         "title": f"pqcalc assessment: {pj.name or inst.path}",
         "project": pj.name, "site": pj.site, "engineer": pj.engineer, "date": pj.date,
         "installation_file": inst.path, "pqcalc_version": __version__,
@@ -532,8 +546,8 @@ def to_dataset(assessment: Assessment) -> xr.Dataset:
         "source_r_ohm": float(sup.impedance.r_ohm), "source_l_h": float(sup.impedance.l_h),
         "design_setting": settings[assessment.design_index],
         "verdict": "fail" if assessment.failed else "pass",
-        "conventions": "RMS magnitudes; ratios as fractions (units 1); THD over orders 2..40; "
-                       "NaN marks a quantity that does not exist for that conductor",
+        "comment": "RMS magnitudes; ratios as fractions (units 1); THD over orders 2..40; "
+                   "NaN marks a quantity that does not exist for that conductor",
         "caution": assessment.caution,
     }
     if assessment.diversity is not None:
