@@ -3,7 +3,7 @@
 Every user mistake raises :class:`InputError` (a ``ValueError``) whose message names the
 item at fault (file, line, field or parameter), what was expected and, where one exists,
 the fix. The command line prints that message on one line and exits with code 2.
-A solver that cannot converge raises :class:`ConvergenceError` (exit code 1).
+A solver that cannot converge raises :class:`ConvergenceError` (exit code 3: the tool failed).
 """
 
 from __future__ import annotations

@@ -107,7 +107,7 @@ def test_below_220_v_the_standard_does_not_apply(tmp_path):
     (["--power-w", "-5"], "power"),
     (["--pf", "1.7"], "pf"),
     (["--class", "E"], "class"),
-    (["--nominal-voltage", "0"], "nominal-voltage"),
+    (["--voltage", "0"], "--voltage"),
 ])
 def test_bad_options_exit_2(tmp_path, args, what):
     cap = write_capture(tmp_path / "lamp.csv", 230.0, 0.2, {3: 0.1})

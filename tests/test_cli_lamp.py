@@ -215,7 +215,8 @@ def test_waveform_into_missing_folder_exits_2(tmp_path):
     assert not target.exists()
 
 
-def test_non_convergence_exits_1(monkeypatch):
+def test_non_convergence_exits_3(monkeypatch):
+    # a solve that could not be done is the tool failing (exit 3), not a finding (exit 1)
     import pqcalc.cli.lamp as lamp
 
     def fail(*a, **k):
@@ -224,8 +225,10 @@ def test_non_convergence_exits_1(monkeypatch):
 
     monkeypatch.setattr(lamp, "solve_circuit", fail)
     r = run(*BASE)
-    assert r.exit_code == 1
-    assert r.stderr.startswith("error: no periodic steady state") and r.stdout == ""
+    assert r.exit_code == 3
+    assert r.stderr.startswith("error: pqcalc lamp: a solve could not be done: no periodic "
+                               "steady state") and r.stdout == ""
+    assert len(r.stderr.splitlines()) == 1 and "Traceback" not in r.stderr
 
 
 def test_dimmer_off_is_dark_not_flickering():

@@ -121,7 +121,7 @@ def test_missing_capture(tmp_path):
 
 def test_spectrum_with_class_c_limits(cut_capture, tmp_path):
     out = tmp_path / "lim.svg"
-    r = run("plot", "spectrum", cut_capture, "-o", out, "--limits", "C")
+    r = run("plot", "spectrum", cut_capture, "-o", out, "--class", "C")
     assert r.exit_code == 0, r.output
     text = out.read_text()
     # 264.5 W (V^2 / 2R at 90 deg): IEC 61000-3-2 Table 2 applies, named in the legend
@@ -131,7 +131,7 @@ def test_spectrum_with_class_c_limits(cut_capture, tmp_path):
 def test_limits_that_do_not_apply_warn(tmp_path):
     out = tmp_path / "d.png"
     # the demo downlight draws about 10 W; Class D starts above 75 W (IEC 61000-3-2, 7.3)
-    r = run("plot", "spectrum", DEMO / "downlight_full.csv", "-o", out, "--limits", "D")
+    r = run("plot", "spectrum", DEMO / "downlight_full.csv", "-o", out, "--class", "D")
     assert r.exit_code == 0
     assert "warning:" in r.stderr and "no limits drawn" in r.stderr
     assert png_size(out.read_bytes()) == (1280, 760)
@@ -142,10 +142,10 @@ def test_limits_without_voltage_need_power(cut_capture, tmp_path):
     lines = cut_capture.read_text().splitlines()
     cur_only.write_text("\n".join(",".join(ln.split(",")[::2]) for ln in lines) + "\n")
     out = tmp_path / "s.png"
-    r = run("plot", "spectrum", cur_only, "-o", out, "--limits", "C")
+    r = run("plot", "spectrum", cur_only, "-o", out, "--class", "C")
     assert r.exit_code == 2 and "--power-w" in r.stderr
     assert len(r.stderr.strip().splitlines()) == 1
     assert not out.exists()
-    r = run("plot", "spectrum", cur_only, "-o", out, "--limits", "C", "--power-w", 264.5,
+    r = run("plot", "spectrum", cur_only, "-o", out, "--class", "C", "--power-w", 264.5,
             "--pf", 0.7071)
     assert r.exit_code == 0, r.stderr

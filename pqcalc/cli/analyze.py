@@ -2,17 +2,62 @@
 
 from __future__ import annotations
 
+import contextlib
+import dataclasses
+import shutil
+import sys
+import tempfile
+from collections.abc import Iterator
+from pathlib import Path
+
 import click
 
 from ..analysis import analyze as analyze_waveform
 from ..errors import InputError
 from ..io.capture import UNIT_SCALE, CsvOptions, load_capture, record_to_waveform
 from ..io.windows import analyze_windows
-from ._common import echo_json, fmt, main, user_errors
+from ._common import STDIO, deprecated_alias, echo_json, fmt, main, user_errors
+
+#: How a capture read from standard input is named in messages and outputs.
+STDIN_LABEL = "<stdin>"
+
+_FREQUENCY_HELP = ("Mains frequency [Hz]: narrows the estimate of the capture's fundamental "
+                   "frequency (default: estimated from the record alone).")
 
 
-def capture_options(f):
-    """Options shared by every command that reads a capture."""
+@contextlib.contextmanager
+def capture_path(path: str) -> Iterator[str]:
+    """The path to read a capture from; for ``-``, standard input copied whole to a private
+    temporary CSV file (removed afterwards), with the temporary name replaced by
+    ``<stdin>`` in any error message."""
+    if path != STDIO:
+        yield path
+        return
+    with tempfile.TemporaryDirectory(prefix="pqcalc-in-") as folder:
+        tmp = Path(folder) / "stdin.csv"
+        with open(tmp, "wb") as fh:
+            shutil.copyfileobj(getattr(sys.stdin, "buffer", sys.stdin), fh)
+        if tmp.stat().st_size == 0:
+            raise InputError("-: standard input is empty; expected a delimited-text capture "
+                             "(CSV)")
+        try:
+            yield str(tmp)
+        except InputError as e:
+            raise InputError(str(e).replace(str(tmp), STDIN_LABEL)) from None
+
+
+def read_capture(path: str, options: CsvOptions):
+    """:func:`pqcalc.io.capture.load_capture`, where ``-`` reads CSV from standard input."""
+    with capture_path(path) as p:
+        rec = load_capture(p, options)
+    return rec if p == path else dataclasses.replace(rec, source=STDIN_LABEL)
+
+
+def capture_options(f=None, *, frequency_help: str = _FREQUENCY_HELP):
+    """Options shared by every command that reads a capture (``@capture_options``, or
+    ``@capture_options(frequency_help=...)`` where --frequency means more)."""
+    if f is None:
+        return lambda g: capture_options(g, frequency_help=frequency_help)
     opts = [
         click.option("--current-col", "-i",
                      help="Current column: header name or 0-based index (COMTRADE: channel "
@@ -37,8 +82,8 @@ def capture_options(f):
         click.option("--decimal-comma", is_flag=True, help="Numbers are written 0,5 not 0.5."),
         click.option("--skip-rows", type=int, default=0, show_default=True,
                      help="Lines to skip before the header."),
-        click.option("--nominal-frequency", type=float,
-                     help="Expected mains frequency [Hz] to narrow the estimate."),
+        click.option("--frequency", "frequency", type=float, help=frequency_help),
+        deprecated_alias("--nominal-frequency", "--frequency", "frequency", type=float),
     ]
     for o in reversed(opts):
         f = o(f)
@@ -68,7 +113,7 @@ def csv_options_from(kw: dict) -> CsvOptions:
 
 
 @main.command("analyze")
-@click.argument("capture", type=click.Path(dir_okay=True))
+@click.argument("capture", type=click.Path(dir_okay=True, allow_dash=True))
 @capture_options
 @click.option("--max-order", type=click.IntRange(2, 50), default=40, show_default=True,
               help="Highest order in THD and in the table.")
@@ -89,22 +134,26 @@ def analyze_cmd(capture, max_order, per_window, smooth, summary_only, as_json, *
     sample rate, or a COMTRADE record (.cfg with its .dat, or a .cff). The record is aligned
     to a whole number of mains cycles at the estimated fundamental frequency before the FFT.
     Phase angles refer to the voltage fundamental when a voltage column is present, else to
-    the current fundamental.
+    the current fundamental. A CAPTURE of - is read from standard input as delimited text
+    (CSV); a COMTRADE record cannot be, as it is a .cfg file with its .dat file.
     """
     if (smooth or summary_only) and not per_window:
         raise InputError("--smooth and --summary-only go with --windows")
     opts = csv_options_from(kw)
     if per_window:
-        wa = analyze_windows(capture, opts, nominal_hz=kw.get("nominal_frequency"),
-                             thd_max_order=max_order, smoothing=smooth,
-                             keep_windows=not summary_only)
+        with capture_path(capture) as path:
+            wa = analyze_windows(path, opts, nominal_hz=kw.get("frequency"),
+                                 thd_max_order=max_order, smoothing=smooth,
+                                 keep_windows=not summary_only)
+        if path != capture:
+            wa = dataclasses.replace(wa, source=STDIN_LABEL)
         if as_json:
             echo_json(wa.to_dict())
         else:
             print_windows(wa, max_order)
         return
-    rec = load_capture(capture, opts)
-    w = record_to_waveform(rec, nominal_hz=kw.get("nominal_frequency"))
+    rec = read_capture(capture, opts)
+    w = record_to_waveform(rec, nominal_hz=kw.get("frequency"))
     a = analyze_waveform(w, max_order)
     if as_json:
         d = a.to_dict()

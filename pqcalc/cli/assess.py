@@ -24,7 +24,8 @@ from ._common import Progress, echo_json, fmt, main, user_errors
 def assess_cmd(installation, as_json, which, no_interaction):
     """Branch, panel, feeder and neutral currents, THDv and checks of an INSTALLATION file.
 
-    Exit code 0 when every check passes, 1 when one fails, 2 for bad input.
+    Exit code 0 when every check passes, 1 when one fails, 2 for bad input, 3 when the tool
+    fails (the traceback is written to a file in the temporary folder).
     """
     inst = load_installation(installation)
     if no_interaction:

@@ -9,12 +9,12 @@ import click
 import numpy as np
 
 from ..errors import InputError
-from ..io.capture import load_capture, record_to_waveform
+from ..io.capture import record_to_waveform
 from ..standards import CAUTION, EQUIPMENT_CLASSES, evaluate_dimmable, evaluate_fixture
 from ..standards.iec61000_3_2 import SCOPE_MIN_VOLTAGE_V
 from ..standards.results import FixtureResult
-from ._common import echo_json, main, user_errors
-from .analyze import capture_options, csv_options_from
+from ._common import STDIO, deprecated_alias, echo_json, main, user_errors
+from .analyze import capture_options, csv_options_from, read_capture
 
 #: Nominal line-to-neutral voltages a record is matched to when none is given [V]
 #: (common nominal values, IEC 60038 and North American practice; common practice).
@@ -113,12 +113,19 @@ def _model_states(model, power_w, dimmer, voltage, frequency, params, equipment_
 
 
 def _label(path: str) -> str:
-    return Path(path).stem
+    return "stdin" if path == STDIO else Path(path).stem
+
+
+#: The model's supply when --voltage or --frequency is not given [V], [Hz].
+MODEL_VOLTAGE_V, MODEL_FREQUENCY_HZ = 230.0, 50.0
 
 
 @main.command("comply")
-@click.argument("captures", nargs=-1, type=click.Path(dir_okay=True))
-@capture_options
+@click.argument("captures", nargs=-1, type=click.Path(dir_okay=True, allow_dash=True))
+@capture_options(frequency_help="Mains frequency [Hz]: with --model the supply frequency "
+                                f"(default {MODEL_FREQUENCY_HZ:g}); for captures it narrows "
+                                "the estimate of the fundamental (default: estimated from "
+                                "the record alone).")
 @click.option("--installation", "installation", type=click.Path(dir_okay=False),
               help="Evaluate every fixture type of this installation file, at full output "
                    "and at five dimmed states behind a reference phase cut of each dimmer "
@@ -132,8 +139,12 @@ def _label(path: str) -> str:
               help="Active input power [W] instead of the record's (needed without voltage).")
 @click.option("--pf", type=float,
               help="Circuit power factor [-] instead of the record's (needed without voltage).")
-@click.option("--nominal-voltage", type=float,
-              help="Nominal line-to-neutral supply voltage [V] (default: from the records).")
+@click.option("--voltage", type=float,
+              help="Nominal supply voltage, line to neutral [V]: with --model the supply "
+                   f"voltage (default {MODEL_VOLTAGE_V:g}); for captures the voltage that "
+                   "decides the scope (default: the common nominal voltage nearest to the "
+                   "records' peak).")
+@deprecated_alias("--nominal-voltage", "--voltage", "voltage", type=float)
 @click.option("--outside-scope", is_flag=True,
               help=f"Evaluate even below {SCOPE_MIN_VOLTAGE_V:g} V, where IEC 61000-3-2 does "
                    "not apply (for information).")
@@ -144,40 +155,41 @@ def _label(path: str) -> str:
                    "evaluated at full output and five dimmed states behind --dimmer.")
 @click.option("--dimmer", "dimmer", default="none", show_default=True,
               help="With --model: the reference phase cut (leading-edge, trailing-edge, none).")
-@click.option("--voltage", type=float, default=230.0, show_default=True,
-              help="With --model: supply voltage, line to neutral [V].")
-@click.option("--frequency", type=float, default=50.0, show_default=True,
-              help="With --model: supply frequency [Hz].")
 @click.option("--param", "params", multiple=True, metavar="NAME=VALUE",
               help="With --model: a component value of the lamp (repeatable).")
 @click.option("--json", "as_json", is_flag=True, help="Print one JSON object instead of tables.")
 @user_errors
-def comply_cmd(captures, installation, equipment_class, settings_of, power_w, pf,
-               nominal_voltage, outside_scope, keep_small, model, dimmer, voltage, frequency,
-               params, as_json, **kw):
+def comply_cmd(captures, installation, equipment_class, settings_of, power_w, pf, voltage,
+               outside_scope, keep_small, model, dimmer, params, as_json, frequency, **kw):
     """IEC 61000-3-2 harmonic-emission verdicts, fixture by fixture and setting by setting.
 
     Each CAPTURE is one fixture (power and power factor from the record's voltage and
     current), or, with --settings-of, one dimmer setting of the same fixture. Lighting
     (Class C) is judged by power: below 5 W no limits; 5 W to 25 W any of options a, b, c;
     above 25 W Table 2 with 30 x lambda % for the third order. Option b's waveform test
-    needs the voltage channel.
+    needs the voltage channel. A CAPTURE of - is read from standard input as delimited
+    text (CSV); a COMTRADE record cannot be, as it is a .cfg file with its .dat file.
 
     Exit code 0 when every fixture passes, 1 when any fails (the tables are printed), 2 for
-    bad input, including a verdict that hinges on option b without a voltage channel.
+    bad input, including a verdict that hinges on option b without a voltage channel, 3
+    when the tool fails (the traceback is written to a file in the temporary folder).
     """
     if power_w is not None and not (math.isfinite(power_w) and power_w > 0):
         raise InputError(f"--power-w: expected a positive power [W], got {power_w:g}")
     if pf is not None and not (math.isfinite(pf) and 0 < pf <= 1):
         raise InputError(f"--pf: expected a power factor in (0, 1], got {pf:g}")
-    if nominal_voltage is not None and not nominal_voltage > 0:
-        raise InputError(f"--nominal-voltage: expected a positive voltage, got {nominal_voltage}")
+    if voltage is not None and not (math.isfinite(voltage) and voltage > 0):
+        raise InputError(f"--voltage: expected a positive voltage [V], got {voltage:g}")
+    if captures.count(STDIO) > 1:
+        raise InputError("CAPTURE -: standard input can be read once; give - once")
     jobs = []  # (fixture, [(setting, waveform)])
     lineup_results: list[FixtureResult] = []
     lineup_notes: list[str] = []
     if model is not None:
-        lineup_results, lineup_notes = _model_states(model, power_w, dimmer, voltage, frequency,
-                                                     params, equipment_class, outside_scope)
+        lineup_results, lineup_notes = _model_states(
+            model, power_w, dimmer, MODEL_VOLTAGE_V if voltage is None else voltage,
+            MODEL_FREQUENCY_HZ if frequency is None else frequency, params, equipment_class,
+            outside_scope)
         power_w = None  # it was the model's rating, not a capture's power
     if installation:
         from ..installation import load_installation
@@ -192,8 +204,8 @@ def comply_cmd(captures, installation, equipment_class, settings_of, power_w, pf
     opts = csv_options_from(kw)
     waves = []
     for c in captures:
-        rec = load_capture(c, opts)
-        waves.append((_label(c), record_to_waveform(rec, nominal_hz=kw.get("nominal_frequency"))))
+        rec = read_capture(c, opts)
+        waves.append((_label(c), record_to_waveform(rec, nominal_hz=frequency)))
     if settings_of:
         if len(waves) < 1:
             raise InputError("--settings-of: expected at least one CAPTURE")
@@ -209,12 +221,12 @@ def comply_cmd(captures, installation, equipment_class, settings_of, power_w, pf
     results: list[FixtureResult] = list(lineup_results)
     notes: list[str] = list(dict.fromkeys(lineup_notes))
     for fixture, states in jobs:
-        nominal = nominal_voltage
+        nominal = voltage
         if nominal is None:
             nominal = guess_nominal_voltage([w for _, w in states])
             if nominal is None:
                 notes.append(f"{fixture}: no voltage channel, the nominal supply voltage is "
-                             "unknown; give --nominal-voltage to check the scope")
+                             "unknown; give --voltage to check the scope")
             else:
                 notes.append(f"{fixture}: nominal supply voltage taken as {nominal:g} V "
                              "from the record's voltage peak")

@@ -7,7 +7,9 @@ Thin: the numbers come from :func:`pqcalc.circuits.solve_circuit`,
 
 from __future__ import annotations
 
+import contextlib
 import io
+import sys
 
 import click
 import numpy as np
@@ -28,7 +30,9 @@ from ..circuits.curve import NUMERIC_DARK, SETTING_AXES
 from ..circuits.spec import SWITCH_KINDS
 from ..errors import InputError
 from ..flicker import flicker
-from ._common import echo_json, fmt, main, user_errors, write_atomic
+from ..io.atomic import is_stdout
+from ..plotting.style import FIGURE_FORMATS
+from ._common import echo_json, figure_format, fmt, main, save_figure_to, user_errors, write_atomic
 
 CAUTION = ("caution: computed from circuit models with typical component values; confirm "
            "dimmer and lamp compatibility with the makers' data, and size conductors and "
@@ -142,19 +146,24 @@ LAMP_FIGURES = ("waveform", "spectrum", "light", "curve")
               help="With --curve: number of settings.")
 @click.option("--setting-axis", "curve_axis", default="conduction", show_default=True,
               help=f"With --curve: space the settings by {' or '.join(SETTING_AXES)}.")
-@click.option("--waveform-csv", type=click.Path(dir_okay=False),
-              help="Write one period of time, voltage, current and light to this CSV file.")
+@click.option("--waveform-csv", type=click.Path(dir_okay=False, allow_dash=True),
+              help="Write one period of time, voltage, current and light to this CSV file "
+                   "(-: standard output; the text summary then goes to stderr).")
 @click.option("--figure", type=click.Choice(LAMP_FIGURES),
               help="Also draw a figure into -o: waveform (voltage and current, the cut "
                    "shaded), spectrum (against the IEC 61000-3-2 Class C limits), light (with "
                    "its flicker figures); with --curve: curve (light, power, THD, PF).")
-@click.option("-o", "--output", type=click.Path(dir_okay=False),
-              help="With --figure: the file (.png, .svg or .pdf).")
+@click.option("-o", "--output", type=click.Path(dir_okay=False, allow_dash=True),
+              help="With --figure: the file (.png, .svg or .pdf), or - for standard output "
+                   "(with --format; the text summary then goes to stderr).")
+@click.option("--format", "fig_format", type=click.Choice(FIGURE_FORMATS),
+              help="With --figure: the file type (default: from the suffix of -o; needed "
+                   "with -o -).")
 @click.option("--json", "as_json", is_flag=True, help="Print one JSON object instead of text.")
 @user_errors
 def lamp_cmd(model, power_w, count, voltage, frequency, dimmer, switch, conduction_deg, knob,
              params, list_params, curve, steps, curve_axis, waveform_csv, figure, output,
-             as_json):
+             fig_format, as_json):
     """Input current, light, flicker and stresses of one fixture type behind a dimmer.
 
     The lamp circuit (the chosen model's named components with typical defaults) and the
@@ -189,10 +198,18 @@ def lamp_cmd(model, power_w, count, voltage, frequency, dimmer, switch, conducti
                          "--curve need leading-edge or trailing-edge)")
     if (figure is None) != (output is None):
         raise InputError("--figure and -o go together: name the figure and its file")
+    if fig_format is not None and figure is None:
+        raise InputError("--format: goes with --figure and -o")
+    on_stdout = [o for o, v in (("-o -", output), ("--waveform-csv -", waveform_csv))
+                 if is_stdout(v)]
+    if len(on_stdout) > 1:
+        raise InputError(f"{' and '.join(on_stdout)}: both write standard output; send one "
+                         "to a file")
+    if on_stdout and as_json:
+        raise InputError(f"{on_stdout[0]} and --json: both write standard output; send one "
+                         "to a file")
     if figure is not None:
-        from ..io.atomic import check_output_path
-
-        check_output_path(output)
+        fig_format = figure_format(output, fig_format)
         if (figure == "curve") != bool(curve):
             raise InputError(f"--figure {figure}: "
                              + ("needs --curve" if figure == "curve" else
@@ -216,7 +233,7 @@ def lamp_cmd(model, power_w, count, voltage, frequency, dimmer, switch, conducti
                 setting_label=("conduction angle [deg]" if curve_axis == "conduction"
                                else "knob position [-]"),
                 title=f"{model} {power_w:g} W x {count}, {dimmer}")
-            plots.save_figure(fig, output)
+            save_figure_to(fig, output, fig_format)
         if as_json:
             d = c.to_dict()
             d["supply"] = {"v_rms_v": supply.v_rms_v, "frequency_hz": supply.frequency_hz,
@@ -224,7 +241,8 @@ def lamp_cmd(model, power_w, count, voltage, frequency, dimmer, switch, conducti
             d["caution"] = CAUTION
             echo_json(d)
         else:
-            _print_curve(c, group, supply)
+            with _text_out(bool(on_stdout)):
+                _print_curve(c, group, supply)
         return
     if dimmer != "none" and conduction_deg is None and knob is None:
         raise InputError(f"--dimmer {dimmer}: give a setting, --conduction-deg (0..180) or "
@@ -241,7 +259,8 @@ def lamp_cmd(model, power_w, count, voltage, frequency, dimmer, switch, conducti
     if figure is not None:
         setting = ("" if dimmer == "none" else f", {dimmer} " + (
             f"{conduction_deg:g} deg" if conduction_deg is not None else f"knob {knob:g}"))
-        _draw(figure, output, sol, gr, a, fl, f"{model} {power_w:g} W x {count}{setting}")
+        _draw(figure, output, fig_format, sol, gr, a, fl,
+              f"{model} {power_w:g} W x {count}{setting}")
     if as_json:
         d = a.to_dict()
         d["label"] = f"{model} {power_w:g} W x {count}"
@@ -250,10 +269,16 @@ def lamp_cmd(model, power_w, count, voltage, frequency, dimmer, switch, conducti
         d["caution"] = CAUTION
         echo_json(d)
         return
-    _print_solution(a, sol, spec, supply, fl, group)
+    with _text_out(bool(on_stdout)):
+        _print_solution(a, sol, spec, supply, fl, group)
 
 
-def _draw(figure, output, sol, gr, a, fl, title) -> None:
+def _text_out(to_stderr: bool):
+    """Where the text summary goes: stderr when standard output carries a file's bytes."""
+    return contextlib.redirect_stdout(sys.stderr) if to_stderr else contextlib.nullcontext()
+
+
+def _draw(figure, output, fig_format, sol, gr, a, fl, title) -> None:
     """One figure of a solved lamp into ``output`` (written atomically)."""
     from .. import plots
 
@@ -273,8 +298,8 @@ def _draw(figure, output, sol, gr, a, fl, title) -> None:
         fig = plots.light_figure(t, gr.light, fl.percent_flicker or 0.0,
                                  fl.flicker_index or 0.0, fl.modulation_frequency_hz or 0.0,
                                  title=title)
-    plots.save_figure(fig, output)
-    click.echo(f"wrote {output}", err=True)
+    save_figure_to(fig, output, fig_format)
+    click.echo(f"wrote {'standard output' if is_stdout(output) else output}", err=True)
 
 
 def _solution_dict(sol, spec, supply, split, fl) -> dict:

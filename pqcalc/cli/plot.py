@@ -8,10 +8,11 @@ from typing import get_args
 import click
 
 from ..errors import InputError
+from ..io.atomic import is_stdout
 from ..plots import FIGURE_FORMATS, SpectrumUnit
 from ..standards import EQUIPMENT_CLASSES
-from ._common import main, user_errors
-from .analyze import capture_options, csv_options_from
+from ._common import STDIO, deprecated_alias, figure_format, main, save_figure_to, user_errors
+from .analyze import capture_options, csv_options_from, read_capture
 
 #: Figure names of ``pqcalc plot``, and which kinds of source each one is made from.
 FIGURES: dict[str, tuple[str, ...]] = {
@@ -22,32 +23,25 @@ FIGURES: dict[str, tuple[str, ...]] = {
 }
 
 
-def _check_output(output: str) -> Path:
-    """The output path, refused before any work when its suffix or folder is wrong."""
-    from ..io.atomic import check_output_path
-
-    fmt = Path(output).suffix.lower().lstrip(".")
-    if fmt not in FIGURE_FORMATS:
-        raise InputError(f"-o {output}: expected a file ending in "
-                         f"{', '.join('.' + f for f in FIGURE_FORMATS)}")
-    return check_output_path(output)
-
-
 @main.command("plot")
 @click.argument("figure", metavar="FIGURE")
-@click.argument("source", type=click.Path(dir_okay=False))
-@click.option("-o", "--output", required=True, help="Output file: .png, .svg or .pdf.")
+@click.argument("source", type=click.Path(dir_okay=False, allow_dash=True))
+@click.option("-o", "--output", required=True,
+              help="Output file: .png, .svg or .pdf; - for standard output (with --format).")
+@click.option("--format", "fig_format", type=click.Choice(FIGURE_FORMATS),
+              help="File type (default: from the suffix of -o; needed with -o -).")
 @capture_options
 @click.option("--unit", type=click.Choice(get_args(SpectrumUnit)), default="pct",
               show_default=True, help="spectrum: amperes rms (A) or percent of fundamental (pct).")
 @click.option("--log", is_flag=True, help="spectrum: logarithmic value axis.")
-@click.option("--limits", "limits_class", type=click.Choice(EQUIPMENT_CLASSES),
+@click.option("--class", "limits_class", type=click.Choice(EQUIPMENT_CLASSES),
               help="spectrum: mark the IEC 61000-3-2 limits of this equipment class per order "
                    "(C: lighting; for 5 W to 25 W the option that decides the verdict).")
+@deprecated_alias("--limits", "--class", "limits_class", type=click.Choice(EQUIPMENT_CLASSES))
 @click.option("--power-w", type=float,
-              help="spectrum --limits: active input power [W] (needed without voltage).")
+              help="spectrum --class: active input power [W] (needed without voltage).")
 @click.option("--pf", type=float,
-              help="spectrum --limits: circuit power factor [-] (needed without voltage).")
+              help="spectrum --class: circuit power factor [-] (needed without voltage).")
 @click.option("--max-order", type=click.IntRange(2, 50), default=40, show_default=True,
               help="spectrum: highest order shown and summed in the THD.")
 @click.option("--cycles", type=click.IntRange(1, 20), default=1, show_default=True,
@@ -63,11 +57,11 @@ def _check_output(output: str) -> Path:
 @click.option("--scenario", "scenario_name",
               help="installation panel figures: scenario name (default: the design one).")
 @user_errors
-def plot_cmd(figure, source, output, unit, log, limits_class, power_w, pf, max_order, cycles,
+def plot_cmd(figure, source, output, fig_format, unit, log, limits_class, power_w, pf, max_order, cycles,
              title, dpi, panel_id, fixture_id, scenario_name, **kw):
     """Draw FIGURE from SOURCE into the file given by -o.
 
-    FIGURE is one of: spectrum (harmonic currents per order; with --limits the
+    FIGURE is one of: spectrum (harmonic currents per order; with --class the
     IEC 61000-3-2 limit of each order is marked and the orders over it are hatched),
     waveform (voltage and current over whole cycles from the voltage zero crossing, the
     dimmer cut shaded). SOURCE is a capture (delimited text or COMTRADE .cfg, read as by
@@ -76,29 +70,35 @@ def plot_cmd(figure, source, output, unit, log, limits_class, power_w, pf, max_o
     (phase and neutral rms with the triplen share) and neutral-spectrum show a panel
     (--panel, --scenario). For a lamp model use ``pqcalc lamp ... --figure NAME -o FILE``
     (waveform, spectrum, light, curve). The file type follows the suffix of the output:
-    .png, .svg or .pdf; it is written only once the figure is complete.
+    .png, .svg or .pdf, or --format; it is written only once the figure is complete. A
+    SOURCE of - is a capture read from standard input as delimited text (CSV; a COMTRADE
+    record cannot be, as it is a .cfg file with its .dat file); an output of - is
+    standard output, and the line saying what was written then goes to stderr.
     """
     from .. import plots
-    from ..io.capture import load_capture, record_to_waveform
+    from ..io.capture import record_to_waveform
     from ..spectrum import spectrum
     from ..standards import evaluate_fixture
 
     if figure not in FIGURES:
         raise InputError(f"FIGURE: unknown figure {figure!r}; expected one of "
                          f"{', '.join(FIGURES)}")
-    out = _check_output(output)
-    kind = "installation" if Path(source).suffix.lower() == ".toml" else "capture"
+    fig_format = figure_format(output, fig_format)
+    out = output
+    said = "standard output" if is_stdout(output) else output
+    kind = ("installation" if source != STDIO and Path(source).suffix.lower() == ".toml"
+            else "capture")
     if kind not in FIGURES[figure]:
         raise InputError(f"FIGURE: {figure} is drawn from " + " or ".join(FIGURES[figure])
                          + f" sources, not from {Path(source).name}")
     if kind == "installation":
         fig = _installation_figure(figure, source, unit, log, max_order, cycles, title,
                                    panel_id, fixture_id, scenario_name)
-        plots.save_figure(fig, out, dpi=dpi)
-        click.echo(f"wrote {out}")
+        save_figure_to(fig, out, fig_format, dpi=dpi)
+        click.echo(f"wrote {said}", err=is_stdout(out))
         return
-    rec = load_capture(source, csv_options_from(kw))
-    w = record_to_waveform(rec, nominal_hz=kw.get("nominal_frequency"))
+    rec = read_capture(source, csv_options_from(kw))
+    w = record_to_waveform(rec, nominal_hz=kw.get("frequency"))
     if figure == "spectrum":
         s = spectrum(w)
         marks = plots.LimitMarks({}, unit, "")
@@ -114,8 +114,8 @@ def plot_cmd(figure, source, output, unit, log, limits_class, power_w, pf, max_o
         if cycles > w.cycles:
             raise InputError(f"--cycles: the capture holds {w.cycles} whole cycles, asked {cycles}")
         fig = plots.waveform_figure(w, cycles=cycles, title=title)
-    plots.save_figure(fig, out, dpi=dpi)
-    click.echo(f"wrote {out}")
+    save_figure_to(fig, out, fig_format, dpi=dpi)
+    click.echo(f"wrote {said}", err=is_stdout(out))
 
 
 def _installation_figure(figure, source, unit, log, max_order, cycles, title, panel_id,

@@ -21,14 +21,17 @@ from ..sweep import (
     write_netcdf,
 )
 from ._common import Progress as _Progress
-from ._common import main, user_errors
+from ._common import main, refuse_binary_terminal, user_errors
 
 
 def _check_output(path: str) -> None:
     """Refuse a missing or read-only output folder, or a name that is not ``.nc``, before
-    any work is done."""
-    from ..io.atomic import check_output_path
+    any work is done. ``-`` is standard output (not a terminal: netCDF is binary)."""
+    from ..io.atomic import check_output_path, is_stdout
 
+    if is_stdout(path):
+        refuse_binary_terminal(path, "netcdf")
+        return
     p = check_output_path(path)
     if p.is_dir():
         raise InputError(f"-o {p}: is a folder; expected a file name such as sweep.nc")
@@ -94,7 +97,9 @@ def _fixtures(models: tuple[str, ...], powers: tuple[str, ...]) -> tuple[Fixture
 @click.option("--installation", "installations", multiple=True, metavar="FILE",
               help="Portfolio mode: assess each installation file, one result per building "
                    "(repeat, or list several).")
-@click.option("-o", "--output", required=True, metavar="FILE.nc", help="netCDF file to write.")
+@click.option("-o", "--output", required=True, metavar="FILE.nc",
+              help="netCDF file to write; - for standard output (the summary then goes to "
+                   "stderr).")
 @click.option("--scheduler", metavar="ADDRESS",
               help="dask.distributed scheduler, e.g. tcp://host:8786.")
 @click.option("--local-cluster", type=int, metavar="N",
@@ -117,6 +122,14 @@ def sweep_cmd(models, powers, settings, setting_axis, voltages, dimmer, switch, 
     building). Runs in-process unless --scheduler or --local-cluster is given.
     """
     _check_output(output)
+    from ..io.atomic import is_stdout
+
+    to_err = is_stdout(output)
+    said = "standard output" if to_err else output
+
+    def say(text: str) -> None:
+        click.echo(text, err=to_err)
+
     if more_installations and not installations:
         raise InputError("extra arguments " + " ".join(more_installations) + ": installation "
                          "files need --installation FILE first")
@@ -143,13 +156,13 @@ def sweep_cmd(models, powers, settings, setting_axis, voltages, dimmer, switch, 
             prog.close()
         write_netcdf(ds, output)
         n_fail = int((ds.verdict == "fail").sum())
-        click.echo(f"wrote {output}: {ds.sizes['building']} buildings, {n_fail} with a failed "
-                   f"check, in {time.perf_counter() - t0:.1f} s")
+        say(f"wrote {said}: {ds.sizes['building']} buildings, {n_fail} with a failed "
+            f"check, in {time.perf_counter() - t0:.1f} s")
         for b in ds.building.values:
             r = ds.sel(building=b)
-            click.echo(f"  {b}: {int(r.lamps)} lamps, line max {float(r.i_line_max_a):.1f} A, "
-                       f"neutral {float(r.i_neutral_a):.1f} A, {str(r.verdict.values)}")
-        click.echo(CAUTION)
+            say(f"  {b}: {int(r.lamps)} lamps, line max {float(r.i_line_max_a):.1f} A, "
+                f"neutral {float(r.i_neutral_a):.1f} A, {str(r.verdict.values)}")
+        say(CAUTION)
         return
     spec = SweepSpec(
         fixtures=_fixtures(models, powers),
@@ -166,9 +179,9 @@ def sweep_cmd(models, powers, settings, setting_axis, voltages, dimmer, switch, 
         prog.close()
     write_netcdf(ds, output)
     dims = " x ".join(f"{ds.sizes[d]} {d}" for d in ("setting", "fixture", "voltage", "draw"))
-    click.echo(f"wrote {output}: {dims} = {ds.attrs['cases']} cases "
-               f"({ds.attrs['distinct_cases']} distinct) in {time.perf_counter() - t0:.1f} s")
+    say(f"wrote {said}: {dims} = {ds.attrs['cases']} cases "
+        f"({ds.attrs['distinct_cases']} distinct) in {time.perf_counter() - t0:.1f} s")
     flagged = int((ds.flags != "").sum())
     if flagged:
-        click.echo(f"  {flagged} cases carry solver flags (variable 'flags')")
-    click.echo(CAUTION)
+        say(f"  {flagged} cases carry solver flags (variable 'flags')")
+    say(CAUTION)

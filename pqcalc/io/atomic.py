@@ -1,9 +1,16 @@
 """Outputs are written whole or not at all: a temporary file in the target folder, then a
-rename. Used by every writer of the package (figures, reports, exports, sweeps)."""
+rename. Used by every writer of the package (figures, reports, exports, sweeps).
+
+The path ``-`` (:data:`STDOUT`) means standard output: the output is built whole in a private
+temporary folder first and copied to standard output in one write once complete, so a
+failure sends nothing.
+"""
 
 from __future__ import annotations
 
 import os
+import shutil
+import sys
 import tempfile
 from collections.abc import Iterator
 from contextlib import contextmanager
@@ -11,15 +18,41 @@ from pathlib import Path
 
 from ..errors import InputError
 
-__all__ = ["check_output_path", "atomic_output", "write_atomic"]
+__all__ = ["STDOUT", "is_stdout", "write_stdout", "check_output_path", "atomic_output",
+           "write_atomic"]
+
+#: The output path that means standard output.
+STDOUT = "-"
+
+
+def is_stdout(path: str | os.PathLike | None) -> bool:
+    """True when ``path`` is ``-``, standard output."""
+    return path is not None and os.fspath(path) == STDOUT
+
+
+def write_stdout(data: bytes | str) -> None:
+    """Write ``data`` (bytes, or text as UTF-8) to standard output in one piece."""
+    raw = data if isinstance(data, bytes) else data.encode("utf-8")
+    out = sys.stdout
+    out.flush()
+    buf = getattr(out, "buffer", None)
+    if buf is None:  # a text-only stream (some embedding consoles)
+        out.write(raw.decode("utf-8", errors="replace"))
+        out.flush()
+        return
+    buf.write(raw)
+    buf.flush()
 
 
 def check_output_path(path: str | os.PathLike) -> Path:
     """The output path, after checking that its folder exists and is writable.
 
-    Raises :class:`~pqcalc.errors.InputError` naming the path and the folder otherwise.
+    ``-`` (standard output) is returned as is. Raises :class:`~pqcalc.errors.InputError`
+    naming the path and the folder otherwise.
     """
     p = Path(path)
+    if is_stdout(p):
+        return p
     folder = p.parent if str(p.parent) else Path(".")
     if not folder.is_dir():
         raise InputError(f"{p}: the folder {folder} does not exist; create it or choose "
@@ -43,8 +76,18 @@ def _new_file_mode() -> int:
 def atomic_output(path: str | os.PathLike) -> Iterator[Path]:
     """Yield a temporary path beside ``path``; on success it becomes ``path`` (with the
     ordinary permissions of a new file, not the private ones of a temporary file); on any
-    error it is removed and nothing is left behind."""
+    error it is removed and nothing is left behind. For ``-`` the temporary file lives in a
+    private temporary folder and its bytes go to standard output on success."""
     p = check_output_path(path)
+    if is_stdout(p):
+        folder = tempfile.mkdtemp(prefix="pqcalc-out-")
+        try:
+            tmp = Path(folder) / "output"
+            yield tmp
+            write_stdout(tmp.read_bytes())
+        finally:
+            shutil.rmtree(folder, ignore_errors=True)
+        return
     try:
         fd, tmp = tempfile.mkstemp(dir=p.parent if str(p.parent) else ".",
                                    prefix=f".{p.name}.", suffix=".tmp")
@@ -64,7 +107,11 @@ def atomic_output(path: str | os.PathLike) -> Iterator[Path]:
 
 
 def write_atomic(path: str | os.PathLike, data: bytes | str) -> Path:
-    """Write ``data`` (bytes, or text as UTF-8) to ``path`` atomically."""
+    """Write ``data`` (bytes, or text as UTF-8) to ``path`` atomically (``-``: standard
+    output, in one write)."""
+    if is_stdout(path):
+        write_stdout(data)
+        return Path(path)
     with atomic_output(path) as tmp:
         tmp.write_bytes(data if isinstance(data, bytes) else data.encode("utf-8"))
     return Path(path)
