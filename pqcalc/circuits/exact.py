@@ -28,6 +28,7 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from ..waveform import Waveform
+from .kernels import seg_fourier, seg_integral_to, seg_mean_product, seg_peak
 from .network import CH_ONE, CH_SOURCE
 
 __all__ = ["Expansion", "Figures", "SolvedWaveform", "expand", "figures", "MAX_ORDER"]
@@ -37,14 +38,6 @@ MAX_ORDER = 50
 #: points per segment of the peak search before refinement: an even spread and a geometric
 #: one from the segment's start (a transient decays from the event that starts a segment)
 PEAK_EVEN, PEAK_GEOM = 16, 24
-
-
-def phi1(z: np.ndarray) -> np.ndarray:
-    """``(exp(z) - 1) / z`` elementwise, 1 at ``z = 0`` (series below ``|z| = 1e-8``)."""
-    z = np.asarray(z, dtype=complex)
-    small = np.abs(z) < 1e-8
-    zs = np.where(small, 1.0, z)
-    return np.where(small, 1.0 + 0.5 * z, np.expm1(zs) / zs)
 
 
 @dataclass(frozen=True)
@@ -63,33 +56,20 @@ class Expansion:
     def dt(self) -> np.ndarray:
         return self.t1 - self.t0
 
-    def at(self, ts: np.ndarray) -> np.ndarray:
-        """Point values at the ascending times ``ts`` in ``[0, period]``: (R, len(ts))."""
-        s = np.clip(np.searchsorted(self.t1[:-1], ts, side="left"), 0, self.t0.size - 1)
-        tau = ts - self.t0[s]
-        e = np.exp(self.mu[s] * tau[:, None])  # (N, M)
-        y = np.real(np.einsum("nrm,nm->rn", self.alpha[s], e))
-        return y + self.g[s].T
+    def _row(self, r: int):
+        return (np.ascontiguousarray(self.alpha[:, r, :]), self.mu,
+                np.ascontiguousarray(self.g[:, r]), self.t0, self.t1)
 
-    def integral_to(self, ts: np.ndarray) -> np.ndarray:
-        """``int_0^t y dt`` at the ascending times ``ts`` in ``[0, period]``: (R, len(ts))."""
-        d = self.dt
-        whole = np.real(np.einsum("srm,sm->sr", self.alpha, d[:, None] * phi1(self.mu
-                                                                              * d[:, None])))
-        whole = whole + self.g * d[:, None]
-        start = np.vstack([np.zeros((1, whole.shape[1])), np.cumsum(whole, axis=0)])
-        s = np.clip(np.searchsorted(self.t1[:-1], ts, side="left"), 0, self.t0.size - 1)
-        tau = ts - self.t0[s]
-        part = np.real(np.einsum("nrm,nm->rn", self.alpha[s],
-                                 tau[:, None] * phi1(self.mu[s] * tau[:, None])))
-        return start[s].T + part + self.g[s].T * tau
+    def integral_to(self, r: int, ts: np.ndarray) -> np.ndarray:
+        """``int_0^t y_r dt`` at the ascending times ``ts`` in ``[0, period]``."""
+        return seg_integral_to(*self._row(r), np.ascontiguousarray(ts, dtype=float))
 
     def cell_means(self, n: int) -> np.ndarray:
         """Mean of each output over the ``n`` cells ``[(k - 1/2) dt, (k + 1/2) dt]`` of the
         period (``dt = period / n``; cell 0 wraps round the period's end): (R, n)."""
         T = self.period_s
-        edges = (np.arange(n) + 0.5) * (T / n)
-        G = self.integral_to(np.append(edges, T))
+        edges = np.append((np.arange(n) + 0.5) * (T / n), T)
+        G = np.array([self.integral_to(r, edges) for r in range(self.g.shape[1])])
         out = np.empty((G.shape[0], n))
         out[:, 1:] = np.diff(G[:, :n], axis=1)
         out[:, 0] = G[:, 0] + G[:, n] - G[:, n - 1]
@@ -98,73 +78,18 @@ class Expansion:
     def fourier(self, omega: float, max_order: int = MAX_ORDER) -> np.ndarray:
         """``(1 / T) int_0^T y exp(-j h w t) dt`` for orders ``h = 0..max_order`` of the
         mains frequency ``w`` [rad/s]: (R, max_order + 1) complex."""
-        T, d = self.period_s, self.dt
-        jhw = 1j * omega * np.arange(max_order + 1)  # (H,)
-        rot = np.exp(-np.outer(self.t0, jhw))  # (S, H)
-        dd = d[:, None, None]
-        p_a = dd * phi1((self.mu[:, :, None] - jhw[None, None, :]) * dd)  # (S, M, H)
-        p_c = dd * phi1((np.conj(self.mu)[:, :, None] - jhw[None, None, :]) * dd)
-        c = 0.5 * (np.einsum("srm,smh->srh", self.alpha, p_a)
-                   + np.einsum("srm,smh->srh", np.conj(self.alpha), p_c))
-        c = c + self.g[:, :, None] * (d[:, None] * phi1(-np.outer(d, jhw)))[:, None, :]
-        return np.einsum("srh,sh->rh", c, rot) / T
+        return np.array([seg_fourier(*self._row(r), float(omega), int(max_order))
+                         for r in range(self.g.shape[1])]) / self.period_s
 
     def mean_product(self, r1: int, r2: int) -> float:
         """``(1 / T) int_0^T y_r1 y_r2 dt`` (a mean square or a mean power)."""
-        d = self.dt[:, None, None]
-        a, b = self.alpha[:, r1, :], self.alpha[:, r2, :]
-        mu = self.mu
-        s1 = mu[:, :, None] + mu[:, None, :]
-        s2 = mu[:, :, None] + np.conj(mu)[:, None, :]
-        ab = a[:, :, None] * b[:, None, :]
-        abc = a[:, :, None] * np.conj(b)[:, None, :]
-        cross = 0.5 * np.real(ab * d * phi1(s1 * d) + abc * d * phi1(s2 * d)).sum(axis=(1, 2))
-        dm = self.dt[:, None]
-        lin = d[:, :, 0] * phi1(mu * dm)  # (S, M)
-        g1, g2 = self.g[:, r1], self.g[:, r2]
-        mixed = g2 * np.real((a * lin).sum(axis=1)) + g1 * np.real((b * lin).sum(axis=1))
-        return float(np.sum(cross + mixed + g1 * g2 * self.dt) / self.period_s)
+        a, mu, ga, t0, t1 = self._row(r1)
+        b, _, gb, _, _ = self._row(r2)
+        return float(seg_mean_product(a, b, mu, ga, gb, t0, t1)) / self.period_s
 
     def peak(self, r: int) -> float:
         """Largest ``|y_r|`` over the period."""
-        d = self.dt
-        u = np.concatenate([np.linspace(0.0, 1.0, PEAK_EVEN),
-                            np.geomspace(1e-6, 1.0, PEAK_GEOM)])
-        u.sort()
-        tau = d[:, None] * u[None, :]  # (S, P)
-        a, mu, g = self.alpha[:, r, :], self.mu, self.g[:, r]
-
-        def val(tt: np.ndarray, rows: np.ndarray) -> np.ndarray:
-            e = np.exp(mu[rows][:, :, None] * tt[:, None, :])  # (K, M, P)
-            return np.real(np.einsum("km,kmp->kp", a[rows], e)) + g[rows][:, None]
-
-        rows = np.arange(d.size)
-        y = np.abs(val(tau, rows))
-        k = np.argmax(y, axis=1)
-        best = y[rows, k]
-        # refine around the best point of the segments whose samples come within 10 % of
-        # the largest one (a peak between two samples of another segment is not larger)
-        cand = np.flatnonzero(best >= 0.9 * best.max()) if best.size else rows
-        lo = tau[cand, np.maximum(k[cand] - 1, 0)]
-        hi = tau[cand, np.minimum(k[cand] + 1, u.size - 1)]
-        gr = (np.sqrt(5.0) - 1) / 2
-        x1, x2 = hi - gr * (hi - lo), lo + gr * (hi - lo)
-        f1 = np.abs(val(x1[:, None], cand))[:, 0]
-        f2 = np.abs(val(x2[:, None], cand))[:, 0]
-        for _ in range(40):
-            left = f1 > f2  # the maximum lies in [lo, x2]
-            hi = np.where(left, x2, hi)
-            lo = np.where(left, lo, x1)
-            x2n = np.where(left, x1, lo + gr * (hi - lo))
-            x1n = np.where(left, hi - gr * (hi - lo), x2)
-            f2n = np.where(left, f1, np.nan)
-            f1n = np.where(left, np.nan, f2)
-            new1 = np.abs(val(x1n[:, None], cand))[:, 0]
-            new2 = np.abs(val(x2n[:, None], cand))[:, 0]
-            f1 = np.where(left, new1, f1n)
-            f2 = np.where(left, f2n, new2)
-            x1, x2 = x1n, x2n
-        return float(max(best.max(), np.max(f1), np.max(f2)))
+        return float(seg_peak(*self._row(r), PEAK_EVEN, PEAK_GEOM))
 
 
 def expand(eng, tr, rows: list[int]) -> Expansion:
@@ -201,7 +126,9 @@ def expand(eng, tr, rows: list[int]) -> Expansion:
                             harm * np.exp(np.outer(t0, kw))[:, None, :]], axis=2)
     mu = np.concatenate([lam, np.broadcast_to(kw, (len(segs), kw.size))], axis=1)
     period = float(t1[-1])
-    return Expansion(t0, t1, mu.astype(complex), alpha.astype(complex), g, period)
+    return Expansion(t0, t1, np.ascontiguousarray(mu, dtype=complex),
+                     np.ascontiguousarray(alpha, dtype=complex),
+                     np.ascontiguousarray(g, dtype=float), period)
 
 
 @dataclass(frozen=True)

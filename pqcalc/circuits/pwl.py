@@ -36,23 +36,21 @@ inputs", Proc. IEEE 60(1), 1972 (shooting with the monodromy matrix).
 
 from __future__ import annotations
 
-import cmath
 from dataclasses import dataclass
 
 import numpy as np
 
 from ..errors import ConvergenceError
+from .kernels import ROOT_TOL_S, first_event, modal
 from .network import CH_ONE, CH_SOURCE, Network
 
-__all__ = ["Source", "Automaton", "Engine", "Trajectory", "EPS_I_A", "EPS_V_V"]
+__all__ = ["Source", "Automaton", "Engine", "Trajectory", "EPS_I_A", "EPS_V_V", "ROOT_TOL_S"]
 
 #: event hysteresis of diodes: a conducting diode blocks when its current falls below
 #: -EPS_I_A, a blocking one conducts when its voltage exceeds v_on + EPS_V_V. Far below any
 #: current or voltage of interest; they only stop a just-switched diode from switching back.
 EPS_I_A = 1e-7
 EPS_V_V = 1e-5
-#: event times are located to within 1 ps (2e-8 deg at 50 Hz)
-ROOT_TOL_S = 1e-12
 
 
 @dataclass(frozen=True)
@@ -209,17 +207,15 @@ class Engine:
             ms = self.net.mode(key)
             A, B = ms.A, ms.B
             n = A.shape[0]
-            lam, V = np.linalg.eig(A)
-            if n and np.linalg.cond(V) > 1e9:  # (nearly) defective: nudge the eigenvalues apart
-                lam, V = np.linalg.eig(A + np.diag(1e-9 * np.abs(np.diag(A)).max()
-                                                   * np.arange(1, n + 1)))
-            Vinv = np.linalg.inv(V)
-            w = self.src.omega
-            # particular solution of every source harmonic: one batched solve
-            hs = self.src.orders
-            M = 1j * (hs * w)[:, None, None] * np.eye(n)[None] - A[None]
-            rhs = B[:, CH_SOURCE][None, :, None] * self.src.amplitudes[:, None, None]
-            P = np.linalg.solve(M, rhs)[:, :, 0].T if n else np.zeros((0, hs.size), complex)
+            if n:
+                lam, V, Vinv, P = modal(np.ascontiguousarray(A),
+                                        np.ascontiguousarray(B[:, CH_SOURCE]),
+                                        self.src.amplitudes.astype(complex),
+                                        self.src.orders.astype(float), float(self.src.omega))
+            else:
+                lam, V, Vinv = np.zeros(0, complex), np.zeros((0, 0), complex), \
+                    np.zeros((0, 0), complex)
+                P = np.zeros((0, self.src.orders.size), complex)
             bc = B[:, CH_ONE] + B[:, CH_SOURCE] * self.src.dc_v
             for ch, val in consts:
                 bc = bc + B[:, ch] * val
@@ -413,43 +409,11 @@ class Engine:
         seg = _Segment(t0, t_stop, disc, md, x0, c=c)
         tags, GV, GP, g0 = self._guard_data(disc, md)
         if tags and t_stop > t0:
-            GVc = GV * c[None, :]
-            lam = md.lam
-            jwh = self._jwh
-
-            def gval(ts):
-                hom = np.real(GVc @ np.exp(np.multiply.outer(lam, ts - t0)))
-                part = np.real(GP @ np.exp(np.multiply.outer(jwh, ts)))
-                return hom + part + g0[:, None]
-
-            span = t_stop - t0
-            nstep = max(int(np.ceil(span / self.dt_grid)), 1)
-            chunk = 64
-            g_t0 = np.real(GVc.sum(axis=1)) + np.real(GP @ np.exp(jwh * t0)) + g0
-            prev_t, prev_g = t0, np.minimum(g_t0, 0.0)
-            k = 0
-            while k < nstep:
-                kk = np.arange(k + 1, min(k + chunk, nstep) + 1)
-                chunk = min(2 * chunk, 1024)
-                ts = t0 + span * kk / nstep
-                gv = gval(ts)
-                allg = np.concatenate([prev_g[:, None], gv], axis=1)
-                cross = (allg[:, 1:] > 0) & (allg[:, :-1] <= 0)
-                if cross.any():
-                    col = int(np.argmax(cross.any(axis=0)))
-                    ta = prev_t if col == 0 else ts[col - 1]
-                    tb = ts[col]
-                    best, btag = tb, None
-                    for i in np.flatnonzero(cross[:, col]):
-                        tr = _root(GVc[i], lam, GP[i], jwh, g0[i], t0, ta, tb,
-                                   allg[i, col], allg[i, col + 1])
-                        if tr <= best:
-                            best, btag = tr, tags[i]
-                    x1 = self._x1(md, t0, c, best)
-                    seg.t1 = best
-                    return best, btag, x1, seg
-                prev_t, prev_g = ts[-1], gv[:, -1]
-                k = kk[-1]
+            i, t_hit = first_event(GV * c[None, :], md.lam, GP, self._jwh, g0, t0, t_stop,
+                                   self.dt_grid)
+            if i >= 0:
+                seg.t1 = t_hit
+                return t_hit, tags[i], self._x1(md, t0, c, t_hit), seg
         x1 = self._x1(md, t0, c, t_stop)
         return t_stop, None, x1, seg
 
@@ -523,53 +487,3 @@ class Engine:
             Y[:, a:b] = md.Q[rows] @ np.vstack([xs, U])
             X[:, a:b] = xs
         return Y, X
-
-
-def _root(a_hom, lam, a_part, jwh, g0, t0, ta, tb, fa, fb) -> float:
-    """The first time in ``(ta, tb]`` where ``f(t) = Re(a_hom . exp(lam (t - t0))) +
-    Re(a_part . exp(jwh t)) + g0`` rises through zero (``f(ta) <= 0 < f(tb)``), returned
-    just past the root so the event has truly happened: Newton with the exact derivative,
-    kept inside the bracket (regula falsi step when Newton leaves it)."""
-
-    # scalar complex arithmetic: a few terms, where numpy's per-call overhead would dominate
-    hom = [(complex(a), complex(b)) for a, b in zip(a_hom, lam, strict=True)]
-    part = [(complex(a), complex(b)) for a, b in zip(a_part, jwh, strict=True)]
-    g0 = float(g0)
-
-    def f(t):
-        v, d = g0, 0.0
-        dt = t - t0
-        for a, b in hom:
-            e = a * cmath.exp(b * dt)
-            v += e.real
-            d += (e * b).real
-        for a, b in part:
-            e = a * cmath.exp(b * t)
-            v += e.real
-            d += (e * b).real
-        return v, d
-
-    if fa > 0:
-        return ta
-    lo, hi, flo, fhi = ta, tb, fa, fb
-    t = lo + (hi - lo) * (-flo) / (fhi - flo)
-    for _ in range(60):
-        ft, dft = f(t)
-        if ft > 0:
-            hi, fhi = t, ft
-        else:
-            lo, flo = t, ft
-        if hi - lo < ROOT_TOL_S:
-            break
-        tn = t - ft / dft if dft != 0 else np.nan
-        if not (lo < tn < hi):
-            tn = lo + (hi - lo) * (-flo) / (fhi - flo)
-            if not (lo < tn < hi):
-                tn = 0.5 * (lo + hi)
-        if abs(tn - t) < 0.5 * ROOT_TOL_S:
-            # converged: the returned time must lie past the root
-            tn = min(tn + ROOT_TOL_S, hi)
-            if tn == hi or f(tn)[0] > 0:
-                return tn
-        t = tn
-    return hi

@@ -1,0 +1,329 @@
+"""Compiled inner loops of the solver (numba), with the same arithmetic as plain Python.
+
+:func:`first_event` scans a segment's guards for the first one that rises through zero and
+locates that root: the per-event work of :meth:`pqcalc.circuits.pwl.Engine.run`, where the
+interpreter's overhead on a handful of small arrays used to dominate. numba compiles it on
+first use and caches the machine code beside this file (``__pycache__``), so later processes
+load it instead of compiling (see :data:`COMPILED`). Without numba the same functions run
+as plain Python (slower, same results).
+
+A guard ``i`` of a segment starting at ``t0`` is
+
+    g_i(t) = Re(sum_m GVc[i, m] exp(lam[m] (t - t0))) + Re(sum_k GP[i, k] exp(jwh[k] t)) + g0[i].
+"""
+
+from __future__ import annotations
+
+import cmath
+import math
+
+import numpy as np
+
+try:  # pragma: no cover - exercised by whichever is installed
+    from numba import njit
+
+    COMPILED = True
+except ImportError:  # pragma: no cover
+    COMPILED = False
+
+    def njit(*args, **kwargs):  # type: ignore[no-redef]
+        def wrap(fn):
+            return fn
+
+        return wrap(args[0]) if args and callable(args[0]) else wrap
+
+__all__ = ["first_event", "COMPILED", "ROOT_TOL_S"]
+
+#: event times are located to within 1 ps (2e-8 deg at 50 Hz)
+ROOT_TOL_S = 1e-12
+
+
+@njit(cache=True)
+def _g(i, t, t0, GVc, lam, GP, jwh, g0):
+    """Value and time derivative of guard ``i`` at ``t``."""
+    v = g0[i]
+    d = 0.0
+    dt = t - t0
+    for m in range(lam.size):
+        e = GVc[i, m] * cmath.exp(lam[m] * dt)
+        v += e.real
+        d += (e * lam[m]).real
+    for k in range(jwh.size):
+        e = GP[i, k] * cmath.exp(jwh[k] * t)
+        v += e.real
+        d += (e * jwh[k]).real
+    return v, d
+
+
+@njit(cache=True)
+def _root(i, t0, ta, tb, fa, fb, GVc, lam, GP, jwh, g0):
+    """The first time in ``(ta, tb]`` where guard ``i`` rises through zero (``g(ta) <= 0 <
+    g(tb)``), returned just past the root so the event has truly happened: Newton with the
+    exact derivative, kept inside the bracket (regula falsi step when Newton leaves it)."""
+    if fa > 0:
+        return ta
+    lo, hi, flo, fhi = ta, tb, fa, fb
+    t = lo + (hi - lo) * (-flo) / (fhi - flo)
+    for _ in range(60):
+        ft, dft = _g(i, t, t0, GVc, lam, GP, jwh, g0)
+        if ft > 0:
+            hi, fhi = t, ft
+        else:
+            lo, flo = t, ft
+        if hi - lo < ROOT_TOL_S:
+            break
+        tn = t - ft / dft if dft != 0 else math.nan
+        if not (lo < tn < hi):
+            tn = lo + (hi - lo) * (-flo) / (fhi - flo)
+            if not (lo < tn < hi):
+                tn = 0.5 * (lo + hi)
+        if abs(tn - t) < 0.5 * ROOT_TOL_S:
+            # converged: the returned time must lie past the root
+            tn = min(tn + ROOT_TOL_S, hi)
+            if tn == hi or _g(i, tn, t0, GVc, lam, GP, jwh, g0)[0] > 0:
+                return tn
+        t = tn
+    return hi
+
+
+@njit(cache=True)
+def first_event(GVc, lam, GP, jwh, g0, t0, t_stop, dt_grid):
+    """The first guard to rise through zero in ``(t0, t_stop]`` and its time: ``(index,
+    time)``, or ``(-1, t_stop)`` when none does. The guards are evaluated on an even grid
+    of at most ``dt_grid`` spacing (a guard already above zero at ``t0`` counts as zero
+    there); in the first grid interval where some guard crosses, each crossing guard's
+    root is located and the earliest wins (the later guard on a tie)."""
+    ng = g0.size
+    span = t_stop - t0
+    if ng == 0 or not span > 0:
+        return -1, t_stop
+    nstep = max(int(math.ceil(span / dt_grid)), 1)
+    h = span / nstep
+    prev = np.empty(ng)
+    cur = np.empty(ng)
+    for i in range(ng):
+        prev[i] = min(_g(i, t0, t0, GVc, lam, GP, jwh, g0)[0], 0.0)
+    # the exponentials advance by one grid step per step (rounding grows by about one
+    # machine epsilon per step: below 1e-12 over any run's steps)
+    n, nk = lam.size, jwh.size
+    em = np.empty(n, dtype=np.complex128)
+    sm = np.empty(n, dtype=np.complex128)
+    for m in range(n):
+        em[m] = 1.0
+        sm[m] = cmath.exp(lam[m] * h)
+    ek = np.empty(nk, dtype=np.complex128)
+    sk = np.empty(nk, dtype=np.complex128)
+    for k in range(nk):
+        ek[k] = cmath.exp(jwh[k] * t0)
+        sk[k] = cmath.exp(jwh[k] * h)
+    ta = t0
+    for step in range(1, nstep + 1):
+        tb = t0 + span * step / nstep
+        if step % 64 == 0:  # re-anchor the recurrences on exact values
+            for m in range(n):
+                em[m] = cmath.exp(lam[m] * (tb - t0))
+            for k in range(nk):
+                ek[k] = cmath.exp(jwh[k] * tb)
+        else:
+            for m in range(n):
+                em[m] *= sm[m]
+            for k in range(nk):
+                ek[k] *= sk[k]
+        crossed = False
+        for i in range(ng):
+            v = g0[i]
+            for m in range(n):
+                v += (GVc[i, m] * em[m]).real
+            for k in range(nk):
+                v += (GP[i, k] * ek[k]).real
+            cur[i] = v
+            if v > 0 and prev[i] <= 0:
+                crossed = True
+        if crossed:
+            best, bi = tb, -1
+            for i in range(ng):
+                if cur[i] > 0 and prev[i] <= 0:
+                    tr = _root(i, t0, ta, tb, prev[i], cur[i], GVc, lam, GP, jwh, g0)
+                    if tr <= best:
+                        best, bi = tr, i
+            return bi, best
+        for i in range(ng):
+            prev[i] = cur[i]
+        ta = tb
+    return -1, t_stop
+
+
+# ---------------------------------------------------------------------- exact integrals
+# One output over the segments s of a trajectory: y = Re(sum_m a[s, m] exp(mu[s, m] tau))
+# + g[s], tau = t - t0[s] in [0, t1[s] - t0[s]] (see pqcalc.circuits.exact).
+
+
+@njit(cache=True)
+def _phi1(z):
+    """``(exp(z) - 1) / z`` (series below ``|z| = 1e-5``)."""
+    if abs(z) < 1e-5:
+        return 1.0 + z * (0.5 + z * (1.0 / 6.0 + z / 24.0))
+    return (cmath.exp(z) - 1.0) / z
+
+
+@njit(cache=True)
+def _phi1e(z, ez):
+    """``(ez - 1) / z`` with ``ez = exp(z)`` given (series below ``|z| = 1e-5``)."""
+    if abs(z) < 1e-5:
+        return 1.0 + z * (0.5 + z * (1.0 / 6.0 + z / 24.0))
+    return (ez - 1.0) / z
+
+
+@njit(cache=True)
+def seg_fourier(a, mu, g, t0, t1, omega, max_order):
+    """``int y exp(-j h w t) dt`` over the segments, ``h = 0..max_order`` (not divided by
+    the period)."""
+    out = np.zeros(max_order + 1, dtype=np.complex128)
+    S, M = mu.shape
+    for s in range(S):
+        d = t1[s] - t0[s]
+        if not d > 0:
+            continue
+        step = cmath.exp(-1j * omega * d)  # exp(-j w d), raised to h by recurrence
+        rstep = cmath.exp(-1j * omega * t0[s])
+        eh = 1.0 + 0j  # exp(-j h w d)
+        rot = 1.0 + 0j  # exp(-j h w t0)
+        emu = np.empty(M, dtype=np.complex128)
+        for m in range(M):
+            emu[m] = cmath.exp(mu[s, m] * d)
+        for h in range(max_order + 1):
+            jhw = 1j * h * omega
+            acc = g[s] * d * _phi1e(-jhw * d, eh)
+            for m in range(M):
+                za = (mu[s, m] - jhw) * d
+                zc = (mu[s, m].conjugate() - jhw) * d
+                acc += 0.5 * d * (a[s, m] * _phi1e(za, emu[m] * eh)
+                                  + a[s, m].conjugate() * _phi1e(zc, emu[m].conjugate() * eh))
+            out[h] += acc * rot
+            eh *= step
+            rot *= rstep
+    return out
+
+
+@njit(cache=True)
+def seg_mean_product(a, b, mu, ga, gb, t0, t1):
+    """``int y_a y_b dt`` over the segments (not divided by the period)."""
+    S, M = mu.shape
+    total = 0.0
+    for s in range(S):
+        d = t1[s] - t0[s]
+        if not d > 0:
+            continue
+        acc = ga[s] * gb[s] * d
+        for m in range(M):
+            lin = d * _phi1(mu[s, m] * d)
+            acc += gb[s] * (a[s, m] * lin).real + ga[s] * (b[s, m] * lin).real
+            for k in range(M):
+                acc += 0.5 * d * (a[s, m] * b[s, k] * _phi1((mu[s, m] + mu[s, k]) * d)
+                                  + a[s, m] * b[s, k].conjugate()
+                                  * _phi1((mu[s, m] + mu[s, k].conjugate()) * d)).real
+        total += acc
+    return total
+
+
+@njit(cache=True)
+def seg_integral_to(a, mu, g, t0, t1, ts):
+    """``int_0^t y dt`` at the ascending times ``ts`` (``t0[0] = 0``)."""
+    S, M = mu.shape
+    out = np.empty(ts.size)
+    s = 0
+    base = 0.0
+    for n in range(ts.size):
+        t = ts[n]
+        while s < S - 1 and t > t1[s]:
+            d = t1[s] - t0[s]
+            acc = g[s] * d
+            for m in range(M):
+                acc += (a[s, m] * d * _phi1(mu[s, m] * d)).real
+            base += acc
+            s += 1
+        tau = t - t0[s]
+        acc = g[s] * tau
+        for m in range(M):
+            acc += (a[s, m] * tau * _phi1(mu[s, m] * tau)).real
+        out[n] = base + acc
+    return out
+
+
+@njit(cache=True)
+def _val(a, mu, g, s, tau):
+    v = g[s]
+    for m in range(mu.shape[1]):
+        v += (a[s, m] * cmath.exp(mu[s, m] * tau)).real
+    return abs(v)
+
+
+@njit(cache=True)
+def seg_peak(a, mu, g, t0, t1, n_even, n_geom):
+    """Largest ``|y|``: on each segment ``n_even`` even points and ``n_geom`` geometric ones
+    from its start (a transient decays from the event that starts it), the best refined by
+    golden-section search between its neighbours."""
+    S = mu.shape[0]
+    npt = n_even + n_geom
+    u = np.empty(npt)
+    for k in range(n_even):
+        u[k] = k / (n_even - 1)
+    for k in range(n_geom):
+        u[n_even + k] = 10.0 ** (-6.0 + 6.0 * k / (n_geom - 1))
+    u.sort()
+    best = 0.0
+    gr = (math.sqrt(5.0) - 1.0) / 2.0
+    for s in range(S):
+        d = t1[s] - t0[s]
+        if not d >= 0:
+            continue
+        kb, vb = 0, -1.0
+        for k in range(npt):
+            v = _val(a, mu, g, s, d * u[k])
+            if v > vb:
+                kb, vb = k, v
+        if vb > best:
+            best = vb
+        if d > 0 and vb >= 0.9 * best:
+            lo = d * u[max(kb - 1, 0)]
+            hi = d * u[min(kb + 1, npt - 1)]
+            x1, x2 = hi - gr * (hi - lo), lo + gr * (hi - lo)
+            f1, f2 = _val(a, mu, g, s, x1), _val(a, mu, g, s, x2)
+            for _ in range(40):
+                if f1 > f2:
+                    hi, x2, f2 = x2, x1, f1
+                    x1 = hi - gr * (hi - lo)
+                    f1 = _val(a, mu, g, s, x1)
+                else:
+                    lo, x1, f1 = x1, x2, f2
+                    x2 = lo + gr * (hi - lo)
+                    f2 = _val(a, mu, g, s, x2)
+            best = max(best, f1, f2)
+    return best
+
+
+# ---------------------------------------------------------------------- modes
+@njit(cache=True)
+def modal(A, b_src, amps, orders, omega):
+    """Eigen-decomposition ``A = V diag(lam) V^-1`` (a (nearly) defective ``A``, whose
+    eigenvector matrix has a condition number above 1e9, has its eigenvalues nudged apart
+    by 1e-9 of its largest diagonal entry) and the particular-solution phasors
+    ``P[:, k] = (j h_k w I - A)^-1 b_src amps[k]`` of the source harmonics."""
+    n = A.shape[0]
+    Ac = A.astype(np.complex128)
+    lam, V = np.linalg.eig(Ac)
+    if np.linalg.cond(V) > 1e9:
+        big = 0.0
+        for i in range(n):
+            big = max(big, abs(A[i, i]))
+        for i in range(n):
+            Ac[i, i] += 1e-9 * big * (i + 1)
+        lam, V = np.linalg.eig(Ac)
+    Vinv = np.linalg.inv(V)
+    P = np.empty((n, orders.size), dtype=np.complex128)
+    for k in range(orders.size):
+        M = -A.astype(np.complex128)
+        for i in range(n):
+            M[i, i] += 1j * orders[k] * omega
+        P[:, k] = np.linalg.solve(M, b_src.astype(np.complex128) * amps[k])
+    return lam, V, Vinv, P
