@@ -18,10 +18,8 @@ Long tables continue on the next page with their header repeated; a table row is
 split across pages. The text is real text (TrueType fonts embedded), so the report can be
 searched and its text extracted; the figures are embedded as 200 dpi images.
 
-The lineup is a list of :class:`LineupEntry` (or of objects with the same fields: see
-:func:`lineup_entries`). :func:`default_lineup` uses ``pqcalc.lineup.evaluate_lineup`` when
-that module exists, else evaluates the measured fixture types' captures with
-:func:`pqcalc.standards.evaluate_fixture` (:func:`capture_lineup`).
+The lineup is a list of :class:`~pqcalc.installation.lineup.LineupEntry`; when none is
+given, :func:`pqcalc.installation.evaluate_lineup` evaluates the installation's.
 
 The report supports, and never replaces, the local electrical code and the design of a
 licensed professional; every page says so in its footer and the last section in full.
@@ -38,15 +36,6 @@ from typing import TYPE_CHECKING
 
 from .errors import InputError
 from .reporting.layout import Doc
-from .reporting.lineup import (
-    LineupEntry,
-    LineupState,
-    capture_lineup,
-    default_lineup,
-    limits_a_from_result,
-    lineup_entries,
-    standards_applied,
-)
 from .reporting.sections import (
     SECTION_TITLES,
     assumptions,
@@ -61,16 +50,9 @@ from .reporting.sections import (
 if TYPE_CHECKING:  # pragma: no cover
     from matplotlib.figure import Figure
 
-    from .assess import Assessment
+    from .installation import Assessment, LineupEntry
 
 __all__ = [
-    "LineupState",
-    "LineupEntry",
-    "limits_a_from_result",
-    "lineup_entries",
-    "capture_lineup",
-    "default_lineup",
-    "standards_applied",
     "SECTION_TITLES",
     "report_pages",
     "report_pdf_bytes",
@@ -82,22 +64,23 @@ def _now() -> str:
     return _dt.datetime.now().astimezone().strftime("%Y-%m-%d %H:%M %Z").strip()
 
 
-def report_pages(assessment: Assessment, lineup: Sequence | None = None,
+def report_pages(assessment: Assessment, lineup: Sequence[LineupEntry] | None = None,
                  lineup_notes: Sequence[str] = (), generated: str | None = None
                  ) -> list[Figure]:
     """The report's pages as A4 :class:`~matplotlib.figure.Figure` objects, numbered.
 
-    ``lineup``: the fixture lineup (see :func:`lineup_entries`); None evaluates it with
-    :func:`default_lineup`.
+    ``lineup``: the fixture lineup; None evaluates it with
+    :func:`pqcalc.installation.evaluate_lineup`.
     """
     from . import __version__
     from .plotting.style import STYLE, _mpl
 
     if lineup is None:
-        entries, notes = default_lineup(assessment.installation)
-        lineup_notes = list(lineup_notes) + notes
+        from .installation import evaluate_lineup
+
+        entries = evaluate_lineup(assessment.installation)
     else:
-        entries = lineup_entries(lineup)
+        entries = list(lineup)
     generated = generated or _now()
     pj = assessment.installation.project
     doc = Doc(f"{pj.name or assessment.installation.path}  |  pqcalc {__version__}")

@@ -31,22 +31,37 @@ __all__ = [
     "spectrum",
     "harmonic_groups",
     "rotate_phasors",
+    "period_phasors",
     "DEFAULT_MAX_ORDER",
 ]
 
 DEFAULT_MAX_ORDER = 50
 
 
-def _dft_orders(x: np.ndarray, cycles: int, max_order: int) -> np.ndarray:
-    """Complex amplitudes (cosine basis, peak) of orders 0..max_order."""
-    n = x.size
-    X = np.fft.rfft(x) / n
+def period_phasors(x: np.ndarray, cycles: int = 1, max_order: int = DEFAULT_MAX_ORDER
+                   ) -> np.ndarray:
+    """RMS phasors (sine basis) of orders 0..max_order of a record over whole cycles [A or V].
+
+    The phase origin is the record's own first sample; index 0 is the signed DC value. The
+    last axis is time, so a stack of records gives a stack of spectra. This is the one place
+    the FFT-to-phasor convention lives: order h of an N-cycle record sits on bin ``h*N``; a
+    cosine-basis peak amplitude ``c`` is the sine-basis RMS phasor ``j c / sqrt(2)``.
+
+    >>> t = np.arange(64) / 64
+    >>> p = period_phasors(np.sqrt(2) * 3.0 * np.sin(2 * np.pi * t), 1, 3)
+    >>> np.round(p, 12)
+    array([0.+0.j, 3.+0.j, 0.+0.j, 0.+0.j])
+    """
+    x = np.asarray(x, dtype=float)
+    n = x.shape[-1]
+    X = np.fft.rfft(x, axis=-1) / n
     bins = np.arange(max_order + 1) * cycles
-    c = X[bins].copy()
-    c[1:] *= 2.0
+    c = 2.0 * X[..., bins]
     if n % 2 == 0 and bins[-1] == n // 2:  # order at the Nyquist bin is not doubled
-        c[-1] /= 2.0
-    return c
+        c[..., -1] /= 2.0
+    p = c * (1j / np.sqrt(2))
+    p[..., 0] = X[..., 0].real
+    return p
 
 
 @dataclass(frozen=True)
@@ -172,10 +187,10 @@ def spectrum(
     if max_order < 1:
         raise InputError("the record has too few samples per cycle to resolve the fundamental")
 
-    ci = _dft_orders(waveform.current_a, waveform.cycles, max_order)
+    ci = period_phasors(waveform.current_a, waveform.cycles, max_order)
     cv = None
     if waveform.voltage_v is not None:
-        cv = _dft_orders(waveform.voltage_v, waveform.cycles, max_order)
+        cv = period_phasors(waveform.voltage_v, waveform.cycles, max_order)
 
     if reference == "auto":
         reference = "voltage" if cv is not None else "current"
@@ -191,16 +206,11 @@ def spectrum(
         # nothing to align to: keep the record's own time origin
         psi1 = 0.0
     else:
-        psi1 = float(np.angle(ref1)) + np.pi / 2  # phase of the reference in the sine basis
+        psi1 = float(np.angle(ref1))  # phase of the reference in the sine basis
 
-    h = np.arange(max_order + 1)
-
-    def to_phasors(c: np.ndarray) -> np.ndarray:
-        # cosine-basis peak amplitude -> sine-basis RMS phasor, origin at the reference
-        # zero crossing: phi_h = theta_h + 90 deg - h * psi_1
-        p = np.abs(c) / np.sqrt(2) * np.exp(1j * (np.angle(c) + np.pi / 2 - h * psi1))
-        p[0] = c[0].real
-        return p
+    def to_phasors(p: np.ndarray) -> np.ndarray:
+        # origin moved to the reference's positive-going zero crossing: phi_h -= h * psi_1
+        return rotate_phasors(p, -psi1)
 
     i = waveform.current_a
     return Spectrum(

@@ -664,7 +664,7 @@ def sweep(spec: SweepSpec, evaluator: Callable[[Case], CaseOutcome] | None = Non
 # ------------------------------------------------------------------------ portfolio
 def _assess_one(inst) -> dict:
     """One building's figures (design scenario, at the service) as plain values."""
-    from .assess import assess
+    from .installation import assess
 
     a = assess(inst)
     d = a.design
@@ -692,7 +692,7 @@ def _assess_one(inst) -> dict:
         "thd_i_line_max": float(worst.thd_i),
         "i_neutral_a": float("nan") if t.neutral is None else float(t.neutral.i_rms_a),
         "neutral_ratio": (float("nan") if t.neutral is None
-                          else float(t.neutral.ratio_to_max_phase)),
+                          else float(t.neutral.ratio_to_max_line)),
         "k_factor": float(t.k_factor),
         "verdict": "fail" if a.failed else "pass",
         "checks_failed": statuses.count("fail"),

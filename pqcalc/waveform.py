@@ -23,6 +23,7 @@ __all__ = [
     "estimate_frequency",
     "resample_whole_cycles",
     "sine",
+    "shift_periodic",
 ]
 
 
@@ -167,13 +168,7 @@ class Waveform:
         """
 
         def shift(x: np.ndarray) -> np.ndarray:
-            n = x.size
-            X0 = np.fft.rfft(x)
-            turn = np.arange(X0.size) * angle_rad / self.cycles
-            X = X0 * np.exp(-1j * turn)
-            if n % 2 == 0:  # the Nyquist bin of a real signal stays real
-                X[-1] = X0[-1] * np.cos(turn[-1])
-            return np.fft.irfft(X, n)
+            return shift_periodic(x, angle_rad, self.cycles)
 
         return Waveform(
             shift(self.current_a),
@@ -383,3 +378,30 @@ def resample_whole_cycles(
         v = np.asarray(voltage_v, dtype=float)[start:]
         cv = CubicSpline(t, v)(tn)
     return Waveform(ci, samples_per_cycle * frequency_hz, frequency_hz, cv, cycles)
+
+
+def shift_periodic(x: np.ndarray, angle_rad: float, cycles: int = 1) -> np.ndarray:
+    """Delay a periodic record over whole cycles by ``angle_rad`` of the fundamental.
+
+    ``y(t) = x(t - angle/w)``: the phasor of order h turns by ``-h * angle_rad``. A shift of a
+    whole number of samples is an exact circular roll; any other shift is exact Fourier
+    interpolation (the record is taken as band-limited). The last axis is time. This is the
+    one place a waveform is moved in time (a line's current to the L1 reference, a capture
+    to its voltage zero crossing, a case to its panel's voltage angle).
+
+    >>> shift_periodic(np.array([0.0, 1.0, 0.0, 0.0]), np.pi / 2)
+    array([0., 0., 1., 0.])
+    """
+    x = np.asarray(x, dtype=float)
+    if angle_rad == 0:
+        return x
+    n = x.shape[-1]
+    k = angle_rad / (2 * np.pi) * n / cycles
+    if abs(k - round(k)) < 1e-9:
+        return np.roll(x, int(round(k)), axis=-1)
+    X0 = np.fft.rfft(x, axis=-1)
+    turn = np.arange(X0.shape[-1]) * angle_rad / cycles
+    X = X0 * np.exp(-1j * turn)
+    if n % 2 == 0:  # the Nyquist bin of a real signal stays real
+        X[..., -1] = X0[..., -1] * np.cos(turn[-1])
+    return np.fft.irfft(X, n, axis=-1)

@@ -13,7 +13,7 @@ import numpy as np
 import pytest
 from click.testing import CliRunner
 
-from pqcalc.assess import assess
+from pqcalc.installation import assess
 from pqcalc.cli import main
 from pqcalc.installation import load_installation
 
@@ -39,7 +39,7 @@ id = "P1"
 CIRCUIT = """
 [[panels.circuits]]
 id = "{id}"
-phase = "{phase}"
+line = "{phase}"
 breaker_a = 16
 dimmer = "{dimmer}"
 {setting}
@@ -69,7 +69,7 @@ def test_balanced_90_deg_resistive_neutral_is_sqrt2(tmp_path):
     inst = build(tmp_path, [(ph, "leading-edge", 90, 4) for ph in ("L1", "L2", "L3")])
     a = assess(inst)
     p = a.design.panels[0]
-    assert p.neutral.ratio_to_max_phase == pytest.approx(np.sqrt(2), rel=0.01)
+    assert p.neutral.ratio_to_max_line == pytest.approx(np.sqrt(2), rel=0.01)
     # each line: I_rms = (V/R) sqrt(1/2) for 4 lamps of R = V^2/P (closed form)
     r = 230.0**2 / 100.0
     assert p.lines["L1"].i_rms_a == pytest.approx(4 * 230.0 / r * np.sqrt(0.5), rel=0.01)
@@ -123,11 +123,11 @@ def test_assess_json_keys_and_exit_codes(tmp_path):
     assert r.exit_code == 0, r.output
     d = json.loads(r.output)
     c = d["circuits"][0]
-    assert {"id", "panel", "phase", "i_rms_a", "thd_i_pct", "pf", "flags"} <= set(c)
+    assert {"id", "panel", "line", "i_rms_a", "thd_i_pct", "pf", "flags"} <= set(c)
     p = d["panels"][0]
-    assert set(p["phases"]) == {"L1", "L2", "L3"}
-    assert {"i_rms_a", "thd_i_pct"} <= set(p["phases"]["L1"])
-    assert {"i_rms_a", "ratio_to_max_phase", "triplen_share_pct"} <= set(p["neutral"])
+    assert set(p["lines"]) == {"L1", "L2", "L3"}
+    assert {"i_rms_a", "thd_i_pct"} <= set(p["lines"]["L1"])
+    assert {"i_rms_a", "ratio_to_max_line", "triplen_share_pct"} <= set(p["neutral"])
     assert "licensed professional" in d["caution"]
     # a neutral ampacity below the neutral current fails the neutral check: exit 1
     text = (tmp_path / "site.toml").read_text().replace('id = "P1"',
@@ -144,10 +144,10 @@ def test_summation_diversity_triplens_add(tmp_path):
     inst = build(tmp_path, [("L1", "leading-edge", 90, 2), ("L1", "leading-edge", 90, 2)])
     from dataclasses import replace
 
-    from pqcalc.installation import Diversity
+    from pqcalc.installation.model import Diversity
 
     inst = replace(inst, diversity=Diversity(mode="summation"))
     a = assess(inst)
     one = a.design.circuits[0]
-    i3 = a.diversity["panels"][0]["phases"]["L1"]["i3_a"]
+    i3 = a.diversity.panels[0].lines["L1"][1]
     assert i3 == pytest.approx(2 * one.magnitudes_a[3], rel=1e-9)

@@ -5,7 +5,7 @@ from __future__ import annotations
 import numpy as np
 import pytest
 
-from pqcalc import checks as ck
+from pqcalc.installation import checks as ck
 from pqcalc import metrics
 
 

@@ -139,7 +139,7 @@ def test_installation_file_measured_fixture_types(tmp_path):
         '[project]\nname = "invented test site"\n'
         '[supply]\nsystem = "single-phase"\nvoltage_ln_v = 230\nfrequency_hz = 50\n'
         '[fixtures.pendant]\ncapture = "lamp30.csv"\npower_w = 30.0\n'
-        '[[panels]]\nid = "DB"\n[[panels.circuits]]\nid = "C1"\nphase = "L1"\n'
+        '[[panels]]\nid = "DB"\n[[panels.circuits]]\nid = "C1"\nline = "L1"\n'
         'breaker_a = 10\ndimmer = "none"\nfixtures = [{type = "pendant", count = 4}]\n'
     )
     r = run("--installation", str(tmp_path / "inst.toml"), "--json")

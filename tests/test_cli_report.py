@@ -13,7 +13,7 @@ import xarray as xr
 from click.testing import CliRunner
 
 from pqcalc.cli import main
-from pqcalc.io import export
+from pqcalc.installation import export
 
 from .test_export import make_site
 
@@ -43,7 +43,7 @@ def test_json_and_netcdf_and_csv(site, tmp_path):
     r = run("report", site, "--format", "netcdf", "-o", tmp_path / "a.nc")
     assert r.exit_code == 0, r.output
     with xr.open_dataset(tmp_path / "a.nc") as ds:
-        assert {"setting", "circuit", "phase", "order"} <= set(ds.dims)
+        assert {"scenario", "circuit", "conductor", "order"} <= set(ds.dims)
     r = run("report", site, "-o", tmp_path / "tables")
     assert r.exit_code == 0, r.output
     assert sorted(p.name for p in (tmp_path / "tables").iterdir()) == sorted(export.CSV_TABLES)

@@ -19,10 +19,11 @@ import numpy as np
 import pytest
 import xarray as xr
 
-from pqcalc.assess import assess
+from pqcalc.installation import assess
 from pqcalc.errors import InputError
 from pqcalc.installation import load_installation
-from pqcalc.io import export
+from pqcalc.installation import export
+from pqcalc.io import export as io_export
 
 DEMO = Path(__file__).resolve().parents[1] / "demo_installations"
 
@@ -69,19 +70,19 @@ neutral_ampacity_a = 25
 
 [[panels.circuits]]
 id = "c1"
-phase = "L1"
+line = "L1"
 dimmer = "leading-edge"
 conduction_deg = [180, 90]
 fixtures = [{type = "dl-full", count = 20}]
 
 [[panels.circuits]]
 id = "c2"
-phase = "L2"
+line = "L2"
 fixtures = [{type = "dl-full", count = 20}]
 
 [[panels.circuits]]
 id = "c3"
-phase = "L3"
+line = "L3"
 fixtures = [{type = "dl-full", count = 20}]
 
 [[panels]]
@@ -89,7 +90,7 @@ id = "DB-2"
 
 [[panels.circuits]]
 id = "c4"
-phase = "L1"
+line = "L1"
 fixtures = [{type = "dl-dim", count = 30}]
 """
 
@@ -114,18 +115,18 @@ def ds(assessment):
 
 # ---------------------------------------------------------------------------- Dataset
 def test_dataset_has_the_named_dimensions_and_units(ds, assessment):
-    assert {"setting", "circuit", "phase", "order"} <= set(ds.dims)
-    assert list(ds["setting"].values) == ["full output", "evening"]
+    assert {"scenario", "circuit", "conductor", "order"} <= set(ds.dims)
+    assert list(ds["scenario"].values) == ["full output", "evening"]
     assert list(ds["circuit"].values) == ["c1", "c2", "c3", "c4"]
-    assert list(ds["phase"].values) == ["L1", "L2", "L3", "N"]
+    assert list(ds["conductor"].values) == ["L1", "L2", "L3", "N"]
     assert list(ds["node"].values) == ["DB-1", "DB-2", "F1", "service"]
     assert ds.sizes["order"] == 51
     for name, v in ds.data_vars.items():
         assert "units" in v.attrs, name
     assert ds["i_rms_a"].attrs["units"] == "A"
     assert ds["thd_v"].attrs["units"] == "1"
-    assert ds["circuit_i_h_a"].dims == ("setting", "circuit", "order")
-    assert ds["i_h_a"].dims == ("setting", "node", "phase", "order")
+    assert ds["circuit_i_h_a"].dims == ("scenario", "circuit", "order")
+    assert ds["i_h_a"].dims == ("scenario", "node", "conductor", "order")
     assert ds.attrs["caution"] == assessment.caution
 
 
@@ -133,11 +134,11 @@ def test_dataset_values_are_the_assessment_values(ds, assessment):
     # the export copies, it does not recompute: compare with the named results directly
     for i, s in enumerate(assessment.scenarios):
         for c in s.circuits:
-            assert ds["circuit_i_rms_a"].sel(setting=s.name, circuit=c.id) == c.i_rms_a
-            assert ds["circuit_thd_i"].sel(setting=s.name, circuit=c.id) == c.thd_i
+            assert ds["circuit_i_rms_a"].sel(scenario=s.name, circuit=c.id) == c.i_rms_a
+            assert ds["circuit_thd_i"].sel(scenario=s.name, circuit=c.id) == c.thd_i
         p = s.panels[0]
-        assert ds["i_rms_a"].isel(setting=i).sel(node=p.id, phase="N") == p.neutral.i_rms_a
-        assert ds["thd_v"].isel(setting=i).sel(node=p.id, phase="L2") == p.lines["L2"].thd_v
+        assert ds["i_rms_a"].isel(scenario=i).sel(node=p.id, conductor="N") == p.neutral.i_rms_a
+        assert ds["thd_v"].isel(scenario=i).sel(node=p.id, conductor="L2") == p.lines["L2"].thd_v
 
 
 def test_spectra_obey_parseval(ds):
@@ -158,8 +159,8 @@ def test_balanced_set_cancels_non_triplens_in_the_neutral(ds):
     # Balanced three-phase set (closed form, phasor sum): in the neutral, orders 3k add to
     # 3 times the line's magnitude; the others sum to zero. The three circuits of DB-1 are
     # one capture on L1, L2, L3, shifted by whole samples (exact to round-off: 1e-9 of I1).
-    n = ds["i_h_a"].sel(setting="evening", node="DB-1", phase="N")
-    line = ds["i_h_a"].sel(setting="evening", node="DB-1", phase="L1")
+    n = ds["i_h_a"].sel(scenario="evening", node="DB-1", conductor="N")
+    line = ds["i_h_a"].sel(scenario="evening", node="DB-1", conductor="L1")
     h = ds["order"].values
     trip = (h % 3 == 0) & (h > 0)
     i1 = float(line.sel(order=1))
@@ -168,9 +169,9 @@ def test_balanced_set_cancels_non_triplens_in_the_neutral(ds):
 
 
 def test_quantities_without_meaning_for_the_neutral_are_nan_and_said_so(ds):
-    assert np.isnan(ds["pf"].sel(phase="N")).all()
+    assert np.isnan(ds["pf"].sel(conductor="N")).all()
     assert "NaN" in ds["pf"].attrs["note"]
-    assert np.isfinite(ds["i_rms_a"].sel(node="DB-1", phase="N")).all()
+    assert np.isfinite(ds["i_rms_a"].sel(node="DB-1", conductor="N")).all()
 
 
 # ----------------------------------------------------------------------------- netCDF
@@ -215,16 +216,16 @@ def test_csv_folder_tables(assessment, ds, tmp_path):
     assert sorted(x.name for x in out.iterdir()) == sorted(export.CSV_TABLES)
     circ = _read(out / "circuits.csv")
     assert len(circ) == 2 * 4  # scenarios x circuits
-    r = next(x for x in circ if x["setting"] == "evening" and x["circuit"] == "c1")
-    assert float(r["i_rms_a"]) == float(ds["circuit_i_rms_a"].sel(setting="evening",
+    r = next(x for x in circ if x["scenario"] == "evening" and x["circuit"] == "c1")
+    assert float(r["i_rms_a"]) == float(ds["circuit_i_rms_a"].sel(scenario="evening",
                                                                   circuit="c1"))
     assert float(r["conduction_deg"]) == 90.0
     # percent at the edge: thd_i_pct = 100 x the fraction
     assert float(r["thd_i_pct"]) == pytest.approx(
-        100 * float(ds["circuit_thd_i"].sel(setting="evening", circuit="c1")), rel=1e-12)
+        100 * float(ds["circuit_thd_i"].sel(scenario="evening", circuit="c1")), rel=1e-12)
     nodes = _read(out / "nodes.csv")
     n = next(x for x in nodes if x["node"] == "DB-1" and x["conductor"] == "N"
-             and x["setting"] == "full output")
+             and x["scenario"] == "full output")
     assert n["pf"] == ""  # not defined for the neutral: an empty cell, never "nan"
     for t in export.CSV_TABLES:  # no non-finite number is ever written
         for row in _read(out / t):
@@ -270,7 +271,7 @@ def test_csv_failure_leaves_nothing_behind(assessment, tmp_path, monkeypatch):
     with pytest.raises((OSError, InputError), match="disk full"):
         export.to_netcdf(assessment, tmp_path / "site.nc")
     with pytest.raises((OSError, InputError), match="disk full"):
-        export.write_bytes_atomic(tmp_path / "x.json", b"{}")
+        io_export.write_bytes_atomic(tmp_path / "x.json", b"{}")
     assert calls and list(tmp_path.iterdir()) == []
 
 
@@ -292,7 +293,7 @@ def test_output_files_get_ordinary_permissions(assessment, tmp_path):
     # a temporary file is private (0600); the renamed output is 0666 less the umask
     um = os.umask(0o022)
     try:
-        p = export.write_bytes_atomic(tmp_path / "a.json", b"{}")
+        p = io_export.write_bytes_atomic(tmp_path / "a.json", b"{}")
         assert p.stat().st_mode & 0o777 == 0o644
     finally:
         os.umask(um)

@@ -55,16 +55,7 @@ CORE_FORBIDDEN = (
 CLI_ENTRY_POINTS = {"pqcalc.__main__"}
 
 # (rule, importer, imported). Each entry says why it is tolerated and who removes it.
-KNOWN_VIOLATIONS: set[tuple[str, str, str]] = {
-    # io/export.py uses the CLI's helpers and the lineup's result types; both imports go
-    # away when the installation study becomes its own package (issue 9, item 1).
-    ("io-imports-upper-layer", "pqcalc.io.export", "pqcalc.cli._common"),
-    ("cli-imported-outside-cli", "pqcalc.io.export", "pqcalc.cli._common"),
-    ("io-imports-upper-layer", "pqcalc.io.export", "pqcalc.reporting.lineup"),
-    # export.py names the Assessment type for annotations (under TYPE_CHECKING); it goes the
-    # same way when export takes the installation package's result types.
-    ("io-imports-upper-layer", "pqcalc.io.export", "pqcalc.assess"),
-}
+KNOWN_VIOLATIONS: set[tuple[str, str, str]] = set()
 
 
 def _in(module: str, prefixes: tuple[str, ...]) -> bool:

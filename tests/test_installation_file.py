@@ -33,14 +33,14 @@ id = "P1"
 
 [[panels.circuits]]
 id = "c1"
-phase = "L1"
+line = "L1"
 breaker_a = 16
 breaker_curve = "C"
 fixtures = [{type = "dl", count = 20}]
 
 [[panels.circuits]]
 id = "c2"
-phase = "L2"
+line = "L2"
 fixtures = [
   {type = "dl", count = 20},
 ]
@@ -74,10 +74,10 @@ def test_capture_only_installation_assesses(folder):
     d = json.loads(r.output)
     assert {"circuits", "panels"} <= set(d)
     c = d["circuits"][0]
-    assert {"id", "panel", "phase", "i_rms_a", "thd_i_pct", "pf", "flags"} <= set(c)
+    assert {"id", "panel", "line", "i_rms_a", "thd_i_pct", "pf", "flags"} <= set(c)
     p = d["panels"][0]
-    assert {"L1", "L2", "L3"} == set(p["phases"])
-    assert {"i_rms_a", "ratio_to_max_phase", "triplen_share_pct"} <= set(p["neutral"])
+    assert {"L1", "L2", "L3"} == set(p["lines"])
+    assert {"i_rms_a", "ratio_to_max_line", "triplen_share_pct"} <= set(p["neutral"])
     # Linearity (20 lamps = 20 x one lamp on a stiff supply): both circuits carry the same
     assert d["circuits"][0]["i_rms_a"] == pytest.approx(d["circuits"][1]["i_rms_a"], rel=1e-3)
 
@@ -86,9 +86,9 @@ CASES = [
     # (replace this, with this, expected field path in the message, expected line)
     ('type = "dl", count = 20}]', 'type = "spot", count = 20}]',
      "panels[0].circuits[0].fixtures[0].type", 23),
-    ('phase = "L2"', 'phase = "L7"', "panels[0].circuits[1].phase", 27),
+    ('line = "L2"', 'line = "L7"', "panels[0].circuits[1].line", 27),
     ('breaker_curve = "C"', 'breaker_curve = "K"', "panels[0].circuits[0].breaker_curve", 22),
-    ('id = "c1"\nphase = "L1"', 'id = "c1"\nphase = "L1"\ndimmer = "rotary"',
+    ('id = "c1"\nline = "L1"', 'id = "c1"\nline = "L1"\ndimmer = "rotary"',
      "panels[0].circuits[0].dimmer", 21),
     ('type = "dl", count = 20}]', 'type = "dl", count = 2.5}]',
      "panels[0].circuits[0].fixtures[0].count", 23),
@@ -97,7 +97,7 @@ CASES = [
     ('capture = "downlight_full.csv"', 'capture = "missing.csv"', "fixtures.dl.capture", 12),
     ('id = "c2"', 'id = "c1"', "panels[0].circuits[1].id", 26),
     ("breaker_a = 16", 'breaker_a = "16 A"', "panels[0].circuits[0].breaker_a", 21),
-    ('system = "three-phase-wye"', 'system = "single-phase"', "panels[0].circuits[1].phase", 27),
+    ('system = "three-phase-wye"', 'system = "single-phase"', "panels[0].circuits[1].line", 27),
     ("voltage_ln_v = 230", "voltage_ln_v = 2300", "supply.voltage_ln_v", 6),
 ]
 

@@ -9,7 +9,7 @@ from click.testing import CliRunner
 
 from pqcalc.cli import main
 from pqcalc.installation import load_installation
-from pqcalc.lineup import evaluate_lineup
+from pqcalc.installation import evaluate_lineup
 
 SITE = """
 [supply]
@@ -23,7 +23,7 @@ power_w = 50.0
 id = "P"
 [[panels.circuits]]
 id = "1"
-phase = "L1"
+line = "L1"
 dimmer = "{dimmer}"
 {setting}
 fixtures = [{{type = "halogen", count = 2}}]

@@ -16,18 +16,11 @@ import numpy as np
 import pytest
 
 from pqcalc import __version__
-from pqcalc.assess import assess
-from pqcalc.checks import CAUTION
 from pqcalc.errors import InputError
-from pqcalc.installation import load_installation
-from pqcalc.report import (
-    SECTION_TITLES,
-    capture_lineup,
-    limits_a_from_result,
-    lineup_entries,
-    report_pdf_bytes,
-    write_report,
-)
+from pqcalc.installation import assess, evaluate_lineup, load_installation
+from pqcalc.installation.lineup import limits_in_amps
+from pqcalc.installation.results import CAUTION
+from pqcalc.report import SECTION_TITLES, report_pdf_bytes, write_report
 from pqcalc.reporting.layout import Col, Doc
 from pqcalc.spectrum import spectrum
 from pqcalc.standards import evaluate_fixture
@@ -55,8 +48,7 @@ def assessment(site):
 
 @pytest.fixture(scope="module")
 def lineup(site):
-    entries, notes = capture_lineup(site)
-    return entries, notes
+    return evaluate_lineup(site), []
 
 
 @pytest.fixture(scope="module")
@@ -162,36 +154,20 @@ def test_limits_in_amperes_from_the_deciding_rule():
     w = Waveform(i, n * f, f, v, 1)
     r = evaluate_fixture(w, nominal_voltage_v=230, fixture="x")
     s = spectrum(w)
-    lim = limits_a_from_result(r, s)
+    lim = limits_in_amps(r, s)
     assert r.p_w > 25
     assert lim[5] == pytest.approx(0.10 * s.i1_a, rel=1e-9)
     assert lim[7] == pytest.approx(0.07 * s.i1_a, rel=1e-9)
     assert lim[3] == pytest.approx(0.30 * r.pf * s.i1_a, rel=1e-9)
 
 
-def test_lineup_entries_accepts_objects_with_the_same_fields(lineup):
+def test_lineup_entry_title_names_the_dimmer(lineup):
+    from dataclasses import replace
+
     e = lineup[0][0]
-    st = e.states[0]
-
-    class S:  # another evaluator's state: label and limits under other names
-        setting_label = "full"
-        spectrum = st.spectrum
-        result = st.result
-        limits_a = None
-
-    class E:
-        fixture = "other"
-        states = [S()]
-        dimmer = "trailing-edge"
-        notes = ["a note"]
-
-    [out] = lineup_entries([E()])
-    assert out.states[0].setting == "full"
-    assert out.states[0].limits_a == limits_a_from_result(st.result, st.spectrum)
-    assert out.title == "other behind trailing-edge dimmer"
-    assert out.notes == ("a note",)
-    with pytest.raises(InputError, match="lineup\\[0\\]"):
-        lineup_entries([object()])
+    assert replace(e, fixture="other", dimmer="trailing-edge").title == \
+        "other behind trailing-edge dimmer"
+    assert replace(e, fixture="other", dimmer="none").title == "other"
 
 
 def test_summary_with_an_empty_lineup_says_so(assessment):
@@ -252,7 +228,7 @@ def test_write_report_is_atomic(assessment, lineup, tmp_path, monkeypatch):
     out = write_report(assessment, tmp_path / "r.pdf", lineup[0], lineup[1])
     assert out.read_bytes().startswith(b"%PDF-")
     assert [x.name for x in tmp_path.iterdir()] == ["r.pdf"]
-    from pqcalc.io import export
+    from pqcalc.installation import export
 
     def boom(src, dst):
         raise OSError("disk full (simulated)")

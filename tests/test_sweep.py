@@ -326,7 +326,7 @@ def _building(path, lamps: int, system: str = "three-phase-wye"):
              "[fixtures.lamp]", 'model = "resistive"', "power_w = 100",
              "[[panels]]", 'id = "P1"']
     for ph in (["L1", "L2", "L3"] if system == "three-phase-wye" else ["L1"]):
-        lines += ["[[panels.circuits]]", f'id = "C{ph}"', f'phase = "{ph}"',
+        lines += ["[[panels.circuits]]", f'id = "C{ph}"', f'line = "{ph}"',
                   f'fixtures = [{{type = "lamp", count = {lamps}}}]']
     path.write_text("\n".join(lines) + "\n")
     return path

@@ -11,7 +11,6 @@ from __future__ import annotations
 import functools
 import importlib
 import json
-import math
 import os
 import sys
 import tempfile
@@ -19,11 +18,11 @@ import traceback
 import warnings
 
 import click
-import numpy as np
 
 from .. import __version__
 from ..errors import ConvergenceError, InputError, PqcalcWarning
 from ..io.atomic import write_atomic  # noqa: F401  (re-exported for the commands)
+from ..io.jsonsafe import json_safe
 
 CONTEXT = {"help_option_names": ["-h", "--help"], "max_content_width": 100}
 
@@ -280,24 +279,7 @@ def one_line(e: BaseException) -> str:
     return " ".join(str(e).split())
 
 
-def _clean(o):
-    """JSON-safe copy: numpy scalars to Python, non-finite floats refused."""
-    if isinstance(o, dict):
-        return {str(k): _clean(v) for k, v in o.items()}
-    if isinstance(o, (list, tuple)):
-        return [_clean(v) for v in o]
-    if isinstance(o, (np.floating, float)):
-        f = float(o)
-        if not math.isfinite(f):
-            raise InputError("internal: a non-finite number reached the output")
-        return f
-    if isinstance(o, np.integer):
-        return int(o)
-    if isinstance(o, np.bool_):
-        return bool(o)
-    if isinstance(o, np.ndarray):
-        return _clean(o.tolist())
-    return o
+_clean = json_safe  # one JSON-safe converter, in pqcalc.io
 
 
 def echo_json(obj) -> None:

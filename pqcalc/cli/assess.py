@@ -6,9 +6,8 @@ import sys
 
 import click
 
-from ..assess import assess
-from ..checks import CAUTION
-from ..installation import load_installation
+from ..installation import assess, load_installation
+from ..installation.results import CAUTION
 from ._common import Progress, echo_json, fmt, main, user_errors
 
 
@@ -109,7 +108,7 @@ def print_assessment(a, scenarios) -> None:
             st = "-" if c.setting_deg is None else f"{c.setting_deg:.0f}"
             if c.knob is not None:
                 st = f"k{c.knob:.2f}"
-            out(f"  {c.id:<12} {c.panel:<8} {c.phase:<3} {st:>5} {c.i_rms_a:>8.3f} "
+            out(f"  {c.id:<12} {c.panel:<8} {c.line:<3} {st:>5} {c.i_rms_a:>8.3f} "
                 f"{100 * c.thd_i:>7.1f} {fmt(c.pf, '.2f'):>5} {fmt(c.dpf, '.2f'):>5} "
                 f"{c.p_w:>8.1f}  {_flags(c.checks)}")
         findings = [(c.id, k) for c in sc.circuits for k in c.checks
@@ -143,7 +142,7 @@ def print_assessment(a, scenarios) -> None:
             if p.neutral is not None:
                 n = p.neutral
                 out(f"  {'':<12} {'':<11} {'N':<4} {n.i_rms_a:>8.2f} {'':>8} {'':>7} {'':>5} {'':>7}   "
-                    f"N/max phase {n.ratio_to_max_phase:.2f}, triplen share "
+                    f"N/max line {n.ratio_to_max_line:.2f}, triplen share "
                     f"{100 * n.triplen_share:.0f} %")
             for c in p.checks:
                 out(f"  {'':<12} {c.status.upper():<5} {c.name}: {c.message}")
@@ -154,13 +153,14 @@ def print_assessment(a, scenarios) -> None:
         warns = [c for c in sc.all_checks() if c.status == "warn"]
         out("")
         out(f"  {len(fails)} failed, {len(warns)} warnings")
-    if a.diversity:
+    if a.diversity is not None:
+        div = a.diversity.to_dict()
         out("")
-        out(f"== diversity: {a.diversity['method']}")
-        for n in a.diversity.get("left_out", []):
+        out(f"== diversity: {div['method']}")
+        for n in div.get("left_out", []):
             out(f"  note: {n}")
-        for p in a.diversity["panels"]:
-            items = ", ".join(f"{ln} {_div(v)}" for ln, v in p["phases"].items())
+        for p in div["panels"]:
+            items = ", ".join(f"{ln} {_div(v)}" for ln, v in p["lines"].items())
             n = f", N {_div(p['neutral'])}" if "neutral" in p else ""
             out(f"  {p['id']}: {items}{n}")
     out("")

@@ -74,8 +74,8 @@ def _model_states(model, power_w, dimmer, voltage, frequency, params, equipment_
     """IEC 61000-3-2 results of one simulated fixture at full output and dimmed states."""
     from ..circuits import DIMMER_KINDS, MODELS, Supply
     from ..circuits.drivers import resolve_params
-    from ..installation import FixtureType
-    from ..lineup import fixture_states
+    from ..installation.lineup import fixture_states
+    from ..installation.model import ModelledFixture
 
     if model not in MODELS:
         raise InputError(f"--model: unknown model {model!r}; expected one of {', '.join(MODELS)}")
@@ -94,8 +94,8 @@ def _model_states(model, power_w, dimmer, voltage, frequency, params, equipment_
         if not sep:
             raise InputError(f"--param {item}: expected NAME=NUMBER")
     full = resolve_params(model, power_w, voltage, frequency, over)
-    ft = FixtureType(model, power_w, model,
-                     tuple(sorted((k, v) for k, v in full.items() if v is not None)))
+    ft = ModelledFixture(model, power_w, model=model,
+                         params=tuple(sorted((k, v) for k, v in full.items() if v is not None)))
     states = fixture_states(ft, voltage, frequency, dimmer)
     recs = [(lab, w, None, None) for lab, _, w in states]
     outside = outside_scope or voltage < SCOPE_MIN_VOLTAGE_V
@@ -192,8 +192,7 @@ def comply_cmd(captures, installation, equipment_class, settings_of, power_w, pf
             outside_scope)
         power_w = None  # it was the model's rating, not a capture's power
     if installation:
-        from ..installation import load_installation
-        from ..lineup import evaluate_lineup
+        from ..installation import evaluate_lineup, load_installation
 
         inst = load_installation(installation)
         for e in evaluate_lineup(inst, equipment_class):

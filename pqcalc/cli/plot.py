@@ -126,7 +126,7 @@ def _installation_figure(figure, source, unit, log, max_order, cycles, title, pa
 
     inst = load_installation(source)
     if figure in ("spectrum", "waveform"):
-        from ..lineup import evaluate_lineup
+        from ..installation import evaluate_lineup
 
         known = list(inst.fixtures)
         if fixture_id is not None and fixture_id not in known:
@@ -139,13 +139,13 @@ def _installation_figure(figure, source, unit, log, max_order, cycles, title, pa
         st = e.states[0]
         if figure == "waveform":
             return plots.waveform_figure(st.waveform, cycles=min(cycles, st.waveform.cycles),
-                                         title=title or f"{pick} at {st.setting_label}")
+                                         title=title or f"{pick} at {st.state}")
         marks = plots.limit_marks(st.result, st.spectrum.i1_a, unit)
         return plots.spectrum_figure(st.spectrum, marks.limits, unit=unit, log=log,
                                      max_order=max_order,
-                                     title=title or f"{pick} at {st.setting_label}",
+                                     title=title or f"{pick} at {st.state}",
                                      limits_label=marks.label, disregarded=marks.disregarded)
-    from ..assess import assess
+    from ..installation import assess
 
     a = assess(inst)
     sc = a.design
@@ -160,7 +160,7 @@ def _installation_figure(figure, source, unit, log, max_order, cycles, title, pa
         with_n = [p for p in sc.panels if p.neutral is not None]
         if not with_n:
             raise InputError(f"{source}: a single-phase supply has no separate neutral figure")
-        panel_id = max(with_n, key=lambda p: p.neutral.ratio_to_max_phase).id
+        panel_id = max(with_n, key=lambda p: p.neutral.ratio_to_max_line).id
     if panel_id not in panels:
         raise InputError(f"--panel: no panel {panel_id!r}; known: {', '.join(panels)}")
     p = panels[panel_id]

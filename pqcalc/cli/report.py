@@ -9,7 +9,8 @@ import click
 
 from ..errors import InputError
 from ..io.atomic import is_stdout, write_stdout
-from ..io.export import CSV_TABLES, EXPORT_FORMATS, check_output_path
+from ..installation.export import CSV_TABLES
+from ..io.export import EXPORT_FORMATS, check_output_path, write_bytes_atomic
 from ._common import main, refuse_binary_terminal, user_errors
 
 #: Output suffix -> format, when --format is not given.
@@ -78,9 +79,8 @@ def report_cmd(installation, output, fmt, table, no_interaction):
     2 for bad input, 3 when the tool fails (the traceback is written to a file in the
     temporary folder).
     """
-    from ..assess import assess
-    from ..installation import load_installation
-    from ..io import export
+    from ..installation import assess, load_installation
+    from ..installation import export
 
     out = Path(output)
     to_stdout = is_stdout(out)
@@ -110,16 +110,17 @@ def report_cmd(installation, output, fmt, table, no_interaction):
     a = assess(inst)
     extra = ""
     if kind in ("pdf", "json"):
-        from ..report import default_lineup, report_pdf_bytes
+        from ..installation import evaluate_lineup
+        from ..report import report_pdf_bytes
 
-        lineup, notes = default_lineup(inst)
+        lineup = evaluate_lineup(inst)
         if kind == "pdf":
-            data = report_pdf_bytes(a, lineup, notes)
+            data = report_pdf_bytes(a, lineup)
         else:
             data = export.to_json(a, lineup).encode()
-        export.write_bytes_atomic(out, data)
+        write_bytes_atomic(out, data)
     elif kind == "csv" and table is not None:
-        export.write_bytes_atomic(out, export.csv_tables(a)[f"{table}.csv"].encode())
+        write_bytes_atomic(out, export.csv_tables(a)[f"{table}.csv"].encode())
         extra = f": {table}"
     elif kind == "csv" and to_stdout:
         write_stdout(csv_stream(export.csv_tables(a)))

@@ -8,10 +8,11 @@ from typing import TYPE_CHECKING
 import numpy as np
 
 from .layout import A4_IN, Col, Doc, fmt_num, fmt_pct
-from .lineup import LineupEntry, standards_applied
+from .sources import standards_applied
 
 if TYPE_CHECKING:  # pragma: no cover
-    from ..assess import Assessment, PanelResult, ScenarioResult
+    from ..installation import Assessment, LineupEntry, ScenarioResult
+    from ..installation import NodeResult as PanelResult
 
 __all__ = ["SECTION_TITLES", "cover", "summary", "lineup_section", "panels_section",
            "assumptions", "standards_section", "cautions"]
@@ -125,7 +126,7 @@ def summary(doc: Doc, a: Assessment, lineup: Sequence[LineupEntry],
         thdv = max(r.thd_v for r in p.lines.values())
         worst = min((c.status for c in p.checks), key=lambda s: _ORDER[s], default="-")
         rows.append((p.id, p.kind, fmt_num(hi), fmt_num(n.i_rms_a) if n else "-",
-                     fmt_num(n.ratio_to_max_phase) if n else "-",
+                     fmt_num(n.ratio_to_max_line) if n else "-",
                      fmt_pct(n.triplen_share, ".0f") if n else "-",
                      fmt_pct(thdv, ".2f") if p.kind == "panel" else "-",
                      fmt_num(p.k_factor, ".1f"), worst))
@@ -159,7 +160,7 @@ def _spectrum_fig(entry: LineupEntry):
     lims = {h: (100 * v / i1 if pct else v) for h, v in st.limits_a.items()} if i1 > 0 else {}
     label = f"IEC 61000-3-2 Class C, {st.result.rule}"
     return spectrum_figure(st.magnitudes_a, limits=lims or None, unit="pct" if pct else "A",
-                           max_order=40, title=f"{entry.fixture}: {st.setting}",
+                           max_order=40, title=f"{entry.fixture}: {st.state}",
                            limits_label=label)
 
 
@@ -186,7 +187,7 @@ def lineup_section(doc: Doc, lineup: Sequence[LineupEntry], notes: Sequence[str]
                         key=lambda c: c.margin / abs(c.limit), default=None)
                 if c is not None:
                     worst = f"{c.quantity} {100 * c.margin / abs(c.limit):+.0f} %"
-            rows.append((e.title, s.setting, fmt_num(r.p_w, ".1f"), fmt_num(r.pf, ".3f"),
+            rows.append((e.title, s.state, fmt_num(r.p_w, ".1f"), fmt_num(r.pf, ".3f"),
                          r.rule, worst, r.verdict.upper()))
     doc.table([Col("fixture type", 1.5, wrap=True), Col("state", 1.0, wrap=True),
                Col("P [W]", 0.55, "right"),
@@ -223,7 +224,7 @@ def _node_rows(a: Assessment, node_id: str) -> list[tuple]:
             n = p.neutral
             rows.append((sc.name, "N", fmt_num(n.i_rms_a), fmt_num(float(n.magnitudes_a[1])),
                          "-", "-", "-", "-",
-                         f"N/line {n.ratio_to_max_phase:.2f}; triplen "
+                         f"N/line {n.ratio_to_max_line:.2f}; triplen "
                          f"{100 * n.triplen_share:.0f} %"))
     return rows
 
@@ -278,7 +279,7 @@ def panels_section(doc: Doc, a: Assessment) -> None:
                     st = f"knob {c.knob:.2f}"
                 bad = [x for x in c.checks if x.status in ("fail", "warn")]
                 flags = ", ".join(list(c.flags) + [f"{x.status} {x.name}" for x in bad]) or "ok"
-                crow.append((c.id, c.phase, sc.name, st, fmt_num(c.i_rms_a),
+                crow.append((c.id, c.line, sc.name, st, fmt_num(c.i_rms_a),
                              fmt_pct(c.thd_i), fmt_num(c.pf), fmt_num(c.p_w, ".0f"), flags))
         doc.table([Col("circuit", 0.75), Col("line", 0.4), Col("scenario", 1.1, wrap=True),
                    Col("setting", 0.7), Col("I rms [A]", 0.6, "right"),
@@ -326,11 +327,12 @@ def assumptions(doc: Doc, a: Assessment, version: str) -> None:
                                      f"{100 * an.tolerance:g} %, at most {an.max_iterations} "
                                      "iterations") if an.supply_interaction else "off (stiff)"),
              ("harmonic orders", "0..50 per circuit and node; THD over 2..40"),
-             ("diversity", (a.diversity or {}).get("method", inst.diversity.mode)),
+             ("diversity", a.diversity.method if a.diversity is not None else inst.diversity.mode),
              ("distinct circuit solves", str(a.solves)), ("pqcalc", version)]
-    if inst.pcc:
+    pcc = inst.pcc.to_dict()
+    if pcc:
         rows.append(("point of common coupling", ", ".join(f"{k} = {v}" for k, v in
-                                                           sorted(inst.pcc.items()))))
+                                                           sorted(pcc.items()))))
     doc.table([Col("item", 2.0, wrap=True), Col("value", 4.8, wrap=True)], rows,
               title="Supply and analysis")
     frows = []
@@ -355,7 +357,7 @@ def assumptions(doc: Doc, a: Assessment, version: str) -> None:
         if c.dimmer == "none":
             sett = "-"
         dp = ", ".join(f"{k} = {v:g}" for k, v in c.dimmer_params)
-        drows.append((c.id, c.panel, c.phase, f"{c.breaker_a:g} A {c.breaker_curve}",
+        drows.append((c.id, c.panel, c.line, f"{c.breaker_a:g} A {c.breaker_curve}",
                       c.dimmer, sett, fmt_num(c.dimmer_rating_w, "g"), dp or "-",
                       ", ".join(f"{g.count} x {g.fixture}" for g in c.groups)))
     doc.table([Col("circuit", 0.7), Col("panel", 0.7), Col("line", 0.35), Col("breaker", 0.6),
@@ -383,7 +385,7 @@ def standards_section(doc: Doc, a: Assessment, lineup: Sequence[LineupEntry]) ->
     keys = ["iec61000-3-2:class-c", "iec61000-3-2:class-c:5-25w", "iec61000-3-2:class-d"]
     if any(c.name == "IEEE 519 at the PCC" and c.details for sc in a.scenarios
            for c in sc.checks):
-        e = str(a.installation.pcc.get("ieee519_edition", "2022"))
+        e = a.installation.pcc.ieee519_edition
         keys += [f"ieee519:{e}:current", f"ieee519:{e}:voltage"]
     for k in keys:
         try:

@@ -16,7 +16,7 @@ from __future__ import annotations
 import time
 from pathlib import Path
 
-from pqcalc.assess import assess
+from pqcalc.installation import assess
 from pqcalc.installation import load_installation
 
 KINDS = [
@@ -39,7 +39,7 @@ def build(path: Path, circuits: int, count: int, interaction: bool = False) -> P
         i = k % len(KINDS)
         m, p, dim, cond = KINDS[i]
         n = count
-        lines += ["[[panels.circuits]]", f'id = "C{k}"', f'phase = "{"L" + str(k % 3 + 1)}"',
+        lines += ["[[panels.circuits]]", f'id = "C{k}"', f'line = "{"L" + str(k % 3 + 1)}"',
                   "breaker_a = 400", 'breaker_curve = "D"', f'dimmer = "{dim}"']
         if dim != "none":
             lines.append(f"conduction_deg = {cond}")

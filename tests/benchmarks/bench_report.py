@@ -18,11 +18,12 @@ from pathlib import Path
 
 import pytest
 
-from pqcalc.assess import assess
+from pqcalc.installation import assess
 from pqcalc.errors import ConvergenceError, InputError
 from pqcalc.installation import load_installation
-from pqcalc.io import export
-from pqcalc.report import default_lineup, report_pdf_bytes
+from pqcalc.installation import export
+from pqcalc.installation import evaluate_lineup
+from pqcalc.report import report_pdf_bytes
 
 DEMO = Path(__file__).resolve().parents[2] / "demo_installations"
 
@@ -39,7 +40,7 @@ def capture_site(folder: Path, panels: int = 6, per_panel: int = 10) -> Path:
         lines += ["[[panels]]", f'id = "DB-{p + 1}"']
         for k in range(per_panel):
             lines += ["[[panels.circuits]]", f'id = "C{p + 1}-{k + 1}"',
-                      f'phase = "L{k % 3 + 1}"',
+                      f'line = "L{k % 3 + 1}"',
                       f'fixtures = [{{type = "{"full" if k % 2 else "dim"}", count = 12}}]']
     path = folder / "block.toml"
     path.write_text("\n".join(lines) + "\n")
@@ -59,7 +60,8 @@ def _bench(name: str, path: Path, out: Path) -> None:
     except (ConvergenceError, InputError, TypeError, AttributeError) as e:
         print(f"\n{name}: assess failed in this checkout ({type(e).__name__}: {e}); skipped")
         return
-    t_lineup, (lu, notes) = _t(lambda: default_lineup(inst))
+    t_lineup, lu = _t(lambda: evaluate_lineup(inst))
+    notes: list[str] = []
     t_pdf, pdf = _t(lambda: report_pdf_bytes(a, lu, notes))
     t_json, _ = _t(lambda: export.to_json(a, lu))
     t_csv, _ = _t(lambda: export.to_csv(a, out / f"{name}-tables"))

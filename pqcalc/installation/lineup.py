@@ -1,4 +1,4 @@
-"""The fixture lineup of an installation against IEC 61000-3-2, at full output and dimmed.
+"""The fixture lineup: every fixture type of an installation against IEC 61000-3-2.
 
 For each fixture type (and each dimmer kind it is used behind), the lamp alone is solved on
 the installation's nominal voltage behind an ideal phase cut (a reference dimmer: the switch
@@ -13,33 +13,46 @@ test conditions for dimmable lighting). Measured fixture types are evaluated on 
 from __future__ import annotations
 
 from dataclasses import dataclass
+from typing import TYPE_CHECKING, Any
 
 import numpy as np
 
-from .errors import InputError
-from .installation import FixtureType, Installation
-from .spectrum import Spectrum, spectrum
-from .waveform import Waveform
+from ..errors import InputError
+from ..spectrum import Spectrum, spectrum
+from ..waveform import Waveform
+from .model import Installation, MeasuredFixture, ModelledFixture
+
+if TYPE_CHECKING:  # pragma: no cover
+    from ..standards import DimmableResult, FixtureResult
+    from ..standards.iec61000_3_2 import EquipmentClass
 
 __all__ = ["LineupState", "LineupEntry", "evaluate_lineup", "fixture_states", "limits_in_amps"]
 
 
 @dataclass(frozen=True)
 class LineupState:
-    """One operating point of a fixture: the record, its spectrum, the verdict and the
-    applicable limit per order [A]."""
+    """One compliance test state of a fixture type: the record, its spectrum, the verdict and
+    the applicable limit per order [A]."""
 
-    setting_label: str
+    state: str
     conduction_deg: float | None
     waveform: Waveform
     spectrum: Spectrum
     p_w: float
-    result: object  # pqcalc.standards.FixtureResult
+    result: FixtureResult
     limits_a: dict[int, float]
+
+    @property
+    def magnitudes_a(self) -> np.ndarray:
+        """Harmonic current magnitudes [A rms], index = order."""
+        return np.asarray(self.spectrum.i_h_a, dtype=float)
 
 
 @dataclass(frozen=True)
 class LineupEntry:
+    """A fixture type's IEC 61000-3-2 results behind one dimmer kind: the full-output state
+    first, then the dimmed states."""
+
     fixture: str
     description: str
     source: str  # "model bulk-cap" or "capture file.csv"
@@ -47,21 +60,29 @@ class LineupEntry:
     verdict: str
     rule: str
     states: tuple[LineupState, ...]
-    result: object  # pqcalc.standards.DimmableResult or FixtureResult
+    result: FixtureResult | DimmableResult
     notes: tuple[str, ...] = ()
 
-    def to_dict(self) -> dict:
+    @property
+    def title(self) -> str:
+        """Fixture name, with the dimmer kind when it was evaluated behind one."""
+        d = self.dimmer
+        return self.fixture + (f" behind {d} dimmer" if d and d not in ("none", "as recorded")
+                               else "")
+
+    def to_dict(self) -> dict[str, Any]:
         return {"fixture": self.fixture, "description": self.description, "source": self.source,
                 "dimmer": self.dimmer, "verdict": self.verdict, "rule": self.rule,
-                "states": [{"setting": s.setting_label, "conduction_deg": s.conduction_deg,
+                "states": [{"state": s.state, "conduction_deg": s.conduction_deg,
                             "p_w": s.p_w, "verdict": s.result.verdict, "rule": s.result.rule,
                             "limits_a": {str(k): v for k, v in s.limits_a.items()}}
                            for s in self.states],
                 "result": self.result.to_dict(), "notes": list(self.notes)}
 
 
-def limits_in_amps(result, s: Spectrum) -> dict[int, float]:
-    """Per-order limits [A] of a FixtureResult's deciding rule (fractions times I1)."""
+def limits_in_amps(result: FixtureResult, s: Spectrum) -> dict[int, float]:
+    """Per-order upper limits [A] of a FixtureResult's deciding rule (fractions of I1 are
+    turned into amperes with the spectrum's fundamental)."""
     rule = result.deciding
     out: dict[int, float] = {}
     if rule is None:
@@ -76,8 +97,8 @@ def limits_in_amps(result, s: Spectrum) -> dict[int, float]:
     return out
 
 
-def _solve_one(ft: FixtureType, v: float, f: float, kind: str, cond: float | None) -> Waveform:
-    from .circuits import DimmerSpec, LoadGroup, Supply, solve_circuit
+def _solve_one(ft: ModelledFixture, v: float, f: float, kind: str, cond: float | None) -> Waveform:
+    from ..circuits import DimmerSpec, LoadGroup, Supply, solve_circuit
 
     if kind == "none" or cond is None or cond >= 180.0:
         dim = DimmerSpec(kind="none")
@@ -87,12 +108,12 @@ def _solve_one(ft: FixtureType, v: float, f: float, kind: str, cond: float | Non
         dim = DimmerSpec(kind=kind, conduction_deg=cond)
     sol = solve_circuit(Supply(v_rms_v=v, frequency_hz=f), dim,
                         [LoadGroup(model=ft.model, power_w=ft.power_w, count=1,
-                                   params=dict(ft.params))])
+                                   params=ft.params)])
     return sol.waveform
 
 
-def fixture_states(ft: FixtureType, v: float, f: float, kind: str, grid: int = 19,
-                   notes: list | None = None) -> list[tuple[str, float | None, Waveform]]:
+def fixture_states(ft: ModelledFixture, v: float, f: float, kind: str, grid: int = 19,
+                   notes: list[str] | None = None) -> list[tuple[str, float | None, Waveform]]:
     """The maximum-power state and five equidistant-power dimmed states of a modelled
     fixture behind a reference phase cut of ``kind``.
 
@@ -100,12 +121,12 @@ def fixture_states(ft: FixtureType, v: float, f: float, kind: str, grid: int = 1
     input power stays within 2 % of its maximum over the whole range (a constant-power
     driver) there is no dimmed state to test, and ``notes`` says so.
     """
-    from .errors import ConvergenceError
-    from .standards import dimmed_test_powers
+    from ..errors import ConvergenceError
+    from ..standards import dimmed_test_powers
 
     notes = [] if notes is None else notes
     full = _solve_one(ft, v, f, "none", None)
-    states = [("full", 180.0, full)]
+    states: list[tuple[str, float | None, Waveform]] = [("full", 180.0, full)]
     if kind == "none":
         return states
     angles = np.linspace(ft.min_conduction_deg, 180.0, grid)[:-1]
@@ -120,8 +141,8 @@ def fixture_states(ft: FixtureType, v: float, f: float, kind: str, grid: int = 1
                      "deg; those settings were left out")
     if not solved:
         return states
-    powers = np.array([w.p_w for _, w in solved])
-    p_max = float(full.p_w)
+    powers = np.array([_power(w) for _, w in solved])
+    p_max = _power(full)
     working = powers > 0.02 * p_max
     if not np.any(working):
         notes.append(f"{ft.id}: the lamp draws almost no power at every dimmed setting")
@@ -140,13 +161,14 @@ def fixture_states(ft: FixtureType, v: float, f: float, kind: str, grid: int = 1
             continue
         used.add(k)
         a, w = solved[k]
-        states.append((f"{a:.0f} deg ({w.p_w:.1f} W)", float(a), w))
+        states.append((f"{a:.0f} deg ({_power(w):.1f} W)", float(a), w))
     return states
 
 
-def evaluate_lineup(inst: Installation, equipment_class: str = "C") -> list[LineupEntry]:
+def evaluate_lineup(inst: Installation, equipment_class: EquipmentClass = "C"
+                    ) -> list[LineupEntry]:
     """IEC 61000-3-2 for every fixture type of an installation, at full output and dimmed."""
-    from .standards import evaluate_dimmable, evaluate_fixture
+    from ..standards import evaluate_dimmable, evaluate_fixture
 
     sup = inst.supply
     v, f = sup.voltage_ln_v, sup.frequency_hz
@@ -162,7 +184,7 @@ def evaluate_lineup(inst: Installation, equipment_class: str = "C") -> list[Line
         if outside:
             notes.append(f"IEC 61000-3-2 applies from 220 V line-to-neutral; evaluated at "
                          f"{v:g} V on request, for information only")
-        if ft.measured:
+        if isinstance(ft, MeasuredFixture):
             w = _capture_waveform(ft)
             if not w.has_voltage:
                 notes.append(f"{fid}: the record has no voltage channel; its power factor is "
@@ -193,13 +215,13 @@ def evaluate_lineup(inst: Installation, equipment_class: str = "C") -> list[Line
             except InputError as e:
                 raise InputError(f"fixtures.{fid}: {e}") from None
             # results[0] is the maximum-power state, the others in the order given
-            kmax = max(range(len(states)), key=lambda k: states[k][2].p_w)
+            kmax = max(range(len(states)), key=lambda k: _power(states[k][2]))
             order = [kmax] + [k for k in range(len(states)) if k != kmax]
             lst = []
             for r, k in zip(res.results, order, strict=True):
                 lab, a, w = states[k]
                 s = spectrum(w)
-                lst.append(LineupState(lab, a, w, s, float(w.p_w), r, limits_in_amps(r, s)))
+                lst.append(LineupState(lab, a, w, s, _power(w), r, limits_in_amps(r, s)))
             top = res.results[0]
             entries.append(LineupEntry(fid, ft.description, f"model {ft.model}", kind,
                                        res.verdict, top.rule, tuple(lst), res,
@@ -207,7 +229,14 @@ def evaluate_lineup(inst: Installation, equipment_class: str = "C") -> list[Line
     return entries
 
 
-def _capture_waveform(ft: FixtureType) -> Waveform:
-    from .io.capture import load_capture, record_to_waveform
+def _power(w: Waveform) -> float:
+    """Active power of a solved record [W] (a solve always carries its voltage)."""
+    if w.p_w is None:
+        raise InputError(f"{w.label or 'record'}: no voltage, so no power")
+    return float(w.p_w)
+
+
+def _capture_waveform(ft: MeasuredFixture) -> Waveform:
+    from ..io.capture import load_capture, record_to_waveform
 
     return record_to_waveform(load_capture(ft.capture, ft.capture_options))

@@ -1,18 +1,25 @@
-"""Circuit and panel checks: breakers, dimmers, neutral conductors, transformers.
+"""Every check of an installation: breakers, dimmers, conductors, transformers, IEEE 519.
 
-Each check is a pure function returning a :class:`Check`: a status, the figure it looked at,
-the limit, and the source of the rule. Every check that guides the choice of a conductor,
+Each check is a function returning :class:`Check` objects: a status, the figure it looked
+at, the limit, and the source of the rule. The pure rules come first (one figure in, one
+check out); then the checks of a circuit, of a node and of the point of common coupling,
+which gather the rules for one result. Every check that guides the choice of a conductor,
 breaker, dimmer or transformer carries :data:`CAUTION` in the outputs that show it.
 """
 
 from __future__ import annotations
 
-from dataclasses import dataclass, field
-from typing import Literal
+from collections.abc import Mapping
+from typing import Any
 
 import numpy as np
 
-from .errors import InputError
+from ..errors import InputError
+from ..spectrum import rotate_phasors
+from .cases import CaseResult
+from .model import BREAKER_CURVE_NAMES, LINE_ANGLES_DEG, Circuit, Installation, Panel
+from .results import CAUTION, Check, LineResult, NeutralResult, Status
+from .sums import NodeSum
 
 __all__ = [
     "CAUTION",
@@ -27,41 +34,16 @@ __all__ = [
     "nec_neutral_note",
     "transformer_derating",
     "K_RATINGS",
+    "FLAG_TEXT",
+    "breaker_load",
+    "circuit_checks",
+    "node_checks",
+    "pcc_checks",
 ]
 
-CAUTION = (
-    "These figures support, and never replace, the local electrical code and the design of a "
-    "licensed professional; confirm conductor, breaker, dimmer and transformer choices with "
-    "the manufacturers' data and the authority having jurisdiction."
-)
-
-Status = Literal["pass", "fail", "warn", "info"]
-
-
-@dataclass(frozen=True)
-class Check:
-    """One check's outcome."""
-
-    name: str
-    status: Status
-    message: str
-    source: str
-    value: float | None = None
-    limit: float | None = None
-    unit: str = ""
-    details: dict = field(default_factory=dict)
-
-    def to_dict(self) -> dict:
-        return {
-            "name": self.name, "status": self.status, "message": self.message,
-            "source": self.source, "value": self.value, "limit": self.limit, "unit": self.unit,
-            **({"details": self.details} if self.details else {}),
-        }
-
-
 #: IEC 60898-1 instantaneous-trip bands, multiples of the rated current In (rms).
-BREAKER_CURVES: dict[str, tuple[float, float]] = {"B": (3.0, 5.0), "C": (5.0, 10.0),
-                                                   "D": (10.0, 20.0)}
+BREAKER_CURVES: dict[str, tuple[float, float]] = dict(zip(
+    BREAKER_CURVE_NAMES, ((3.0, 5.0), (5.0, 10.0), (10.0, 20.0)), strict=True))
 _IEC60898 = "IEC 60898-1, instantaneous tripping bands B 3-5 In, C 5-10 In, D 10-20 In"
 
 
@@ -86,6 +68,7 @@ def breaker_inrush(inrush_peak_a: float, rating_a: float, curve: str) -> Check:
     k_lo, k_hi = _band(curve)
     lo = np.sqrt(2) * k_lo * rating_a
     hi = np.sqrt(2) * k_hi * rating_a
+    st: Status
     if inrush_peak_a <= lo:
         st, msg = "pass", "summed inrush peak below the instantaneous-trip band"
     else:
@@ -210,7 +193,7 @@ def neutral_conductor(
                 "loads")
     if neutral_ampacity_a is None:
         return Check("neutral conductor", "info", msg, _E52, float(size_on), None, "A", details)
-    st = "pass" if size_on <= neutral_ampacity_a else "fail"
+    st: Status = "pass" if size_on <= neutral_ampacity_a else "fail"
     msg += f"; conductor ampacity {neutral_ampacity_a:.0f} A"
     return Check("neutral conductor", st, msg, _E52, float(size_on), float(neutral_ampacity_a),
                  "A", details)
@@ -273,7 +256,7 @@ def transformer_derating(
                      f"needs {_k_text(k_needed)}", src, i_max_pu, None,
                      "pu", det)
     allowed = i_max_pu * rated_current_a
-    st = "pass" if load_current_a <= allowed else "fail"
+    st: Status = "pass" if load_current_a <= allowed else "fail"
     return Check("transformer", st,
                  f"F_HL {harmonic_loss_factor:.2f} (this load's spectrum, orders 1..50, most "
                  f"loaded line): if the whole load had this spectrum, the derated capacity "
@@ -281,3 +264,171 @@ def transformer_derating(
                  f"({100 * i_max_pu:.0f} % of {rated_current_a:.0f} A) against a load of "
                  f"{load_current_a:.0f} A; a K-rated replacement needs {_k_text(k_needed)}",
                  src, float(load_current_a), float(allowed), "A", det)
+
+
+# ---------------------------------------------------------------- checks of one result
+#: What each circuit-model flag means for the user.
+FLAG_TEXT = {
+    "no-solution": "the circuit model found no periodic steady state (unstable or chaotic "
+                   "operation: expect flicker); this circuit is LEFT OUT of the panel sums",
+    "no-latch": "the triac does not stay on after firing (load current below its latching or "
+                "holding current): flicker or no light; add load, a bleeder, or use a "
+                "trailing-edge dimmer",
+    "misfire": "the dimmer fails to fire in some half cycles",
+    "re-fire": "the triac fires more than once per half cycle",
+    "subharmonic": "the dimmer fires only every few half cycles: visible flicker and a DC/"
+                   "sub-harmonic current",
+    "asymmetric": "the two half cycles differ: a DC component and even harmonics",
+    "drop-out": "the lamp's driver shuts down at this setting",
+    "glow-when-off": "the dimmer's own supply current lights the lamp when off",
+}
+
+#: The status a circuit-model flag gives the dimmer-compatibility check (others: warn).
+FLAG_STATUS: dict[str, Status] = {
+    "no-solution": "fail", "no-latch": "fail", "misfire": "fail", "subharmonic": "fail",
+    "re-fire": "warn", "drop-out": "warn", "glow-when-off": "warn"}
+
+_NEC_CONTINUOUS = ("continuous load at most 80 % of the breaker rating (common practice; "
+                   "NEC 210.20(A))")
+
+
+def breaker_load(i_rms_a: float, rating_a: float) -> Check:
+    """Steady current against the breaker rating and the 80 % continuous-load allowance."""
+    if i_rms_a > rating_a:
+        return Check("breaker load", "fail", f"{i_rms_a:.2f} A exceeds the {rating_a:g} A "
+                     "rating", _NEC_CONTINUOUS, i_rms_a, rating_a, "A")
+    if i_rms_a > 0.8 * rating_a:
+        return Check("breaker load", "warn", f"{i_rms_a:.2f} A is over 80 % of the "
+                     f"{rating_a:g} A rating", _NEC_CONTINUOUS, i_rms_a, 0.8 * rating_a, "A")
+    return Check("breaker load", "pass", f"{i_rms_a:.2f} A within 80 % of {rating_a:g} A",
+                 _NEC_CONTINUOUS, i_rms_a, 0.8 * rating_a, "A")
+
+
+def circuit_checks(inst: Installation, c: Circuit, cs: CaseResult, i_rms_a: float
+                   ) -> tuple[tuple[Check, ...], float, dict[str, dict[str, Any]]]:
+    """The checks of one circuit at one scenario, its summed inrush peak [A] and the
+    largest number of each fixture type its breaker carries."""
+    inrush = sum(g.count * g.inrush_peak_one_a for g in cs.groups
+                 if np.isfinite(g.inrush_peak_one_a))
+    checks = [breaker_inrush(inrush, c.breaker_a, c.breaker_curve)]
+    unknown = [g.fixture for g in cs.groups if not np.isfinite(g.inrush_peak_one_a)]
+    if unknown:
+        checks.append(Check("breaker inrush", "info",
+                            f"inrush of {', '.join(unknown)} unknown (a steady-state record); "
+                            "the inrush figure covers the modelled fixtures only",
+                            "measured record", None, None, ""))
+    checks.append(breaker_load(i_rms_a, c.breaker_a))
+    if c.conductor_ampacity_a is not None:
+        st: Status = "pass" if i_rms_a <= c.conductor_ampacity_a else "fail"
+        checks.append(Check("conductor", st, f"{i_rms_a:.2f} A against "
+                            f"{c.conductor_ampacity_a:g} A ampacity", "conductor ampacity as given",
+                            i_rms_a, c.conductor_ampacity_a, "A"))
+    fx = inst.fixtures
+    if c.dimmer != "none" and c.dimmer_rating_w is not None:
+        led_w = sum(g.count * fx[g.fixture].power_w for g in cs.groups if fx[g.fixture].nonlinear)
+        connected_w = sum(g.count * fx[g.fixture].power_w for g in cs.groups)
+        checks.append(dimmer_load(led_w, c.dimmer_rating_w, c.led_derating,
+                                  c.dimmer_min_load_w, connected_w))
+    for fl in cs.flags:
+        checks.append(Check("dimmer compatibility", FLAG_STATUS.get(fl, "warn"),
+                            f"the circuit model reports '{fl}' at this setting: "
+                            + FLAG_TEXT.get(fl, "see the lamp model"),
+                            "periodic steady-state circuit model of dimmer and drivers", None,
+                            None, "", {"flag": fl}))
+    mx = {g.fixture: breaker_max_fixtures(g.inrush_peak_one_a, g.i_rms_one_a, c.breaker_a,
+                                          c.breaker_curve) for g in cs.groups}
+    return tuple(checks), float(inrush), mx
+
+
+def node_checks(inst: Installation, kind: str, lines: Mapping[str, LineResult],
+                neutral: NeutralResult | None, k: float, fhl: float,
+                panel: Panel | None = None) -> tuple[Check, ...]:
+    """The checks of a panel (neutral and line conductors) or of the service
+    (transformer derating)."""
+    sup = inst.supply
+    max_line = max(r.i_rms_a for r in lines.values())
+    worst = max(lines, key=lambda ln: lines[ln].i_rms_a)
+    checks: list[Check] = []
+    if kind == "panel" and neutral is not None and max_line > 0:
+        if sup.system == "three-phase-wye":
+            lo = min(r.i_rms_a for r in lines.values())
+            checks.append(neutral_conductor(lines[worst].i3_pct_of_rms, max_line,
+                                            neutral.i_rms_a,
+                                            panel.neutral_ampacity_a if panel else None,
+                                            (max_line - lo) / max_line))
+        if neutral.ratio_to_max_line > 1:
+            checks.append(Check("neutral current", "warn",
+                                f"the neutral carries {neutral.ratio_to_max_line:.2f} times "
+                                "the highest line current (triplen harmonics add)",
+                                "phasor sum of the line currents", neutral.ratio_to_max_line,
+                                1.0, "-"))
+        if panel is not None and panel.line_ampacity_a is not None:
+            st: Status = "pass" if max_line <= panel.line_ampacity_a else "fail"
+            checks.append(Check("line conductors", st, f"highest line {max_line:.1f} A "
+                                f"against {panel.line_ampacity_a:g} A", "ampacity as given",
+                                max_line, panel.line_ampacity_a, "A"))
+    if kind == "transformer" and max_line > 0 and lines[worst].magnitudes_a[1] > 0:
+        checks.append(transformer_derating(fhl, k, max_line, sup.rated_current_a,
+                                           sup.eddy_loss_pu))
+    return tuple(checks)
+
+
+def pcc_checks(inst: Installation, total: NodeSum, cycles: int) -> list[Check]:
+    """IEEE 519 at the point of common coupling, taken at the service (transformer
+    secondary), on every line; the line closest to (or furthest over) a limit is reported."""
+    from ..spectrum import Spectrum
+    from ..standards import evaluate_pcc
+    from .interaction import ideal_voltage, voltage_drop
+
+    sup = inst.supply
+    angles = LINE_ANGLES_DEG[sup.system]
+    if not any(np.any(total.line(ln)) for ln in total.x):
+        return []
+    pcc = inst.pcc
+    isc = pcc.short_circuit_a if pcc.short_circuit_a is not None else sup.short_circuit_a
+    if not np.isfinite(isc):
+        return [Check("IEEE 519 at the PCC", "info", "no source impedance given: the "
+                      "short-circuit ratio and the PCC limits are unknown",
+                      "IEEE Std 519", None, None, "")]
+    kv = pcc.voltage_kv
+    if kv is None:
+        kv = sup.voltage_ln_v * {"three-phase-wye": np.sqrt(3), "split-phase": 2.0,
+                                 "single-phase": 1.0}[sup.system] / 1e3
+    edition = pcc.ieee519_edition
+    xs, n = total.phasors(cycles)
+    il_given = pcc.demand_current_a
+    il = il_given if il_given is not None else max(float(abs(p[1])) for p in xs.values())
+    results = []
+    for line in total.x:
+        x = total.line(line)
+        if not np.any(x):
+            continue
+        v = ideal_voltage(inst, line) - voltage_drop(sup.impedance, xs[line], n, sup.frequency_hz)
+        turn = -np.radians(angles[line])
+        i_own, v_own = rotate_phasors(xs[line], turn), rotate_phasors(v, turn)
+        spec = Spectrum(i_own, sup.frequency_hz, float(np.sqrt(np.mean(x**2))),
+                        float(np.max(np.abs(x))), v_own,
+                        float(np.sqrt(np.sum(np.abs(v_own[1:]) ** 2))), None, None, "voltage",
+                        f"service {line}")
+        r = evaluate_pcc(spec, float(il), float(isc), edition, float(kv))
+        worst = min(r.current.checks, key=lambda c: c.margin / abs(c.limit) if c.limit else 1e9)
+        results.append((worst.margin / abs(worst.limit), line, r, worst))
+    _, line, r, worst = min(results, key=lambda t: t[0])
+    msg = (f"at the service, worst line {line}: TDD {100 * r.tdd:.1f} % of I_L, Isc/IL "
+           f"{r.isc_il:.0f} (row {r.row}); closest: {worst.quantity} {100 * worst.value:.2f} % "
+           f"against {100 * worst.limit:.2f} %")
+    if r.voltage is not None:
+        thdv = next(c for c in r.voltage.checks if c.quantity == "THD")
+        msg += f"; voltage THD {100 * thdv.value:.2f} % against {100 * thdv.limit:.0f} %"
+    if il_given is None:
+        msg += ("; I_L taken as the computed fundamental at the service (the lighting alone); "
+                "give pcc.demand_current_a, the building's maximum demand current")
+    if edition == "2022":
+        msg += "; the 2022 treatment of even orders rests on memory"
+    verdicts = [t[2].verdict for t in results]
+    verdict: Status = "fail" if "fail" in verdicts else "pass"
+    status: Status = verdict if il_given is not None or verdict == "pass" else "warn"
+    d = r.to_dict()
+    d["lines"] = {t[1]: t[2].verdict for t in results}
+    return [Check("IEEE 519 at the PCC", status, msg, f"IEEE Std 519-{edition}, Tables 1 "
+                  "and 2", float(r.tdd), None, "-", d)]

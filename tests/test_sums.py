@@ -1,4 +1,5 @@
-"""Phase-aligned sums, the neutral, supply impedance and diversity against closed forms."""
+"""The one summing path (lines, the neutral), supply impedance and diversity against closed
+forms."""
 
 from __future__ import annotations
 
@@ -7,15 +8,11 @@ import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
-from pqcalc.aggregate import (
-    GRID_SAMPLES,
-    sum_lines,
-    summation_exponent,
-    summation_law,
-    triplen_share,
-)
-from pqcalc.assess import grid_phasors
-from pqcalc.supply import SourceImpedance, from_short_circuit, from_transformer, voltage_drop
+from pqcalc.installation.diversity import summation_exponent, summation_law
+from pqcalc.installation.interaction import from_short_circuit, from_transformer, voltage_drop
+from pqcalc.installation.model import LINE_ANGLES_DEG, SourceImpedance
+from pqcalc.installation.sums import GRID_SAMPLES, NodeSum, to_l1_frame, triplen_share
+from pqcalc.spectrum import period_phasors as grid_phasors
 
 N = GRID_SAMPLES
 WT = 2 * np.pi * (np.arange(N) + 0.5) / N
@@ -26,8 +23,12 @@ def cut(alpha_rad: float) -> np.ndarray:
     return np.where((WT % np.pi) >= alpha_rad, np.sin(WT), 0.0)
 
 
-def balanced(x: np.ndarray):
-    return sum_lines({"L1": x, "L2": x, "L3": x}, "three-phase-wye", 50.0)
+def balanced(x: np.ndarray, system: str = "three-phase-wye") -> NodeSum:
+    """The same current on every line of ``system``, summed on the L1 reference."""
+    node = NodeSum.empty(LINE_ANGLES_DEG[system])
+    for ln in LINE_ANGLES_DEG[system]:
+        node.add(ln, to_l1_frame(x, system, ln), 0.0)
+    return node
 
 
 def rms(x):
@@ -39,7 +40,7 @@ def test_neutral_of_balanced_90_deg_cuts_is_sqrt2():
     # cycles except at the edges; I_N/I_ph = sqrt(2) (values in the project's reference list,
     # derived from the Fourier series of the phase-controlled sine).
     s = balanced(cut(np.pi / 2))
-    ratio = rms(s.neutral.current_a) / rms(s.lines["L1"].current_a)
+    ratio = rms(s.neutral) / rms(s.line("L1"))
     assert ratio == pytest.approx(np.sqrt(2), rel=2e-3)  # grid edges: 1 sample in 6144
 
 
@@ -48,7 +49,7 @@ def test_neutral_of_non_overlapping_pulses_is_sqrt3():
     # carries all of them: I_N^2 = 3 I_ph^2, I_N/I_ph = sqrt(3).
     x = np.where(np.abs((WT % np.pi) - np.pi / 2) < np.radians(20), np.sign(np.sin(WT)), 0.0)
     s = balanced(x)
-    assert rms(s.neutral.current_a) / rms(s.lines["L1"].current_a) == pytest.approx(np.sqrt(3),
+    assert rms(s.neutral) / rms(s.line("L1")) == pytest.approx(np.sqrt(3),
                                                                                       rel=1e-9)
 
 
@@ -58,8 +59,8 @@ def test_non_triplens_cancel_and_triplens_add():
     orders = {1: 1.0, 3: 0.6, 5: 0.3, 7: 0.2, 9: 0.1, 11: 0.05}
     x = sum(a * np.sin(h * WT + 0.3 * h) for h, a in orders.items())
     s = balanced(x)
-    m = np.abs(grid_phasors(s.neutral.current_a, 1))
-    line = np.abs(grid_phasors(s.lines["L2"].current_a, 1))
+    m = np.abs(grid_phasors(s.neutral, 1))
+    line = np.abs(grid_phasors(s.line("L2"), 1))
     for h in (1, 5, 7, 11):
         assert m[h] == pytest.approx(0.0, abs=1e-9)
     for h in (3, 9):
@@ -72,9 +73,9 @@ def test_line_rotation_turns_order_h_by_h_times_angle():
     # h * (-120 deg); L3 by h * (+120 deg).
     x = np.sin(WT) + 0.5 * np.sin(5 * WT)
     s = balanced(x)
-    p1 = grid_phasors(s.lines["L1"].current_a, 1)
-    p2 = grid_phasors(s.lines["L2"].current_a, 1)
-    p3 = grid_phasors(s.lines["L3"].current_a, 1)
+    p1 = grid_phasors(s.line("L1"), 1)
+    p2 = grid_phasors(s.line("L2"), 1)
+    p3 = grid_phasors(s.line("L3"), 1)
     for h in (1, 5):
         assert np.angle(p2[h] / p1[h]) == pytest.approx(np.angle(np.exp(-1j * h * 2 * np.pi / 3)))
         assert np.angle(p3[h] / p1[h]) == pytest.approx(np.angle(np.exp(1j * h * 2 * np.pi / 3)))
@@ -84,8 +85,8 @@ def test_split_phase_balanced_odd_orders_cancel():
     # Phasor algebra: L2 of a split-phase supply is at 180 deg; every odd order of identical
     # half-wave-symmetric loads cancels in the neutral (the 3rd included).
     x = cut(np.pi / 2)
-    s = sum_lines({"L1": x, "L2": x}, "split-phase", 60.0)
-    assert rms(s.neutral.current_a) == pytest.approx(0.0, abs=1e-12)
+    s = balanced(x, "split-phase")
+    assert rms(s.neutral) == pytest.approx(0.0, abs=1e-12)
 
 
 @settings(max_examples=30, deadline=None)
@@ -98,7 +99,7 @@ def test_balanced_set_neutral_holds_only_triplens(amps, phases):
     x = sum(a * np.sin(h * WT + p) for h, a, p in zip(orders, amps, phases, strict=True))
     s = balanced(x)
     trip = sum(a * np.sin(h * WT + p) for h, a, p in zip(orders, amps, phases, strict=True) if h % 3 == 0)
-    np.testing.assert_allclose(s.neutral.current_a, 3 * trip, atol=1e-9)
+    np.testing.assert_allclose(s.neutral, 3 * trip, atol=1e-9)
 
 
 @settings(max_examples=20, deadline=None)
@@ -108,7 +109,7 @@ def test_linearity_in_lamp_count(n):
     # line and in the neutral.
     x = cut(np.radians(60))
     one, many = balanced(x), balanced(n * x)
-    assert rms(many.neutral.current_a) == pytest.approx(n * rms(one.neutral.current_a), rel=1e-12)
+    assert rms(many.neutral) == pytest.approx(n * rms(one.neutral), rel=1e-12)
 
 
 def test_summation_law_constructed_case():

@@ -1,0 +1,390 @@
+"""Read and validate an installation file (TOML written by hand).
+
+Every error names the file, the line, the field and what was expected. Defaults are not
+repeated here: a field left out takes the default declared on its dataclass in
+:mod:`pqcalc.installation.model` (:func:`~pqcalc.installation.model.default_of`).
+
+File layout (see ``demo_installations/harbour_school.toml`` for a commented example)::
+
+    [project]      name, site, engineer, date, notes
+    [supply]       system, voltage_ln_v, frequency_hz, and one of: source_r_ohm/source_l_h,
+                   [supply.transformer] kva/impedance_pct/x_over_r, short_circuit_a/x_over_r
+    [fixtures.ID]  model + power_w (+ [fixtures.ID.params]) | capture (+ capture options);
+                   dimming range, description
+    [[feeders]]    id, r_ohm, l_h, neutral_r_ohm, neutral_l_h
+    [[panels]]     id, feeder, neutral_ampacity_a, line_ampacity_a
+    [[panels.circuits]]  id, line, breaker_a, breaker_curve, dimmer, conduction_deg
+                   (a number or a list: one per scenario) or knob, dimmer_switch (triac |
+                   transistor, leading edge), dimmer_rating_w, led_derating,
+                   dimmer_min_load_w, dimmer_params, fixtures = [{type, count}, ...]
+    [analysis]     supply_interaction, scenarios (names), max_iterations, tolerance
+    [diversity]    mode = "none" | "summation" | "monte-carlo", draws, low_deg, high_deg,
+                   step_deg, seed
+    [pcc]          demand_current_a, short_circuit_a, voltage_kv, ieee519_edition
+"""
+
+from __future__ import annotations
+
+from pathlib import Path
+from typing import Any, cast
+
+from ..errors import InputError
+from ..io.capture import CsvOptions
+from ..io.installation_file import Fields, read_toml
+from .interaction import from_short_circuit, from_transformer
+from .model import (
+    BREAKER_CURVE_NAMES,
+    DIMMER_KINDS,
+    DIVERSITY_MODES,
+    SWITCH_KINDS,
+    SYSTEMS,
+    AnalysisOptions,
+    Circuit,
+    Diversity,
+    Feeder,
+    FixtureGroup,
+    FixtureType,
+    Installation,
+    MeasuredFixture,
+    ModelledFixture,
+    Panel,
+    PccSpec,
+    Project,
+    SourceImpedance,
+    SupplySpec,
+    default_of,
+)
+
+__all__ = ["load_installation"]
+
+_TOP = {"project", "supply", "fixtures", "panels", "feeders", "analysis", "diversity", "pcc"}
+
+
+def _params(fld: Fields, d: dict, field_: str) -> tuple[tuple[str, float], ...]:
+    out = []
+    for k, v in d.items():
+        if isinstance(v, bool) or not isinstance(v, (int, float)):
+            raise fld.error(f"{field_}.{k}", "a number (SI units, as the name says)", v)
+        out.append((k, float(v)))
+    return tuple(sorted(out))
+
+
+def _supply(fld: Fields, data: dict) -> SupplySpec:
+    d = fld.table(data, "supply", "supply")
+    fld.unknown(d, {"system", "voltage_ln_v", "frequency_hz", "source_r_ohm", "source_l_h",
+                    "short_circuit_a", "x_over_r", "transformer", "neutral_r_ohm",
+                    "neutral_l_h"}, "supply")
+    system = fld.str_(d, "system", "supply.system", choices=SYSTEMS)
+    v = fld.num(d, "voltage_ln_v", "supply.voltage_ln_v", lo=90.0, hi=300.0)
+    f = fld.num(d, "frequency_hz", "supply.frequency_hz", lo=45.0, hi=65.0)
+    lines = 3 if system == "three-phase-wye" else 2 if system == "split-phase" else 1
+    kva = None
+    eddy = default_of(SupplySpec, "eddy_loss_pu")
+    given = [k for k in ("source_r_ohm", "short_circuit_a", "transformer") if k in d]
+    if len(given) > 1:
+        raise fld.error(f"supply.{given[1]}",
+                        "one way to give the source impedance: source_r_ohm/source_l_h, "
+                        "short_circuit_a/x_over_r or [supply.transformer]")
+    if "transformer" in d:
+        t = fld.table(d, "transformer", "supply.transformer")
+        fld.unknown(t, {"kva", "impedance_pct", "x_over_r", "eddy_loss_pu"}, "supply.transformer")
+        kva = fld.num(t, "kva", "supply.transformer.kva", positive=True)
+        z = from_transformer(kva, fld.num(t, "impedance_pct", "supply.transformer.impedance_pct",
+                                          lo=0.5, hi=20.0),
+                             fld.num(t, "x_over_r", "supply.transformer.x_over_r", 5.0, nonneg=True),
+                             v, f, lines)
+        eddy = fld.num(t, "eddy_loss_pu", "supply.transformer.eddy_loss_pu", eddy, nonneg=True)
+        basis = "transformer"
+    elif "short_circuit_a" in d:
+        z = from_short_circuit(fld.num(d, "short_circuit_a", "supply.short_circuit_a", positive=True),
+                               fld.num(d, "x_over_r", "supply.x_over_r", 3.0, nonneg=True), v, f)
+        basis = "short-circuit current"
+    else:
+        z = SourceImpedance(fld.num(d, "source_r_ohm", "supply.source_r_ohm", 0.0, nonneg=True),
+                            fld.num(d, "source_l_h", "supply.source_l_h", 0.0, nonneg=True))
+        basis = "direct"
+    z = SourceImpedance(z.r_ohm, z.l_h,
+                        fld.num(d, "neutral_r_ohm", "supply.neutral_r_ohm", 0.0, nonneg=True),
+                        fld.num(d, "neutral_l_h", "supply.neutral_l_h", 0.0, nonneg=True))
+    return SupplySpec(system, v, f, z, kva, eddy, basis)
+
+
+def _model_ids() -> tuple[str, ...]:
+    from ..circuits import MODELS  # the circuit models' stable ids
+
+    return tuple(MODELS)
+
+
+_FIXTURE_FIELDS = {"model", "power_w", "params", "capture", "current_col", "voltage_col",
+                   "time_col", "sample_rate_hz", "current_scale", "voltage_scale",
+                   "min_conduction_deg", "max_conduction_deg", "description"}
+
+
+def _fixtures(fld: Fields, data: dict, base: Path) -> dict[str, FixtureType]:
+    d = fld.table(data, "fixtures", "fixtures")
+    if not d:
+        raise fld.error("fixtures", "at least one fixture type [fixtures.NAME]")
+    out: dict[str, FixtureType] = {}
+    for fid, t in d.items():
+        path = f"fixtures.{fid}"
+        if not isinstance(t, dict):
+            raise fld.error(path, "a table of the fixture type's fields", t)
+        fld.unknown(t, _FIXTURE_FIELDS, path)
+        if ("model" in t) == ("capture" in t):
+            raise fld.error(path, "either model = \"...\" or capture = \"file\" (one of them)")
+        lo = fld.num(t, "min_conduction_deg", f"{path}.min_conduction_deg",
+                     default_of(ModelledFixture, "min_conduction_deg"), lo=0.0, hi=180.0)
+        hi = fld.num(t, "max_conduction_deg", f"{path}.max_conduction_deg",
+                     default_of(ModelledFixture, "max_conduction_deg"), lo=0.0, hi=180.0)
+        if lo >= hi:
+            raise fld.error(f"{path}.min_conduction_deg", f"less than max_conduction_deg ({hi:g})", lo)
+        desc = fld.str_(t, "description", f"{path}.description", "")
+        if "model" in t:
+            power = fld.num(t, "power_w", f"{path}.power_w", positive=True)
+            model = fld.str_(t, "model", f"{path}.model", choices=_model_ids())
+            params = _params(fld, fld.table(t, "params", f"{path}.params", required=False),
+                             f"{path}.params")
+            out[fid] = ModelledFixture(fid, power, lo, hi, desc, model, params)
+        else:
+            power = fld.num(t, "power_w", f"{path}.power_w", 0.0, nonneg=True)
+            cap = fld.str_(t, "capture", f"{path}.capture")
+            cp = (base / cap) if not Path(cap).is_absolute() else Path(cap)
+            if not cp.is_file():
+                raise fld.error(f"{path}.capture", "an existing capture file", str(cp))
+            opts = CsvOptions(
+                current_col=t.get("current_col"), voltage_col=t.get("voltage_col"),
+                time_col=t.get("time_col"),
+                sample_rate_hz=fld.num(t, "sample_rate_hz", f"{path}.sample_rate_hz", None, positive=True),
+                current_scale=fld.num(t, "current_scale", f"{path}.current_scale", 1.0, positive=True),
+                voltage_scale=fld.num(t, "voltage_scale", f"{path}.voltage_scale", 1.0, positive=True),
+            )
+            out[fid] = MeasuredFixture(fid, power, lo, hi, desc, str(cp), opts)
+    return out
+
+
+def _angles(fld: Fields, c: dict, key: str, path: str, lo: float, hi: float
+            ) -> tuple[float, ...] | None:
+    if key not in c:
+        return None
+    v = c[key]
+    vals = v if isinstance(v, list) else [v]
+    if not vals:
+        raise fld.error(f"{path}.{key}", "a number or a non-empty list of numbers", v)
+    out = []
+    for i, x in enumerate(vals):
+        if isinstance(x, bool) or not isinstance(x, (int, float)) or not lo <= x <= hi:
+            raise fld.error(f"{path}.{key}" + (f"[{i}]" if isinstance(v, list) else ""),
+                            f"a number from {lo:g} to {hi:g}", x)
+        out.append(float(x))
+    return tuple(out)
+
+
+_CIRCUIT_FIELDS = {"id", "line", "breaker_a", "breaker_curve", "dimmer", "conduction_deg",
+                   "knob", "dimmer_rating_w", "led_derating", "dimmer_min_load_w",
+                   "dimmer_params", "dimmer_switch", "fixtures", "branch_r_ohm", "branch_l_h",
+                   "conductor_ampacity_a", "description"}
+
+
+def _circuit(fld: Fields, c: Any, path: str, panel: str, supply: SupplySpec,
+             fixtures: dict[str, FixtureType]) -> Circuit:
+    if not isinstance(c, dict):
+        raise fld.error(path, "a table of circuit fields", c)
+    if "phase" in c:
+        raise fld.error(f"{path}.phase", "the field named `line` (renamed in 0.2: a line is "
+                        "L1, L2 or L3)")
+    fld.unknown(c, _CIRCUIT_FIELDS, path)
+
+    def dflt(name: str) -> Any:
+        return default_of(Circuit, name)
+
+    cid = fld.str_(c, "id", f"{path}.id")
+    line = fld.str_(c, "line", f"{path}.line", choices=supply.lines)
+    dimmer = fld.str_(c, "dimmer", f"{path}.dimmer", dflt("dimmer"), choices=DIMMER_KINDS)
+    cond = _angles(fld, c, "conduction_deg", path, 0.0, 180.0)
+    knob = _angles(fld, c, "knob", path, 0.0, 1.0)
+    if cond is not None and knob is not None:
+        raise fld.error(f"{path}.knob", "either conduction_deg or knob, not both")
+    if dimmer == "none" and (knob is not None or (cond is not None and cond != (180.0,))):
+        raise fld.error(f"{path}.conduction_deg", "no setting on a circuit with dimmer = \"none\"")
+    if knob is not None and dimmer != "leading-edge":
+        raise fld.error(f"{path}.knob", "a knob position only for a leading-edge dimmer "
+                        "(its firing network maps it); give conduction_deg instead")
+    groups = []
+    fl = fld.list_(c, "fixtures", f"{path}.fixtures")
+    if not fl:
+        raise fld.error(f"{path}.fixtures", "at least one {type = \"...\", count = N}")
+    for i, g in enumerate(fl):
+        gp = f"{path}.fixtures[{i}]"
+        if not isinstance(g, dict):
+            raise fld.error(gp, "{type = \"...\", count = N}", g)
+        fld.unknown(g, {"type", "count"}, gp)
+        ftype = fld.str_(g, "type", f"{gp}.type")
+        if ftype not in fixtures:
+            raise fld.error(f"{gp}.type", "a fixture type defined under [fixtures]: "
+                            + ", ".join(sorted(fixtures)), ftype)
+        groups.append(FixtureGroup(ftype, fld.count(g, "count", f"{gp}.count")))
+    dp = _params(fld, fld.table(c, "dimmer_params", f"{path}.dimmer_params", required=False),
+                 f"{path}.dimmer_params")
+    return Circuit(
+        id=cid, panel=panel, line=line, groups=tuple(groups),
+        breaker_a=fld.num(c, "breaker_a", f"{path}.breaker_a", dflt("breaker_a"), positive=True),
+        breaker_curve=fld.str_(c, "breaker_curve", f"{path}.breaker_curve", dflt("breaker_curve"),
+                               choices=BREAKER_CURVE_NAMES),
+        dimmer=dimmer,
+        conduction_deg=cond if cond is not None else dflt("conduction_deg"),
+        knob=knob,
+        dimmer_rating_w=fld.num(c, "dimmer_rating_w", f"{path}.dimmer_rating_w",
+                                dflt("dimmer_rating_w"), positive=True),
+        led_derating=fld.num(c, "led_derating", f"{path}.led_derating", dflt("led_derating"),
+                             lo=0.01, hi=1.0),
+        dimmer_min_load_w=fld.num(c, "dimmer_min_load_w", f"{path}.dimmer_min_load_w",
+                                  dflt("dimmer_min_load_w"), nonneg=True),
+        dimmer_params=dp,
+        dimmer_switch=fld.str_(c, "dimmer_switch", f"{path}.dimmer_switch", dflt("dimmer_switch"),
+                               choices=SWITCH_KINDS),
+        branch_r_ohm=fld.num(c, "branch_r_ohm", f"{path}.branch_r_ohm", dflt("branch_r_ohm"),
+                             nonneg=True),
+        branch_l_h=fld.num(c, "branch_l_h", f"{path}.branch_l_h", dflt("branch_l_h"), nonneg=True),
+        conductor_ampacity_a=fld.num(c, "conductor_ampacity_a", f"{path}.conductor_ampacity_a",
+                                     dflt("conductor_ampacity_a"), positive=True),
+    )
+
+
+def _feeders(fld: Fields, data: dict) -> dict[str, Feeder]:
+    feeders: dict[str, Feeder] = {}
+    for i, f in enumerate(fld.list_(data, "feeders", "feeders", [])):
+        fp = f"feeders[{i}]"
+        if not isinstance(f, dict):
+            raise fld.error(fp, "a table [[feeders]]", f)
+        fld.unknown(f, {"id", "r_ohm", "l_h", "neutral_r_ohm", "neutral_l_h", "description"}, fp)
+        fid = fld.str_(f, "id", f"{fp}.id")
+        if fid in feeders:
+            raise fld.error(f"{fp}.id", "a feeder id not used before", fid)
+        feeders[fid] = Feeder(
+            fid, fld.num(f, "r_ohm", f"{fp}.r_ohm", default_of(Feeder, "r_ohm"), nonneg=True),
+            fld.num(f, "l_h", f"{fp}.l_h", default_of(Feeder, "l_h"), nonneg=True),
+            fld.num(f, "neutral_r_ohm", f"{fp}.neutral_r_ohm", None, nonneg=True),
+            fld.num(f, "neutral_l_h", f"{fp}.neutral_l_h", None, nonneg=True))
+    return feeders
+
+
+def _panels(fld: Fields, data: dict, supply: SupplySpec, fixtures: dict[str, FixtureType],
+            feeders: dict[str, Feeder]) -> tuple[Panel, ...]:
+    panels = []
+    seen_panels: set[str] = set()
+    seen_circuits: set[str] = set()
+    plist = fld.list_(data, "panels", "panels")
+    if not plist:
+        raise fld.error("panels", "at least one [[panels]] with circuits")
+    for i, pd in enumerate(plist):
+        pp = f"panels[{i}]"
+        if not isinstance(pd, dict):
+            raise fld.error(pp, "a table [[panels]]", pd)
+        fld.unknown(pd, {"id", "feeder", "circuits", "neutral_ampacity_a", "line_ampacity_a",
+                         "description"}, pp)
+        pid = fld.str_(pd, "id", f"{pp}.id")
+        if pid in seen_panels:
+            raise fld.error(f"{pp}.id", "a panel id not used before", pid)
+        seen_panels.add(pid)
+        feeder = fld.str_(pd, "feeder", f"{pp}.feeder", None)
+        if feeder is not None and feeder not in feeders:
+            raise fld.error(f"{pp}.feeder", "a feeder id from [[feeders]]: "
+                            + (", ".join(feeders) or "(none defined)"), feeder)
+        circuits = []
+        for j, c in enumerate(fld.list_(pd, "circuits", f"{pp}.circuits")):
+            cp = f"{pp}.circuits[{j}]"
+            circ = _circuit(fld, c, cp, pid, supply, fixtures)
+            if circ.id in seen_circuits:
+                raise fld.error(f"{cp}.id", "a circuit id not used before", circ.id)
+            seen_circuits.add(circ.id)
+            circuits.append(circ)
+        panels.append(Panel(pid, tuple(circuits), feeder,
+                            fld.num(pd, "neutral_ampacity_a", f"{pp}.neutral_ampacity_a", None,
+                                    positive=True),
+                            fld.num(pd, "line_ampacity_a", f"{pp}.line_ampacity_a", None,
+                                    positive=True)))
+    return tuple(panels)
+
+
+def _n_scenarios(path: Path, panels: tuple[Panel, ...]) -> int:
+    nscen = 1
+    for c in (c for p in panels for c in p.circuits):
+        n = c.n_settings
+        if n > 1:
+            if nscen > 1 and n != nscen:
+                raise InputError(
+                    f"{path}: circuit {c.id}: {n} settings, but another circuit has {nscen}; "
+                    "expected one setting or the same number of settings (one per scenario)")
+            nscen = n
+    return nscen
+
+
+def _analysis(fld: Fields, data: dict, nscen: int) -> AnalysisOptions:
+    an = fld.table(data, "analysis", "analysis", required=False)
+    fld.unknown(an, {"supply_interaction", "max_iterations", "tolerance", "scenarios"}, "analysis")
+    si = an.get("supply_interaction", default_of(AnalysisOptions, "supply_interaction"))
+    if not isinstance(si, bool):
+        raise fld.error("analysis.supply_interaction", "true or false", si)
+    names = fld.list_(an, "scenarios", "analysis.scenarios", [])
+    if names and len(names) != nscen:
+        raise fld.error("analysis.scenarios", f"{nscen} names (one per scenario)", names)
+    return AnalysisOptions(
+        si, int(fld.num(an, "max_iterations", "analysis.max_iterations",
+                        default_of(AnalysisOptions, "max_iterations"), lo=1, hi=50)),
+        fld.num(an, "tolerance", "analysis.tolerance", default_of(AnalysisOptions, "tolerance"),
+                positive=True),
+        tuple(str(x) for x in names))
+
+
+def _diversity(fld: Fields, data: dict) -> Diversity:
+    dv = fld.table(data, "diversity", "diversity", required=False)
+    fld.unknown(dv, {"mode", "draws", "low_deg", "high_deg", "step_deg", "seed"}, "diversity")
+
+    def dflt(name: str) -> Any:
+        return default_of(Diversity, name)
+
+    diversity = Diversity(
+        fld.str_(dv, "mode", "diversity.mode", dflt("mode"), choices=DIVERSITY_MODES),
+        int(fld.num(dv, "draws", "diversity.draws", dflt("draws"), lo=1, hi=100000)),
+        fld.num(dv, "low_deg", "diversity.low_deg", dflt("low_deg"), lo=0.0, hi=180.0),
+        fld.num(dv, "high_deg", "diversity.high_deg", dflt("high_deg"), lo=0.0, hi=180.0),
+        fld.num(dv, "step_deg", "diversity.step_deg", dflt("step_deg"), lo=0.5, hi=90.0),
+        int(fld.num(dv, "seed", "diversity.seed", dflt("seed"))))
+    if diversity.low_deg >= diversity.high_deg:
+        raise fld.error("diversity.low_deg", f"less than high_deg ({diversity.high_deg:g})",
+                        diversity.low_deg)
+    return diversity
+
+
+def _pcc(fld: Fields, data: dict) -> PccSpec:
+    from ..standards.ieee519 import EDITIONS, Edition
+
+    pcc = fld.table(data, "pcc", "pcc", required=False)
+    fld.unknown(pcc, {"demand_current_a", "short_circuit_a", "ieee519_edition", "voltage_kv"}, "pcc")
+    ed = pcc.get("ieee519_edition", default_of(PccSpec, "ieee519_edition"))
+    if isinstance(ed, int) and not isinstance(ed, bool):
+        ed = str(ed)
+    if not isinstance(ed, str) or ed not in EDITIONS:
+        raise fld.error("pcc.ieee519_edition", "one of " + ", ".join(EDITIONS), ed)
+    return PccSpec(
+        fld.num(pcc, "demand_current_a", "pcc.demand_current_a", None, positive=True),
+        fld.num(pcc, "short_circuit_a", "pcc.short_circuit_a", None, positive=True),
+        fld.num(pcc, "voltage_kv", "pcc.voltage_kv", None, positive=True),
+        cast(Edition, ed))
+
+
+def load_installation(path: str | Path) -> Installation:
+    """Read and validate an installation file; every error names file, line and field."""
+    p = Path(path)
+    data, fld = read_toml(p)
+    fld.unknown(data, _TOP, "")
+    pj = fld.table(data, "project", "project", required=False)
+    fld.unknown(pj, {"name", "site", "engineer", "date", "notes"}, "project")
+    project = Project(**{k: str(v) for k, v in pj.items()})
+    supply = _supply(fld, data)
+    fixtures = _fixtures(fld, data, p.parent)
+    feeders = _feeders(fld, data)
+    panels = _panels(fld, data, supply, fixtures, feeders)
+    analysis = _analysis(fld, data, _n_scenarios(p, panels))
+    return Installation(project, supply, fixtures, panels, feeders, _diversity(fld, data),
+                        analysis, _pcc(fld, data), str(p))

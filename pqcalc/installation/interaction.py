@@ -1,0 +1,229 @@
+"""Source impedance and supply interaction: the panel voltages the load currents make.
+
+The source impedance per line is a resistance in series with an inductance, given directly,
+from transformer data (kVA, %Z, X/R) or from the short-circuit current at the panel (and
+X/R). Harmonic currents flowing through it drop harmonic voltages:
+``V_h = E_h - Z_line(h) I_line,h - Z_neutral(h) I_N,h`` with ``Z(h) = R + j h w L``.
+Resistance is taken as independent of frequency (skin effect neglected: it would raise R at
+high orders and lower the drop's phase angle slightly).
+"""
+
+from __future__ import annotations
+
+from collections.abc import Callable, Mapping
+from dataclasses import dataclass
+
+import numpy as np
+
+from ..errors import InputError
+from ..spectrum import rotate_phasors
+from .cases import CaseResult, PanelVoltage
+from .model import LINE_ANGLES_DEG, Installation, SourceImpedance
+from .sums import MAX_ORDER, InstallationSums
+
+__all__ = [
+    "from_transformer",
+    "from_short_circuit",
+    "harmonic_impedance",
+    "voltage_drop",
+    "ideal_voltage",
+    "circuit_sources",
+    "node_voltages",
+    "own_frame",
+    "Interaction",
+    "fixed_point",
+]
+
+
+def _split(z_ohm: float, x_over_r: float, frequency_hz: float) -> tuple[float, float]:
+    if not x_over_r >= 0:
+        raise InputError(f"x_over_r: expected a non-negative ratio, got {x_over_r}")
+    r = z_ohm / np.sqrt(1 + x_over_r**2)
+    return float(r), float(r * x_over_r / (2 * np.pi * frequency_hz))
+
+
+def from_transformer(
+    kva: float, impedance_pct: float, x_over_r: float, v_ln_v: float, frequency_hz: float,
+    lines: int = 3,
+) -> SourceImpedance:
+    """Per-line impedance of a transformer [ohm, H] from its rating.
+
+    ``Z = z% / 100 * V_LN^2 / (S / lines)``: for a three-phase unit this is the usual
+    ``V_LL^2 / S`` base. For a split-phase (two-line) unit it refers each half winding to half
+    the rating, an approximation: the half-winding impedance of real units differs (common
+    practice uses 1.5 to 2 times the full-winding value for line-to-neutral faults).
+
+    References
+    ----------
+    IEEE Std 141-1993 (Red Book), ch. 4 (per-unit impedance of transformers).
+    """
+    for name, v in (("kva", kva), ("impedance_pct", impedance_pct), ("v_ln_v", v_ln_v)):
+        if not (np.isfinite(v) and v > 0):
+            raise InputError(f"transformer.{name}: expected a positive number, got {v}")
+    z = impedance_pct / 100.0 * v_ln_v**2 / (kva * 1e3 / lines)
+    r, l_h = _split(z, x_over_r, frequency_hz)
+    return SourceImpedance(r, l_h)
+
+
+def from_short_circuit(
+    isc_a: float, x_over_r: float, v_ln_v: float, frequency_hz: float
+) -> SourceImpedance:
+    """Per-line impedance from the prospective short-circuit current at the panel:
+    ``|Z| = V_LN / I_sc`` split by X/R."""
+    if not (np.isfinite(isc_a) and isc_a > 0):
+        raise InputError(f"short_circuit_a: expected a positive current, got {isc_a}")
+    r, l_h = _split(v_ln_v / isc_a, x_over_r, frequency_hz)
+    return SourceImpedance(r, l_h)
+
+
+def harmonic_impedance(r_ohm: float, l_h: float, frequency_hz: float, max_order: int) -> np.ndarray:
+    """``Z(h) = R + j h w L`` for orders 0..max_order [ohm] (order 0: R)."""
+    h = np.arange(max_order + 1)
+    return r_ohm + 1j * h * 2 * np.pi * frequency_hz * l_h
+
+
+def voltage_drop(
+    z: SourceImpedance, line_phasors: np.ndarray, neutral_phasors: np.ndarray | None,
+    frequency_hz: float,
+) -> np.ndarray:
+    """Harmonic voltage drop on the line-to-neutral voltage of one line [V rms phasors].
+
+    ``dV_h = Z_line(h) I_line,h + Z_N(h) I_N,h`` where both currents are RMS phasors on the
+    same reference, the line current flowing to the load and the neutral current returning.
+    Subtract it from the source EMF to get the voltage at the panel.
+    """
+    p = np.asarray(line_phasors, dtype=complex)
+    top = p.size - 1
+    dv = harmonic_impedance(z.r_ohm, z.l_h, frequency_hz, top) * p
+    if neutral_phasors is not None:
+        dv = dv + harmonic_impedance(z.neutral_r_ohm, z.neutral_l_h, frequency_hz, top) * np.asarray(
+            neutral_phasors, dtype=complex
+        )
+    return dv
+
+
+# ------------------------------------------------------------------ supply interaction
+def ideal_voltage(inst: Installation, line: str) -> np.ndarray:
+    """The stiff supply's voltage phasors of ``line`` on the L1 reference [V rms]."""
+    v = np.zeros(MAX_ORDER + 1, dtype=complex)
+    v[1] = inst.supply.voltage_ln_v * np.exp(
+        1j * np.radians(LINE_ANGLES_DEG[inst.supply.system][line]))
+    return v
+
+
+def _loop(inst: Installation, feeder: str | None) -> tuple[float, float]:
+    """Loop impedance (line + neutral) of the source and a panel's feeder [ohm], [H]."""
+    z = inst.supply.impedance
+    r, l_h = z.r_ohm + z.neutral_r_ohm, z.l_h + z.neutral_l_h
+    if feeder is not None:
+        zf = inst.feeders[feeder].impedance
+        r, l_h = r + zf.r_ohm + zf.neutral_r_ohm, l_h + zf.l_h + zf.neutral_l_h
+    return round(r, 9), round(l_h, 12)
+
+
+def circuit_sources(inst: Installation, cases: Mapping[str, CaseResult],
+                    sums: InstallationSums) -> dict[str, np.ndarray]:
+    """The Thevenin EMF each circuit sees at its panel (L1 frame) [V rms phasors].
+
+    The loop impedance of the source and feeder (line and neutral) goes into the circuit's
+    own solve, so a circuit's own switching transients meet the impedance exactly; the drop
+    that the *other* circuits' currents cause across the shared impedances distorts its EMF:
+    ``E_c = E - Z_tr (I_tr - I_c) - Z_trN (I_trN - I_c) - Z_f (I_f - I_c) - Z_fN (I_fN - I_c)``.
+    """
+    sup = inst.supply
+    f = sup.frequency_hz
+    angles = LINE_ANGLES_DEG[sup.system]
+    tot_l, tot_n = sums.total.phasors(sums.cycles)
+    fdr = {k: v.phasors(sums.cycles) for k, v in sums.feeders.items()}
+    out = {}
+    for p in inst.panels:
+        for c in p.circuits:
+            ic = rotate_phasors(cases[c.id].phasors, np.radians(angles[c.line]))
+            ln = c.line
+            v = ideal_voltage(inst, ln) - voltage_drop(sup.impedance, tot_l[ln] - ic,
+                                                       tot_n - ic, f)
+            if p.feeder is not None:
+                fl, fn = fdr[p.feeder]
+                v = v - voltage_drop(inst.feeders[p.feeder].impedance, fl[ln] - ic, fn - ic, f)
+            out[c.id] = v
+    return out
+
+
+def node_voltages(inst: Installation, sums: InstallationSums
+                  ) -> dict[tuple[str, str], np.ndarray]:
+    """Harmonic voltage at each panel, feeder end and the service, per line (L1 frame)
+    [V rms phasors], from the drops over the source and feeder impedances. Keys are
+    (node id, line); the service is ``"service"``."""
+    sup = inst.supply
+    f = sup.frequency_hz
+    tot_l, tot_n = sums.total.phasors(sums.cycles)
+    fdr = {k: v.phasors(sums.cycles) for k, v in sums.feeders.items()}
+    out = {}
+    for ln in tot_l:
+        out[("service", ln)] = ideal_voltage(inst, ln) - voltage_drop(sup.impedance, tot_l[ln],
+                                                                      tot_n, f)
+    for fid, (fl, fn) in fdr.items():
+        for ln in tot_l:
+            out[(fid, ln)] = out[("service", ln)] - voltage_drop(inst.feeders[fid].impedance,
+                                                                 fl[ln], fn, f)
+    for p in inst.panels:
+        for ln in tot_l:
+            out[(p.id, ln)] = out[("service", ln)] if p.feeder is None else out[(p.feeder, ln)]
+    return out
+
+
+def own_frame(inst: Installation, line: str, v: np.ndarray,
+              loop: tuple[float, float] = (0.0, 0.0)) -> PanelVoltage:
+    """A line's voltage phasors (L1 frame) as the source of a solve in the line's own frame.
+    Harmonics below 1e-4 of V1 are left out; fractions and angles are rounded (5 digits,
+    0.1 deg) so that nearly equal voltages share one solve."""
+    own = rotate_phasors(v, -np.radians(LINE_ANGLES_DEG[inst.supply.system][line]))
+    v1 = abs(own[1])
+    delta = float(np.angle(own[1]))
+    harm = []
+    for h in range(2, MAX_ORDER + 1):
+        r = abs(own[h]) / v1
+        if r > 1e-4:
+            harm.append((h, round(float(r), 5),
+                         round(float(np.degrees(np.angle(own[h]) - h * delta)), 1)))
+    return PanelVoltage(float(v1), tuple(harm), delta, loop[0], loop[1])
+
+
+@dataclass(frozen=True)
+class Interaction:
+    """The fixed point of one scenario: the cases and sums under the settled voltages."""
+
+    cases: dict[str, CaseResult]
+    sums: InstallationSums
+    iterations: int
+    change: float
+
+
+def fixed_point(inst: Installation,
+                solve_pass: Callable[[dict[str, PanelVoltage]],
+                                     tuple[dict[str, CaseResult], InstallationSums]],
+                cases: dict[str, CaseResult], sums: InstallationSums,
+                relax: float = 0.8) -> Interaction:
+    """Fixed point on the circuits' source voltages, under-relaxed:
+    ``E <- E + r (E(I(E)) - E)``, starting from the ideal-supply currents.
+
+    The circuits are solved again under each new voltage; it stops when the update is below
+    ``analysis.tolerance`` [fraction of V1] on every circuit, or after
+    ``analysis.max_iterations``.
+    """
+    opts = inst.analysis
+    line_of = {c.id: c.line for c in inst.circuits}
+    loops = {c.id: _loop(inst, p.feeder) for p in inst.panels for c in p.circuits}
+    src = circuit_sources(inst, cases, sums)
+    change = float("inf")
+    it = 0
+    for it in range(1, opts.max_iterations + 1):
+        at = {cid: own_frame(inst, line_of[cid], v, loops[cid]) for cid, v in src.items()}
+        cases, sums = solve_pass(at)
+        new = circuit_sources(inst, cases, sums)
+        change = max(float(np.max(np.abs(new[cid] - src[cid]))) / abs(src[cid][1])
+                     for cid in src)
+        if change < opts.tolerance:
+            break
+        src = {cid: src[cid] + relax * (new[cid] - src[cid]) for cid in src}
+    return Interaction(cases, sums, it, change)

@@ -1,0 +1,331 @@
+"""The installation's data: supply, fixture types, panels with circuits, feeders, options.
+
+Frozen dataclasses, filled by :func:`pqcalc.installation.file.load_installation` from an
+installation file. Every default value of a field is declared here, once; the file reader
+takes its defaults from these declarations.
+
+Option lists (supply systems and their lines, dimmer kinds, dimmer switches, breaker curves,
+diversity modes) are declared once, as ``Literal`` types with their tuples of values, and
+used by the library, the file validator and the command line.
+"""
+
+from __future__ import annotations
+
+from dataclasses import MISSING, dataclass, field, fields
+from typing import Any, ClassVar, Literal, get_args
+
+import numpy as np
+
+from ..circuits.spec import DIMMER_KINDS, SWITCH_KINDS, DimmerKind, SwitchKind
+from ..errors import InputError
+from ..io.capture import CsvOptions
+from ..standards.ieee519 import Edition
+
+__all__ = [
+    "System", "SYSTEMS", "LINE_ANGLES_DEG", "DimmerKind", "DIMMER_KINDS", "SwitchKind",
+    "SWITCH_KINDS", "BreakerCurve", "BREAKER_CURVE_NAMES", "DiversityMode", "DIVERSITY_MODES",
+    "Project", "SourceImpedance", "SupplySpec", "ModelledFixture", "MeasuredFixture",
+    "FixtureType", "FixtureGroup", "Circuit", "Panel", "Feeder", "Diversity",
+    "AnalysisOptions", "PccSpec", "Installation", "default_of",
+]
+
+System = Literal["single-phase", "split-phase", "three-phase-wye"]
+#: Supply systems and the voltage angle of each line [deg] on the L1 reference. A line is a
+#: line conductor (L1, L2, L3); a *conductor* is a line or the neutral N.
+LINE_ANGLES_DEG: dict[str, dict[str, float]] = {
+    "single-phase": {"L1": 0.0},
+    "split-phase": {"L1": 0.0, "L2": 180.0},
+    "three-phase-wye": {"L1": 0.0, "L2": -120.0, "L3": 120.0},
+}
+SYSTEMS: tuple[str, ...] = get_args(System)
+
+BreakerCurve = Literal["B", "C", "D"]
+BREAKER_CURVE_NAMES: tuple[str, ...] = get_args(BreakerCurve)
+
+DiversityMode = Literal["none", "summation", "monte-carlo"]
+DIVERSITY_MODES: tuple[str, ...] = get_args(DiversityMode)
+
+
+def default_of(cls: type, name: str) -> Any:
+    """The declared default of dataclass field ``name`` of ``cls`` (the one place defaults
+    live; the file reader asks here)."""
+    for f in fields(cls):
+        if f.name == name:
+            if f.default is not MISSING:
+                return f.default
+            if f.default_factory is not MISSING:
+                return f.default_factory()
+            raise KeyError(f"{cls.__name__}.{name} has no default")
+    raise KeyError(f"{cls.__name__} has no field {name}")
+
+
+@dataclass(frozen=True)
+class Project:
+    """What a reviewer files the study by."""
+
+    name: str = ""
+    site: str = ""
+    engineer: str = ""
+    date: str = ""
+    notes: str = ""
+
+
+@dataclass(frozen=True)
+class SourceImpedance:
+    """Series R-L per line [ohm], [H], and the same for the neutral return path."""
+
+    r_ohm: float = 0.0
+    l_h: float = 0.0
+    neutral_r_ohm: float = 0.0
+    neutral_l_h: float = 0.0
+
+    def __post_init__(self) -> None:
+        for name in ("r_ohm", "l_h", "neutral_r_ohm", "neutral_l_h"):
+            v = getattr(self, name)
+            if not (np.isfinite(v) and v >= 0):
+                raise InputError(f"{name}: expected a non-negative number, got {v}")
+
+    def __add__(self, other: SourceImpedance) -> SourceImpedance:
+        return SourceImpedance(self.r_ohm + other.r_ohm, self.l_h + other.l_h,
+                               self.neutral_r_ohm + other.neutral_r_ohm,
+                               self.neutral_l_h + other.neutral_l_h)
+
+    @property
+    def is_zero(self) -> bool:
+        return (self.r_ohm + self.l_h + self.neutral_r_ohm + self.neutral_l_h) == 0
+
+    def magnitude_ohm(self, frequency_hz: float) -> float:
+        """|Z| of the line at the fundamental [ohm]."""
+        return float(abs(self.r_ohm + 2j * np.pi * frequency_hz * self.l_h))
+
+    def short_circuit_current_a(self, v_ln_v: float, frequency_hz: float) -> float:
+        """Prospective bolted short-circuit current ``V_LN / |Z_line|`` [A] (line impedance only)."""
+        z = self.magnitude_ohm(frequency_hz)
+        return float("inf") if z == 0 else v_ln_v / z
+
+
+@dataclass(frozen=True)
+class SupplySpec:
+    """The supply at the service: system, line-to-neutral voltage [V], frequency [Hz], the
+    source impedance per line, and transformer data where known."""
+
+    system: str
+    voltage_ln_v: float
+    frequency_hz: float
+    impedance: SourceImpedance = SourceImpedance()
+    transformer_kva: float | None = None
+    #: rated winding eddy-current loss P_EC-R [pu] (typical of a dry-type unit, from memory)
+    eddy_loss_pu: float = 0.1
+    impedance_basis: str = "direct"
+
+    @property
+    def lines(self) -> tuple[str, ...]:
+        return tuple(LINE_ANGLES_DEG[self.system])
+
+    @property
+    def rated_current_a(self) -> float | None:
+        """Transformer rated line current [A], when the kVA is known."""
+        if self.transformer_kva is None:
+            return None
+        return self.transformer_kva * 1e3 / (len(self.lines) * self.voltage_ln_v)
+
+    @property
+    def short_circuit_a(self) -> float:
+        return self.impedance.short_circuit_current_a(self.voltage_ln_v, self.frequency_hz)
+
+
+@dataclass(frozen=True)
+class _Fixture:
+    id: str
+    power_w: float
+    min_conduction_deg: float = 30.0
+    max_conduction_deg: float = 180.0
+    description: str = ""
+
+
+@dataclass(frozen=True)
+class ModelledFixture(_Fixture):
+    """A fixture type from a circuit model of :mod:`pqcalc.circuits` with its rated power
+    [W] and component overrides (SI units, as each name says)."""
+
+    model: str = "resistive"
+    params: tuple[tuple[str, float], ...] = ()
+
+    measured: ClassVar[bool] = False
+    capture: ClassVar[None] = None
+    capture_options: ClassVar[None] = None
+
+    @property
+    def nonlinear(self) -> bool:
+        """Everything but a plain filament draws a non-sinusoidal current."""
+        return self.model != "resistive"
+
+
+@dataclass(frozen=True)
+class MeasuredFixture(_Fixture):
+    """A fixture type from a measured capture (CSV or COMTRADE), used as recorded;
+    ``power_w`` is the declared power (needed when the capture has no voltage)."""
+
+    capture: str = ""
+    capture_options: CsvOptions | None = None
+
+    measured: ClassVar[bool] = True
+    model: ClassVar[None] = None
+    params: ClassVar[tuple[tuple[str, float], ...]] = ()
+    nonlinear: ClassVar[bool] = True
+
+
+FixtureType = ModelledFixture | MeasuredFixture
+
+
+@dataclass(frozen=True)
+class FixtureGroup:
+    fixture: str
+    count: int
+
+
+@dataclass(frozen=True)
+class Circuit:
+    """A branch circuit: one line, one breaker, one dimmer, groups of fixtures."""
+
+    id: str
+    panel: str
+    line: str
+    groups: tuple[FixtureGroup, ...]
+    breaker_a: float = 16.0
+    breaker_curve: str = "B"
+    dimmer: str = "none"
+    #: dimmer settings as conduction angles [deg], one per scenario (or one for all)
+    conduction_deg: tuple[float, ...] = (180.0,)
+    #: or knob positions [-] of a leading-edge dimmer's firing network
+    knob: tuple[float, ...] | None = None
+    dimmer_rating_w: float | None = None
+    #: usable share of a filament-watt dimmer rating for LED load [-] (common practice)
+    led_derating: float = 0.25
+    dimmer_min_load_w: float | None = None
+    dimmer_params: tuple[tuple[str, float], ...] = ()
+    dimmer_switch: str = "triac"
+    branch_r_ohm: float = 0.0
+    branch_l_h: float = 0.0
+    conductor_ampacity_a: float | None = None
+
+    def setting(self, scenario: int) -> tuple[float | None, float | None]:
+        """(conduction angle [deg], knob [-]) of this circuit's dimmer in a scenario."""
+        if self.knob is not None:
+            k = self.knob[scenario] if len(self.knob) > 1 else self.knob[0]
+            return None, k
+        c = self.conduction_deg[scenario] if len(self.conduction_deg) > 1 else self.conduction_deg[0]
+        return c, None
+
+    @property
+    def n_settings(self) -> int:
+        return len(self.knob) if self.knob is not None else len(self.conduction_deg)
+
+
+@dataclass(frozen=True)
+class Panel:
+    id: str
+    circuits: tuple[Circuit, ...]
+    feeder: str | None = None
+    neutral_ampacity_a: float | None = None
+    line_ampacity_a: float | None = None
+
+
+@dataclass(frozen=True)
+class Feeder:
+    id: str
+    r_ohm: float = 0.0
+    l_h: float = 0.0
+    neutral_r_ohm: float | None = None
+    neutral_l_h: float | None = None
+
+    @property
+    def impedance(self) -> SourceImpedance:
+        return SourceImpedance(
+            self.r_ohm, self.l_h,
+            self.r_ohm if self.neutral_r_ohm is None else self.neutral_r_ohm,
+            self.l_h if self.neutral_l_h is None else self.neutral_l_h,
+        )
+
+
+@dataclass(frozen=True)
+class Diversity:
+    """Independent dimming: summation-law estimate or Monte Carlo over settings."""
+
+    mode: str = "none"
+    draws: int = 200
+    low_deg: float = 45.0
+    high_deg: float = 180.0
+    step_deg: float = 5.0
+    seed: int = 1
+
+
+@dataclass(frozen=True)
+class AnalysisOptions:
+    supply_interaction: bool = True
+    max_iterations: int = 8
+    #: largest change of any harmonic voltage between iterations [fraction of V1]
+    tolerance: float = 2e-4
+    scenario_names: tuple[str, ...] = ()
+
+
+@dataclass(frozen=True)
+class PccSpec:
+    """The point of common coupling for IEEE 519: the building's maximum demand current
+    [A], the short-circuit current there [A] (default: from the source impedance), the
+    nominal line-to-line voltage [kV] (default: from the supply) and the edition."""
+
+    demand_current_a: float | None = None
+    short_circuit_a: float | None = None
+    voltage_kv: float | None = None
+    ieee519_edition: Edition = "2022"
+
+    def to_dict(self) -> dict:
+        return {k: v for k, v in vars(self).items() if v is not None}
+
+
+@dataclass(frozen=True)
+class Installation:
+    project: Project
+    supply: SupplySpec
+    fixtures: dict[str, FixtureType]
+    panels: tuple[Panel, ...]
+    feeders: dict[str, Feeder] = field(default_factory=dict)
+    diversity: Diversity = Diversity()
+    analysis: AnalysisOptions = AnalysisOptions()
+    pcc: PccSpec = PccSpec()
+    path: str = ""
+
+    @property
+    def circuits(self) -> tuple[Circuit, ...]:
+        return tuple(c for p in self.panels for c in p.circuits)
+
+    @property
+    def n_scenarios(self) -> int:
+        return max((c.n_settings for c in self.circuits), default=1)
+
+    def scenario_name(self, k: int) -> str:
+        names = self.analysis.scenario_names
+        if k < len(names):
+            return names[k]
+        return "design" if self.n_scenarios == 1 else f"scenario {k + 1}"
+
+    @property
+    def n_lamps(self) -> int:
+        return sum(g.count for c in self.circuits for g in c.groups)
+
+    @property
+    def has_source_impedance(self) -> bool:
+        return not self.supply.impedance.is_zero or any(
+            (f.r_ohm + f.l_h) > 0 for f in self.feeders.values())
+
+    def nonlinear_share(self) -> float:
+        """Share of the connected (rated) load drawn by non-linear fixtures [-]."""
+        tot = nl = 0.0
+        for c in self.circuits:
+            for g in c.groups:
+                ft = self.fixtures[g.fixture]
+                w = g.count * ft.power_w
+                tot += w
+                nl += w if ft.nonlinear else 0.0
+        return nl / tot if tot > 0 else 0.0

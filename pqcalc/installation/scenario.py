@@ -1,0 +1,134 @@
+"""One scenario: solve every circuit, sum, interact with the supply, build the results.
+
+The ideal-supply pass is always made and kept; with supply interaction on and a source
+impedance known, the fixed point of :func:`~pqcalc.installation.interaction.fixed_point`
+gives the interacting result, and the ideal one stays beside it.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Callable
+
+import numpy as np
+
+from ..metrics import harmonic_loss_factor, k_factor, thd
+from .cases import CaseResult, CaseSolver, PanelVoltage
+from .checks import circuit_checks, nec_neutral_note, node_checks, pcc_checks
+from .interaction import fixed_point, ideal_voltage, node_voltages, own_frame
+from .model import Circuit, Installation, Panel
+from .results import Check, CircuitResult, NodeResult, ScenarioResult
+from .sums import InstallationSums, NodeSum, line_result, neutral_result, sum_installation
+
+__all__ = ["solve_pass", "evaluate_scenario"]
+
+Progress = Callable[[int], None]
+
+
+def solve_pass(inst: Installation, solver: CaseSolver, scenario: int,
+               voltages: dict[str, PanelVoltage] | None = None,
+               progress: Progress | None = None
+               ) -> tuple[dict[str, CaseResult], InstallationSums]:
+    """Every circuit's case at a scenario (under ``voltages`` per circuit id, or the ideal
+    supply) and the sums they make."""
+    cases = {}
+    for c in inst.circuits:
+        cases[c.id] = solver.case(c, scenario, None if voltages is None else voltages[c.id])
+        if progress is not None:
+            progress(1)
+    return cases, sum_installation(inst, {k: (v.current_a, v.cycles, v.p_w)
+                                          for k, v in cases.items()})
+
+
+def _circuit_result(inst: Installation, c: Circuit, cs: CaseResult, scenario: int,
+                    v: PanelVoltage | None,
+                    memo: dict[tuple[int, PanelVoltage | None], tuple]) -> CircuitResult:
+    key = (id(cs), v)
+    hit = memo.get(key)
+    if hit is None:  # identical circuits share a case object: its figures once
+        ph = cs.phasors
+        m = np.abs(ph)
+        i_rms = float(np.sqrt(np.mean(cs.current_a**2)))
+        i1 = float(m[1])
+        delta = 0.0 if v is None else v.delta_rad
+        dpf = float(np.cos(delta - np.angle(ph[1]))) if i1 > 0 else None
+        v_rms = inst.supply.voltage_ln_v if v is None else v.v_rms_v
+        pf = cs.p_w / (v_rms * i_rms) if i_rms > 0 else None
+        hit = (m, i_rms, i1, float(np.max(np.abs(cs.current_a))),
+               float(thd(m, 40)) if i1 > 0 else 0.0, pf, dpf)
+        memo[key] = hit
+    m, i_rms, i1, i_peak, thd_i, pf, dpf = hit
+    cond, knob = c.setting(scenario)
+    checks, inrush, mx = circuit_checks(inst, c, cs, i_rms)
+    return CircuitResult(c.id, c.panel, c.line, cond if c.dimmer != "none" else None, knob,
+                         i_rms, i1, i_peak, thd_i, cs.p_w, pf, dpf, inrush,
+                         cs.flags, checks, mx, cs.notes, m)
+
+
+def _node_result(inst: Installation, name: str, kind: str, node: NodeSum, cycles: int,
+                 vmap: dict[tuple[str, str], np.ndarray] | None,
+                 panel: Panel | None = None) -> NodeResult:
+    sup = inst.supply
+    lines = {}
+    for ln in sup.lines:
+        v = ideal_voltage(inst, ln) if vmap is None else vmap[(name, ln)]
+        lines[ln] = line_result(node.line(ln), cycles, v, node.p[ln])
+    max_line = max(r.i_rms_a for r in lines.values())
+    neutral = None
+    if sup.system != "single-phase":
+        neutral = neutral_result(node.neutral, cycles, max_line)
+    mw = lines[max(lines, key=lambda k: lines[k].i_rms_a)].magnitudes_a
+    kf = float(k_factor(mw)) if mw[1] > 0 else 1.0
+    fhl = float(harmonic_loss_factor(mw)) if mw[1] > 0 else 1.0
+    return NodeResult(name, kind, lines, neutral,
+                      node_checks(inst, kind, lines, neutral, kf, fhl, panel), kf, fhl)
+
+
+def _assemble(inst: Installation, scenario: int, cases: dict[str, CaseResult],
+              sums: InstallationSums, iterations: int, interacting: bool) -> ScenarioResult:
+    cyc = sums.cycles
+    vmap = node_voltages(inst, sums) if interacting else None
+    memo: dict[tuple[int, PanelVoltage | None], tuple] = {}
+    circuits = []
+    for p in inst.panels:
+        for c in p.circuits:
+            v = None if vmap is None else own_frame(inst, c.line, vmap[(p.id, c.line)])
+            circuits.append(_circuit_result(inst, c, cases[c.id], scenario, v, memo))
+    # feeders and the service are reported on the ideal voltage reference (their THDv is
+    # the point-of-coupling check's); panels on their own voltage when interacting
+    pres = tuple(_node_result(inst, p.id, "panel", sums.panels[p.id], cyc, vmap, p)
+                 for p in inst.panels)
+    fres = tuple(_node_result(inst, f, "feeder", sums.feeders[f], cyc, None)
+                 for f in inst.feeders)
+    tres = _node_result(inst, "service", "transformer", sums.total, cyc, None)
+    extra: list[Check] = []
+    note = nec_neutral_note(inst.nonlinear_share(), inst.supply.system)
+    if note is not None:
+        extra.append(note)
+    extra.extend(pcc_checks(inst, sums.total, cyc))
+    return ScenarioResult(inst.scenario_name(scenario), tuple(circuits), pres, fres, tres,
+                          iterations, None, tuple(extra))
+
+
+def evaluate_scenario(inst: Installation, solver: CaseSolver, scenario: int,
+                      progress: Progress | None = None) -> ScenarioResult:
+    """Solve, sum and check one scenario; with supply interaction, the ideal-supply result
+    is kept as ``ideal``."""
+    cases, sums = solve_pass(inst, solver, scenario, None, progress)
+    ideal = _assemble(inst, scenario, cases, sums, 0, False)
+    if not (inst.analysis.supply_interaction and inst.has_source_impedance):
+        return ideal
+    fp = fixed_point(inst, lambda at: solve_pass(inst, solver, scenario, at), cases, sums)
+    res = _assemble(inst, scenario, fp.cases, fp.sums, fp.iterations, True)
+    extra = res.checks
+    opts = inst.analysis
+    if fp.change >= opts.tolerance:
+        extra = extra + (Check(
+            "supply interaction", "warn",
+            f"the panel voltages had not settled after {fp.iterations} iterations (last update "
+            f"{100 * fp.change:.3f} % of V1, tolerance {100 * opts.tolerance:.3f} %): the "
+            "interacting figures are approximate; raise analysis.max_iterations",
+            "fixed-point iteration on the panel voltages (under-relaxed)", fp.change,
+            opts.tolerance, "-"),)
+    return ScenarioResult(res.name, res.circuits, res.panels, res.feeders, res.transformer,
+                          fp.iterations, ideal, extra)
+
