@@ -41,6 +41,7 @@ import numpy as np
 import xarray as xr
 
 from .errors import InputError
+from .standards.results import CAUTION  # the one caution text, re-exported
 
 __all__ = [
     "SettingKind",
@@ -69,11 +70,6 @@ SETTING_KINDS: tuple[str, ...] = get_args(SettingKind)
 MAX_ORDER = 50
 THD_MAX_ORDER = 40
 
-CAUTION = (
-    "These figures support, and never replace, the local electrical code and the design of a "
-    "licensed professional; confirm conductor, breaker, dimmer and transformer choices with "
-    "the manufacturers' data and the authority having jurisdiction."
-)
 
 #: component units a Monte Carlo draw perturbs (passive parts: capacitors and resistors)
 _TOLERANCED_UNITS = ("F", "ohm")

@@ -13,9 +13,8 @@ import numpy as np
 import pytest
 from click.testing import CliRunner
 
-from pqcalc.installation import assess
 from pqcalc.cli import main
-from pqcalc.installation import load_installation
+from pqcalc.installation import assess, load_installation
 
 HEAD = """
 [supply]

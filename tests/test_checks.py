@@ -5,8 +5,8 @@ from __future__ import annotations
 import numpy as np
 import pytest
 
-from pqcalc.installation import checks as ck
 from pqcalc import metrics
+from pqcalc.installation import checks as ck
 
 
 @pytest.mark.parametrize(

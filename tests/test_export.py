@@ -19,10 +19,8 @@ import numpy as np
 import pytest
 import xarray as xr
 
-from pqcalc.installation import assess
 from pqcalc.errors import InputError
-from pqcalc.installation import load_installation
-from pqcalc.installation import export
+from pqcalc.installation import assess, export, load_installation
 from pqcalc.io import export as io_export
 
 DEMO = Path(__file__).resolve().parents[1] / "demo_installations"

@@ -8,8 +8,7 @@ import pytest
 from click.testing import CliRunner
 
 from pqcalc.cli import main
-from pqcalc.installation import load_installation
-from pqcalc.installation import evaluate_lineup
+from pqcalc.installation import evaluate_lineup, load_installation
 
 SITE = """
 [supply]

@@ -42,7 +42,7 @@ def spec(i1_a: float, orders: dict[int, float], max_order: int = 50) -> Spectrum
 
 
 def order_verdict(rule, h):
-    return next(c for c in rule.checks if c.order == h).verdict
+    return next(c for c in rule.checks if c.order == h).status
 
 
 # ------------------------------------------------------------------ at / under / over
@@ -86,7 +86,7 @@ def test_class_d_cap_binds_at_high_power():
     # Table 3: at 600 W h3 per watt gives 2.04 A < 2.30 A cap; at 700 W 2.38 A > 2.30 A cap
     r = evaluate_class_d(spec(3.0, {3: 2.31}), 700.0, disregard_small=False)
     c = next(c for c in r.checks if c.order == 3)
-    assert c.limit == pytest.approx(2.30, rel=1e-12) and c.verdict == "fail"
+    assert c.limit == pytest.approx(2.30, rel=1e-12) and c.status == "fail"
 
 
 @pytest.mark.parametrize("option, orders", [
@@ -111,9 +111,9 @@ def test_option_c_thd_at_under_over(factor, verdict):
     x = 0.70 / np.sqrt(14) * factor
     s = spec(0.1, {h: 0.1 * x for h in range(13, 40, 2)})
     r = evaluate_option_c(s, disregard_small=False)
-    thd_check = next(c for c in r.checks if c.quantity.startswith("THD"))
+    thd_check = next(c for c in r.checks if c.name.startswith("THD"))
     assert thd_check.value == pytest.approx(0.70 * factor, rel=1e-12)
-    assert thd_check.verdict == verdict and r.verdict == verdict
+    assert thd_check.status == verdict and r.verdict == verdict
 
 
 # ------------------------------------------------------------------ the 30 lambda rule
@@ -124,7 +124,7 @@ def test_third_order_limit_is_30_lambda_percent(pf):
         r = evaluate_class_c(spec(1.0, {3: factor * lim}), pf, disregard_small=False)
         c = next(c for c in r.checks if c.order == 3)
         assert c.limit == pytest.approx(lim, rel=1e-12)
-        assert c.verdict == verdict
+        assert c.status == verdict
 
 
 def test_same_spectrum_passes_at_high_pf_fails_at_low_pf():
@@ -222,7 +222,7 @@ def test_waveform_test_reach_by_60_deg(start, verdict):
     r = waveform_test(pulse_waveform(start, 63.0, 120.0))
     # the jump from 0 to 20 % of the peak is crossed within one sample (0.1 deg)
     assert r.reach_deg == pytest.approx(start, abs=0.1)
-    c = dict((c.quantity, c.verdict) for c in r.checks())
+    c = dict((c.name, c.status) for c in r.checks())
     assert c["reach threshold"] == verdict and c["peak"] == "pass"
     assert c["stay above threshold"] == "pass"
 
@@ -242,7 +242,7 @@ def test_waveform_test_stays_until_90_deg(drop, verdict):
     end = (drop - 3.0) / 0.95
     r = waveform_test(pulse_waveform(40.0, 60.0, end))
     assert r.drop_deg == pytest.approx(drop, abs=0.1)  # one-sample resolution
-    c = dict((c.quantity, c.verdict) for c in r.checks())
+    c = dict((c.name, c.status) for c in r.checks())
     assert c["stay above threshold"] == verdict
     assert c["reach threshold"] == "pass" and c["peak"] == "pass"
 

@@ -50,7 +50,7 @@ def test_band_edges_11_17_23_35(h, lim, factor, verdict):
     r = evaluate_pcc(spec({h: lim * factor}), IL, 30 * IL, "2014", 0.48)
     c = order_check(r, h)
     assert c.limit == pytest.approx(lim / 100, rel=1e-12)
-    assert c.verdict == verdict
+    assert c.status == verdict
 
 
 @pytest.mark.parametrize("ratio, row", [
@@ -64,7 +64,7 @@ def test_isc_il_row_edges(ratio, row):
     tdd = [5.0, 8.0, 12.0, 15.0, 20.0][row]  # Table 2, TDD column
     r = evaluate_pcc(spec({3: h3}), IL, ratio * IL, "2014", 0.48)
     assert order_check(r, 3).limit == pytest.approx(h3 / 100, rel=1e-12)
-    assert next(c for c in r.current.checks if c.quantity == "TDD").limit == \
+    assert next(c for c in r.current.checks if c.name == "TDD").limit == \
         pytest.approx(tdd / 100, rel=1e-12)
     assert r.isc_il == pytest.approx(ratio, rel=1e-12)
 
@@ -90,8 +90,8 @@ def test_tdd_at_under_over(factor, verdict):
     # of row < 20 (Table 2); both orders under their own 4 % limit
     r = evaluate_pcc(spec({5: 3.0 * factor, 7: 4.0 * factor}), IL, 10 * IL, "2022", 0.48)
     assert r.tdd == pytest.approx(0.05 * factor, rel=1e-12)
-    tdd = next(c for c in r.current.checks if c.quantity == "TDD")
-    assert tdd.verdict == verdict
+    tdd = next(c for c in r.current.checks if c.name == "TDD")
+    assert tdd.status == verdict
     assert r.current_verdict == verdict
 
 
@@ -112,8 +112,8 @@ def test_voltage_limits(kv, individual, total):
     x = math.sqrt(total**2 / 3)
     thd_at = spec({}, v_pct={5: x, 7: x, 11: x})
     r = evaluate_pcc(thd_at, IL, 30 * IL, "2022", kv)
-    thd = next(c for c in r.voltage.checks if c.quantity == "THD")
-    assert thd.value == pytest.approx(total / 100, rel=1e-12) and thd.verdict == "pass"
+    thd = next(c for c in r.voltage.checks if c.name == "THD")
+    assert thd.value == pytest.approx(total / 100, rel=1e-12) and thd.status == "pass"
     thd_over = spec({}, v_pct={5: x * 1.001, 7: x * 1.001, 11: x * 1.001})
     assert evaluate_pcc(thd_over, IL, 30 * IL, "2022", kv).voltage_verdict == "fail"
 

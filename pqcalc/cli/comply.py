@@ -54,14 +54,14 @@ def print_result(r: FixtureResult) -> None:
     dec = r.deciding
     if dec is not None:
         out(f"  {dec.reference}")
-        out(f"  {'quantity':<22} {'value':>10} {'limit':>10} {'unit':<10} {'margin':>10}  verdict")
+        out(f"  {'quantity':<22} {'value':>10} {'limit':>10} {'unit':<10} {'margin':>10}  status")
         for c in dec.checks:
             cd = c.to_dict()
             v, lim, m = _fmt_value(cd)
             bound = ">=" if c.bound == "min" else "<="
             flag = " (disregarded)" if c.disregarded else ""
-            out(f"  {c.quantity:<22} {v:>10} {bound}{lim:>8} {cd['unit']:<10} {m:>10}  "
-                f"{c.verdict}{flag}")
+            out(f"  {c.name:<22} {v:>10} {bound}{lim:>8} {cd['unit']:<10} {m:>10}  "
+                f"{c.status}{flag}")
         for n in dec.notes:
             out(f"  note: {n}")
     for n in d["notes"]:

@@ -32,11 +32,12 @@ from ..errors import InputError
 from ..flicker import flicker
 from ..io.atomic import is_stdout
 from ..plotting.style import FIGURE_FORMATS
+from ..standards.results import CAUTION
 from ._common import echo_json, figure_format, fmt, main, save_figure_to, user_errors, write_atomic
 
-CAUTION = ("caution: computed from circuit models with typical component values; confirm "
-           "dimmer and lamp compatibility with the makers' data, and size conductors and "
-           "protection to the local electrical code with a licensed professional")
+#: What the lamp figures rest on, printed with the caution.
+MODEL_NOTE = ("computed from circuit models with typical component values; confirm dimmer and "
+              "lamp compatibility with the makers' data")
 
 #: the supply's own parameters that ``--param`` reaches (names as in :class:`Supply`)
 SUPPLY_PARAMS = (
@@ -239,6 +240,7 @@ def lamp_cmd(model, power_w, count, voltage, frequency, dimmer, switch, conducti
             d["supply"] = {"v_rms_v": supply.v_rms_v, "frequency_hz": supply.frequency_hz,
                            **split["supply"]}
             d["caution"] = CAUTION
+            d["model_note"] = MODEL_NOTE
             echo_json(d)
         else:
             with _text_out(bool(on_stdout)):
@@ -267,6 +269,7 @@ def lamp_cmd(model, power_w, count, voltage, frequency, dimmer, switch, conducti
         d["p_w"] = float(sol.waveform.p_w)
         d.update(_solution_dict(sol, spec, supply, split, fl))
         d["caution"] = CAUTION
+        d["model_note"] = MODEL_NOTE
         echo_json(d)
         return
     with _text_out(bool(on_stdout)):
@@ -403,7 +406,8 @@ def _print_solution(a, sol, spec, supply, fl, group) -> None:
         pct = "-" if r["pct_of_fundamental"] is None else f"{r['pct_of_fundamental']:.2f}"
         out(f"  {r['order']:>5} {r['i_rms_a']:>12.5g} {pct:>9} {r['phase_deg']:>12.1f}")
     out("  (orders 16..40: --json)")
-    out(CAUTION)
+    out(f"note: {MODEL_NOTE}")
+    out(f"caution: {CAUTION}")
 
 
 def _print_curve(c, group, supply) -> None:
@@ -430,4 +434,5 @@ def _print_curve(c, group, supply) -> None:
     out(f"curve flags: {', '.join(c.curve_flags) or 'none'}")
     for n in c.notes:
         out(f"  {n}")
-    out(CAUTION)
+    out(f"note: {MODEL_NOTE}")
+    out(f"caution: {CAUTION}")

@@ -8,8 +8,8 @@ from pathlib import Path
 import click
 
 from ..errors import InputError
-from ..io.atomic import is_stdout, write_stdout
 from ..installation.export import CSV_TABLES
+from ..io.atomic import is_stdout, write_stdout
 from ..io.export import EXPORT_FORMATS, check_output_path, write_bytes_atomic
 from ._common import main, refuse_binary_terminal, user_errors
 
@@ -79,8 +79,7 @@ def report_cmd(installation, output, fmt, table, no_interaction):
     2 for bad input, 3 when the tool fails (the traceback is written to a file in the
     temporary folder).
     """
-    from ..installation import assess, load_installation
-    from ..installation import export
+    from ..installation import assess, export, load_installation
 
     out = Path(output)
     to_stdout = is_stdout(out)

@@ -9,6 +9,7 @@ breaker, dimmer or transformer carries :data:`CAUTION` in the outputs that show 
 
 from __future__ import annotations
 
+import math
 from collections.abc import Mapping
 from typing import Any
 
@@ -192,7 +193,7 @@ def neutral_conductor(
         msg += (f"; the lines differ by {100 * imbalance:.0f} % but the table is for balanced "
                 "loads")
     if neutral_ampacity_a is None:
-        return Check("neutral conductor", "info", msg, _E52, float(size_on), None, "A", details)
+        return Check("neutral conductor", "info", msg, _E52, float(size_on), math.nan, "A", details)
     st: Status = "pass" if size_on <= neutral_ampacity_a else "fail"
     msg += f"; conductor ampacity {neutral_ampacity_a:.0f} A"
     return Check("neutral conductor", st, msg, _E52, float(size_on), float(neutral_ampacity_a),
@@ -253,7 +254,7 @@ def transformer_derating(
                      f"F_HL {harmonic_loss_factor:.2f} (this load's spectrum, orders 1..50, most "
                      f"loaded line): a standard transformer serving only this load may carry "
                      f"{100 * i_max_pu:.0f} % of its rated current; a K-rated replacement "
-                     f"needs {_k_text(k_needed)}", src, i_max_pu, None,
+                     f"needs {_k_text(k_needed)}", src, i_max_pu, math.nan,
                      "pu", det)
     allowed = i_max_pu * rated_current_a
     st: Status = "pass" if load_current_a <= allowed else "fail"
@@ -316,7 +317,7 @@ def circuit_checks(inst: Installation, c: Circuit, cs: CaseResult, i_rms_a: floa
         checks.append(Check("breaker inrush", "info",
                             f"inrush of {', '.join(unknown)} unknown (a steady-state record); "
                             "the inrush figure covers the modelled fixtures only",
-                            "measured record", None, None, ""))
+                            "measured record"))
     checks.append(breaker_load(i_rms_a, c.breaker_a))
     if c.conductor_ampacity_a is not None:
         st: Status = "pass" if i_rms_a <= c.conductor_ampacity_a else "fail"
@@ -333,8 +334,8 @@ def circuit_checks(inst: Installation, c: Circuit, cs: CaseResult, i_rms_a: floa
         checks.append(Check("dimmer compatibility", FLAG_STATUS.get(fl, "warn"),
                             f"the circuit model reports '{fl}' at this setting: "
                             + FLAG_TEXT.get(fl, "see the lamp model"),
-                            "periodic steady-state circuit model of dimmer and drivers", None,
-                            None, "", {"flag": fl}))
+                            "periodic steady-state circuit model of dimmer and drivers",
+                            details={"flag": fl}))
     mx = {g.fixture: breaker_max_fixtures(g.inrush_peak_one_a, g.i_rms_one_a, c.breaker_a,
                                           c.breaker_curve) for g in cs.groups}
     return tuple(checks), float(inrush), mx
@@ -389,7 +390,7 @@ def pcc_checks(inst: Installation, total: NodeSum, cycles: int) -> list[Check]:
     if not np.isfinite(isc):
         return [Check("IEEE 519 at the PCC", "info", "no source impedance given: the "
                       "short-circuit ratio and the PCC limits are unknown",
-                      "IEEE Std 519", None, None, "")]
+                      "IEEE Std 519")]
     kv = pcc.voltage_kv
     if kv is None:
         kv = sup.voltage_ln_v * {"three-phase-wye": np.sqrt(3), "split-phase": 2.0,
@@ -415,10 +416,10 @@ def pcc_checks(inst: Installation, total: NodeSum, cycles: int) -> list[Check]:
         results.append((worst.margin / abs(worst.limit), line, r, worst))
     _, line, r, worst = min(results, key=lambda t: t[0])
     msg = (f"at the service, worst line {line}: TDD {100 * r.tdd:.1f} % of I_L, Isc/IL "
-           f"{r.isc_il:.0f} (row {r.row}); closest: {worst.quantity} {100 * worst.value:.2f} % "
+           f"{r.isc_il:.0f} (row {r.row}); closest: {worst.name} {100 * worst.value:.2f} % "
            f"against {100 * worst.limit:.2f} %")
     if r.voltage is not None:
-        thdv = next(c for c in r.voltage.checks if c.quantity == "THD")
+        thdv = next(c for c in r.voltage.checks if c.name == "THD")
         msg += f"; voltage THD {100 * thdv.value:.2f} % against {100 * thdv.limit:.0f} %"
     if il_given is None:
         msg += ("; I_L taken as the computed fundamental at the service (the lighting alone); "
@@ -431,4 +432,4 @@ def pcc_checks(inst: Installation, total: NodeSum, cycles: int) -> list[Check]:
     d = r.to_dict()
     d["lines"] = {t[1]: t[2].verdict for t in results}
     return [Check("IEEE 519 at the PCC", status, msg, f"IEEE Std 519-{edition}, Tables 1 "
-                  "and 2", float(r.tdd), None, "-", d)]
+                  "and 2", float(r.tdd), math.nan, "-", d)]

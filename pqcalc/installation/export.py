@@ -136,6 +136,11 @@ def _nodes(s) -> tuple:
     return tuple(s.panels) + tuple(s.feeders) + (s.transformer,)
 
 
+def _finite(x: float) -> float | None:
+    """A check's figure, or None (an empty cell) where it has none (NaN)."""
+    return float(x) if np.isfinite(x) else None
+
+
 def _pct(x) -> float | None:
     return None if x is None else 100.0 * float(x)
 
@@ -234,7 +239,7 @@ def check_rows(assessment: Assessment) -> list[dict]:
         for kind, ident, checks in items:
             for k in checks:
                 rows.append({"scenario": s.name, "where": kind, "id": ident, "check": k.name,
-                             "status": k.status, "value": k.value, "limit": k.limit,
+                             "status": k.status, "value": _finite(k.value), "limit": _finite(k.limit),
                              "unit": k.unit, "message": k.message, "source": k.source})
     return rows
 

@@ -217,7 +217,7 @@ def fixed_point(inst: Installation,
     src = circuit_sources(inst, cases, sums)
     change = float("inf")
     it = 0
-    for it in range(1, opts.max_iterations + 1):
+    for it in range(1, opts.max_iterations + 1):  # noqa: B007 (reported after the loop)
         at = {cid: own_frame(inst, line_of[cid], v, loops[cid]) for cid, v in src.items()}
         cases, sums = solve_pass(at)
         new = circuit_sources(inst, cases, sums)

@@ -13,44 +13,15 @@ from __future__ import annotations
 
 from collections.abc import Iterator
 from dataclasses import dataclass, field
-from typing import Any, Literal
+from typing import Any
 
 import numpy as np
 
+from ..standards.results import CAUTION, Check, Status
 from .model import Installation
 
-__all__ = ["CAUTION", "Status", "Check", "CircuitResult", "LineResult", "NeutralResult", "NodeResult", "ScenarioResult",
-           "Assessment"]
-
-
-CAUTION = (
-    "These figures support, and never replace, the local electrical code and the design of a "
-    "licensed professional; confirm conductor, breaker, dimmer and transformer choices with "
-    "the manufacturers' data and the authority having jurisdiction."
-)
-
-Status = Literal["pass", "fail", "warn", "info"]
-
-
-@dataclass(frozen=True)
-class Check:
-    """One check's outcome."""
-
-    name: str
-    status: Status
-    message: str
-    source: str
-    value: float | None = None
-    limit: float | None = None
-    unit: str = ""
-    details: dict = field(default_factory=dict)
-
-    def to_dict(self) -> dict:
-        return {
-            "name": self.name, "status": self.status, "message": self.message,
-            "source": self.source, "value": self.value, "limit": self.limit, "unit": self.unit,
-            **({"details": self.details} if self.details else {}),
-        }
+__all__ = ["CAUTION", "Status", "Check", "CircuitResult", "LineResult", "NeutralResult",
+           "NodeResult", "ScenarioResult", "Assessment"]
 
 
 @dataclass(frozen=True)

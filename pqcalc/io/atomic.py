@@ -89,20 +89,21 @@ def atomic_output(path: str | os.PathLike) -> Iterator[Path]:
             shutil.rmtree(folder, ignore_errors=True)
         return
     try:
-        fd, tmp = tempfile.mkstemp(dir=p.parent if str(p.parent) else ".",
-                                   prefix=f".{p.name}.", suffix=".tmp")
+        fd, tmp_name = tempfile.mkstemp(dir=p.parent if str(p.parent) else ".",
+                                        prefix=f".{p.name}.", suffix=".tmp")
     except OSError as e:
         raise InputError(f"{p}: cannot write in {p.parent or '.'}: {e.strerror}") from None
     os.close(fd)
+    staged = Path(tmp_name)
     try:
-        yield Path(tmp)
-        os.chmod(tmp, _new_file_mode())
-        os.replace(tmp, p)
+        yield staged
+        os.chmod(staged, _new_file_mode())
+        os.replace(staged, p)
     except OSError as e:
-        Path(tmp).unlink(missing_ok=True)
+        staged.unlink(missing_ok=True)
         raise InputError(f"{p}: could not be written: {e.strerror or e}") from None
     except BaseException:
-        Path(tmp).unlink(missing_ok=True)
+        staged.unlink(missing_ok=True)
         raise
 
 

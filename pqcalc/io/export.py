@@ -15,6 +15,7 @@ import shutil
 import tempfile
 import zipfile
 from collections.abc import Mapping, Sequence
+from contextlib import AbstractContextManager, nullcontext
 from pathlib import Path
 from typing import Any, Literal, get_args
 
@@ -127,13 +128,12 @@ def write_netcdf(ds: Any, path: str | os.PathLike) -> Path:
     except ImportError as e:
         raise InputError(f"{p}: netCDF output needs h5netcdf and h5py ({e}); pip install "
                          "'pqcalc[netcdf]'") from None
+    ctx: AbstractContextManager[Any]
     try:
         import dask
 
         ctx = dask.config.set(scheduler="synchronous")
     except ImportError:  # pragma: no cover - dask is optional
-        from contextlib import nullcontext
-
         ctx = nullcontext()
     with atomic_output(p) as tmp, ctx:
         ds.to_netcdf(tmp, engine="h5netcdf")

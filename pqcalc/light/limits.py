@@ -333,8 +333,8 @@ def eu_ecodesign_check(svm: float | None = None, pst_lm: float | None = None,
             out.append(EcodesignVerdict(q, "not evaluated", None, None, req, cite,
                                         req.certainty, "value not given"))
             continue
-        chk = Check(q, None, v, req.limit, "-", req.bound, note=req.condition)
-        verdict = chk.verdict if full_load else "informative"
+        chk = Check.against(q, None, v, req.limit, "-", req.bound, note=req.condition)
+        verdict = chk.status if full_load else "informative"
         out.append(EcodesignVerdict(q, verdict, v, chk, req, cite, req.certainty,
                                     "" if full_load else "dimmed state: the limits apply at "
                                     "full load"))

@@ -12,6 +12,7 @@ from __future__ import annotations
 import functools
 import io
 import os
+import textwrap
 from pathlib import Path
 from types import SimpleNamespace
 from typing import TYPE_CHECKING, Any, Literal
@@ -20,6 +21,7 @@ import numpy as np
 from cycler import cycler
 
 from ..errors import InputError
+from ..standards.results import CAUTION  # printed on figures that guide a choice
 
 if TYPE_CHECKING:
     from matplotlib.figure import Figure
@@ -83,11 +85,6 @@ SpectrumUnit = Literal["A", "pct"]
 #: Conductor names of a panel, in display order.
 PHASE_NAMES = ("L1", "L2", "L3", "N")
 
-#: The caution printed on figures that bear on conductor, breaker or transformer choices.
-CAUTION = (
-    "Supports, and never replaces, the local electrical code and the design of a "
-    "licensed professional."
-)
 
 
 @functools.cache
@@ -134,7 +131,8 @@ def _caution(fig: Figure) -> None:
     assert isinstance(engine, ConstrainedLayoutEngine)  # new_figure() makes every figure
     with _mpl().rc_context(STYLE):
         engine.set(h_pad=0.06)
-        fig.supxlabel(CAUTION, fontsize=6.5, color="#555555", x=0.01, ha="left")
+        fig.supxlabel(textwrap.fill(CAUTION, 120), fontsize=5.5, color="#555555", x=0.01,
+                      ha="left")
 
 
 # ---------------------------------------------------------------------- data helpers

@@ -186,7 +186,7 @@ def lineup_section(doc: Doc, lineup: Sequence[LineupEntry], notes: Sequence[str]
                 c = min((c for c in dec.checks if c.limit and not c.disregarded),
                         key=lambda c: c.margin / abs(c.limit), default=None)
                 if c is not None:
-                    worst = f"{c.quantity} {100 * c.margin / abs(c.limit):+.0f} %"
+                    worst = f"{c.name} {100 * c.margin / abs(c.limit):+.0f} %"
             rows.append((e.title, s.state, fmt_num(r.p_w, ".1f"), fmt_num(r.pf, ".3f"),
                          r.rule, worst, r.verdict.upper()))
     doc.table([Col("fixture type", 1.5, wrap=True), Col("state", 1.0, wrap=True),
@@ -404,12 +404,10 @@ def standards_section(doc: Doc, a: Assessment, lineup: Sequence[LineupEntry]) ->
 
 
 def cautions(doc: Doc, a: Assessment, lineup: Sequence[LineupEntry]) -> None:
-    from ..plotting.style import CAUTION as FIG_CAUTION
-    from ..standards import CAUTION as STD_CAUTION
     from ..standards import DIMMED_RULE_NOTE
 
     doc.heading(SECTION_TITLES[5], new_page=doc.y < 4.0)
-    items = [a.caution, STD_CAUTION, FIG_CAUTION,
+    items = [a.caution,
              "The currents are computed from circuit models with typical component values, "
              "or from captures used at their recorded conditions; measure the installed "
              "fixtures before relying on a margin that is small.",

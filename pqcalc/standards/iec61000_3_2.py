@@ -147,7 +147,7 @@ def _order_checks(
             continue
         i_h = float(abs(s.current_a[h]))
         value = i_h if unit == "A" else i_h / s.i1_a
-        checks.append(Check(f"I{h}", h, value, float(lim), unit, "max", i_h < level))
+        checks.append(Check.against(f"I{h}", h, value, float(lim), unit, "max", i_h < level))
     notes: tuple[str, ...] = ()
     if missing:
         notes = (f"orders {min(missing)} to {max(missing)} are above the spectrum's highest "
@@ -280,14 +280,14 @@ class WaveformTestResult:
     def checks(self) -> tuple[Check, ...]:
         lim = self.limits
         return (
-            Check("reach threshold", None, self.reach_deg, lim.reach_by_deg, "deg", "max"),
-            Check("peak", None, self.peak_deg, lim.peak_by_deg, "deg", "max"),
-            Check("stay above threshold", None, self.drop_deg, lim.stay_until_deg, "deg", "min"),
+            Check.against("reach threshold", None, self.reach_deg, lim.reach_by_deg, "deg", "max"),
+            Check.against("peak", None, self.peak_deg, lim.peak_by_deg, "deg", "max"),
+            Check.against("stay above threshold", None, self.drop_deg, lim.stay_until_deg, "deg", "min"),
         )
 
     @property
     def passed(self) -> bool:
-        return all(c.verdict == "pass" for c in self.checks())
+        return all(c.status == "pass" for c in self.checks())
 
 
 def _crossing(a: np.ndarray, x: np.ndarray, k: int, level: float) -> float:
@@ -400,7 +400,7 @@ def evaluate_option_c(s: Spectrum, *, disregard_small: bool = True) -> RuleResul
     t = _small()
     base = _table_rule("option c", t.option_c, s, 1.0, disregard_small)
     top = min(t.thd_max_order, s.max_order)
-    thd_check = Check(f"THD (2..{top})", None, float(thd(s, top)), t.thd_limit,
+    thd_check = Check.against(f"THD (2..{top})", None, float(thd(s, top)), t.thd_limit,
                       "fraction of I1")
     return RuleResult(base.rule, base.reference, base.checks + (thd_check,), True, base.notes)
 

@@ -85,7 +85,7 @@ class PccResult:
     @property
     def tdd(self) -> float:
         """Total demand distortion [fraction of I_L]."""
-        return next(c.value for c in self.current.checks if c.quantity == "TDD")
+        return next(c.value for c in self.current.checks if c.name == "TDD")
 
     def to_dict(self) -> dict:
         return {
@@ -183,9 +183,9 @@ def evaluate_pcc(
         lim = cur.limit(h, isc_il)
         if lim is None:
             continue
-        checks.append(Check(f"I{h}", h, float(abs(s.current_a[h])) / il, lim, "fraction of IL"))
+        checks.append(Check.against(f"I{h}", h, float(abs(s.current_a[h])) / il, lim, "fraction of IL"))
     tdd = float(np.sqrt(np.sum(np.abs(s.current_a[2 : top + 1]) ** 2)) / il)
-    checks.append(Check("TDD", None, tdd, row.tdd, "fraction of IL", note=f"orders 2..{top}"))
+    checks.append(Check.against("TDD", None, tdd, row.tdd, "fraction of IL", note=f"orders 2..{top}"))
     if top < 50:
         notes.append(f"orders above {top} are not in the spectrum and were not checked")
     current = RuleResult(f"IEEE 519-{edition} current", cur.source.citation(), tuple(checks),
@@ -196,10 +196,10 @@ def evaluate_pcc(
         vrow = vol.row_for(kv)
         v1 = float(abs(s.voltage_v[1]))
         vtop = min(vol.thd_max_order, s.max_order)
-        vchecks = [Check(f"V{h}", h, float(abs(s.voltage_v[h])) / v1, vrow.individual,
+        vchecks = [Check.against(f"V{h}", h, float(abs(s.voltage_v[h])) / v1, vrow.individual,
                          "fraction of V1") for h in range(2, vtop + 1)]
         thd_v = float(np.sqrt(np.sum(np.abs(s.voltage_v[2 : vtop + 1]) ** 2)) / v1)
-        vchecks.append(Check("THD", None, thd_v, vrow.thd, "fraction of V1",
+        vchecks.append(Check.against("THD", None, thd_v, vrow.thd, "fraction of V1",
                              note=f"orders 2..{vtop}"))
         vnotes = () if vrow.certainty == "seen" else ("this row rests on memory",)
         voltage = RuleResult(f"IEEE 519-{edition} voltage", vol.source.citation(),

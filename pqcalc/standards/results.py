@@ -1,33 +1,45 @@
-"""Named results of the limit evaluators: one check, one rule, one fixture state.
+"""Named results: one check, one rule, one fixture state; the caution text.
 
-A :class:`Check` compares one value with one limit (a harmonic order, a THD, an angle of
-the waveform test). A :class:`RuleResult` gathers the checks of one rule (a table, or one
-of the alternatives for small lighting equipment). :class:`FixtureResult` is the verdict
-for one fixture at one setting, naming the rule that decided it.
+A :class:`Check` is one figure judged by one rule. It is the one check type of pqcalc: a
+standard's limit check (a harmonic order, a THD, an angle of the waveform test; made with
+:meth:`Check.against`, its status follows from the value and the limit) and an
+installation's check (a breaker, a dimmer, a conductor; made with a status, a message and
+the source of the rule) are the same type, read the same way by the terminal, the exports
+and the report. A :class:`RuleResult` gathers the checks of one rule (a table, or one of the
+alternatives for small lighting equipment). :class:`FixtureResult` is the verdict for one
+fixture in one state, naming the rule that decided it.
 
-Values inside are SI or fractions; :meth:`to_dict` converts fractions to percent for the
-JSON form (the ``unit`` field says which).
+Values inside are SI or fractions; :meth:`Check.to_dict` converts fractions to percent for
+the JSON form (the ``unit`` field says which).
 """
 
 from __future__ import annotations
 
+import math
+from collections.abc import Mapping
 from dataclasses import dataclass, field
-from typing import Literal
+from typing import Any, Literal
 
-__all__ = ["Verdict", "Check", "RuleResult", "FixtureResult", "REL_TOL", "CAUTION"]
+__all__ = ["Verdict", "Status", "Bound", "Check", "RuleResult", "FixtureResult", "REL_TOL",
+           "CAUTION"]
 
 Verdict = Literal["pass", "fail"]
+#: A check's outcome: a limit met or not, a warning, or information without a limit.
+Status = Literal["pass", "fail", "warn", "info"]
+#: ``"max"``: a value passes at or below its limit; ``"min"``: at or above.
+Bound = Literal["max", "min"]
 
 #: Relative tolerance of the comparison with a limit: a value within 1e-9 of the limit
 #: counts as at the limit (passes). It absorbs floating-point round-off of ratios such as
 #: I_h / I_1; it is many orders below any measurement resolution.
 REL_TOL = 1e-9
 
-#: Shown with every compliance table.
+#: The caution, the one text every output that guides a choice carries.
 CAUTION = (
-    "These results support, and do not replace, the judgement of a licensed professional; "
-    "the applicable standard text, the local electrical code and the utility's requirements "
-    "govern."
+    "These figures support, and never replace, the applicable standard texts, the local "
+    "electrical code and the design of a licensed professional; confirm conductor, breaker, "
+    "dimmer and transformer choices with the manufacturers' data and the authority having "
+    "jurisdiction."
 )
 
 #: Units of Check values and how the JSON form shows them: (display unit, factor).
@@ -43,61 +55,92 @@ _DISPLAY = {
 
 @dataclass(frozen=True)
 class Check:
-    """One value against one limit.
+    """One figure judged by one rule.
 
     Attributes
     ----------
-    quantity
-        What is checked: ``"I3"``, ``"THD"``, ``"TDD"``, ``"V5"``, ``"reach threshold"``...
+    name
+        What is checked: ``"I3"``, ``"THD"``, ``"TDD"``, ``"reach threshold"``,
+        ``"breaker load"``, ``"neutral conductor"``...
+    status
+        ``"pass"``, ``"fail"``, ``"warn"`` or ``"info"``.
+    message, source
+        What was found, in words; the rule's source (standard, edition, clause; or "common
+        practice").
+    value, limit
+        In ``unit`` (``"A"``, ``"W"``, ``"fraction of I1"``, ``"fraction of IL"``,
+        ``"fraction of V1"``, ``"deg"``, ``"-"``...); NaN where there is none (``null`` in
+        the JSON form).
+    details
+        Further figures for the exports.
     order
         Harmonic order, or None for a figure that is not one order.
-    value, limit
-        In ``unit`` (``"A"``, ``"fraction of I1"``, ``"fraction of IL"``,
-        ``"fraction of V1"``, ``"deg"``).
     bound
-        ``"max"``: passes when value <= limit; ``"min"``: passes when value >= limit.
+        For a limit check: ``"max"`` (passes when value <= limit) or ``"min"``; None for a
+        check whose status was judged otherwise.
     disregarded
         True when the value is below the level under which the standard disregards it;
         the check then passes whatever the limit.
     """
 
-    quantity: str
-    order: int | None
-    value: float
-    limit: float
-    unit: str
-    bound: Literal["max", "min"] = "max"
+    name: str
+    status: Status
+    message: str = ""
+    source: str = ""
+    value: float = math.nan
+    limit: float = math.nan
+    unit: str = ""
+    details: Mapping[str, Any] = field(default_factory=dict)
+    order: int | None = None
+    bound: Bound | None = None
     disregarded: bool = False
     note: str = ""
 
+    @classmethod
+    def against(cls, name: str, order: int | None, value: float, limit: float, unit: str,
+                bound: Bound = "max", disregarded: bool = False, note: str = "",
+                source: str = "") -> Check:
+        """A limit check: its status is ``pass`` when the value meets the limit (within
+        :data:`REL_TOL`) or is disregarded, else ``fail``."""
+        margin = limit - value if bound == "max" else value - limit
+        tol = REL_TOL * max(abs(limit), abs(value))
+        status: Status = "pass" if disregarded or margin >= -tol else "fail"
+        return cls(name, status, "", source, value, limit, unit, {}, order, bound,
+                   disregarded, note)
+
     @property
     def margin(self) -> float:
-        """Distance to the limit in ``unit``; negative when the limit is exceeded."""
-        return self.limit - self.value if self.bound == "max" else self.value - self.limit
+        """Distance to the limit in ``unit``, positive when the limit is met and negative
+        when it is exceeded (NaN without a value and a limit)."""
+        return self.limit - self.value if self.bound != "min" else self.value - self.limit
 
     @property
-    def verdict(self) -> Verdict:
-        if self.disregarded:
-            return "pass"
-        tol = REL_TOL * max(abs(self.limit), abs(self.value))
-        return "pass" if self.margin >= -tol else "fail"
+    def relative_margin(self) -> float:
+        """The margin as a fraction of the limit [-] (NaN without a limit): the one margin
+        pqcalc reports, as ``margin_pct`` in the JSON form."""
+        return self.margin / abs(self.limit) if self.limit else math.nan
 
-    def to_dict(self) -> dict:
+    def to_dict(self) -> dict[str, Any]:
         unit, k = _DISPLAY.get(self.unit, (self.unit, 1.0))
-        d = {
-            "quantity": self.quantity,
-            "order": self.order,
-            "value": self.value * k,
-            "limit": self.limit * k,
-            "unit": unit,
-            "bound": self.bound,
-            "margin": self.margin * k,
-            "verdict": self.verdict,
-        }
+        d: dict[str, Any] = {"name": self.name, "status": self.status}
+        if self.order is not None:
+            d["order"] = self.order
+        if self.message:
+            d["message"] = self.message
+        if self.source:
+            d["source"] = self.source
+        d["value"] = self.value * k if math.isfinite(self.value) else None
+        d["limit"] = self.limit * k if math.isfinite(self.limit) else None
+        d["unit"] = unit
+        if self.bound is not None:
+            d["bound"] = self.bound
+            d["margin"] = self.margin * k
         if self.disregarded:
             d["disregarded"] = True
         if self.note:
             d["note"] = self.note
+        if self.details:
+            d["details"] = dict(self.details)
         return d
 
 
@@ -120,7 +163,7 @@ class RuleResult:
     def verdict(self) -> Verdict:
         if not self.evaluated:
             return "fail"
-        return "pass" if all(c.verdict == "pass" for c in self.checks) else "fail"
+        return "pass" if all(c.status == "pass" for c in self.checks) else "fail"
 
     @property
     def worst_margin_ratio(self) -> float:

@@ -16,8 +16,7 @@ from __future__ import annotations
 import time
 from pathlib import Path
 
-from pqcalc.installation import assess
-from pqcalc.installation import load_installation
+from pqcalc.installation import assess, load_installation
 
 KINDS = [
     ("resistive", 60.0, "trailing-edge", 120), ("bulk-cap", 9.0, "trailing-edge", 150),

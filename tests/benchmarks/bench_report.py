@@ -18,11 +18,8 @@ from pathlib import Path
 
 import pytest
 
-from pqcalc.installation import assess
 from pqcalc.errors import ConvergenceError, InputError
-from pqcalc.installation import load_installation
-from pqcalc.installation import export
-from pqcalc.installation import evaluate_lineup
+from pqcalc.installation import assess, evaluate_lineup, export, load_installation
 from pqcalc.report import report_pdf_bytes
 
 DEMO = Path(__file__).resolve().parents[2] / "demo_installations"
