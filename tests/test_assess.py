@@ -150,3 +150,28 @@ def test_summation_diversity_triplens_add(tmp_path):
     one = a.design.circuits[0]
     i3 = a.diversity.panels[0].lines["L1"][1]
     assert i3 == pytest.approx(2 * one.magnitudes_a[3], rel=1e-9)
+
+
+def test_summation_neutral_respects_sequence(tmp_path):
+    # Closed form (phasor algebra of a balanced three-phase set): three identical circuits,
+    # one per line, cut at 90 deg. In the neutral the zero-sequence orders (3, 9, 15) add to
+    # three times a line's, and the positive/negative-sequence orders (5, 7, 11, 13) cancel.
+    # The summation-law neutral must say the same: its rms equals sqrt(sum over triplens of
+    # (3 I_h)^2) of one line (the fundamental cancels too: balanced), and its triplen share
+    # is 1.
+    from dataclasses import replace
+
+    from pqcalc.installation.model import Diversity
+
+    inst = build(tmp_path, [(ph, "leading-edge", 90, 2) for ph in ("L1", "L2", "L3")])
+    a = assess(replace(inst, diversity=Diversity(mode="summation")))
+    m = a.design.circuits[0].magnitudes_a  # one circuit = one line's total here
+    trip = np.arange(m.size) % 3 == 0
+    trip[0] = False
+    i_n, share = a.diversity.panels[0].neutral
+    assert i_n == pytest.approx(3 * np.sqrt(np.sum(m[trip] ** 2)), rel=1e-6)
+    assert share == pytest.approx(1.0, abs=1e-6)
+    # and the phase-aligned neutral of the same installation agrees over the same orders
+    # 1..50 (its time-domain rms also holds the orders above 50)
+    mn = a.design.panels[0].neutral.magnitudes_a
+    assert np.sqrt(np.sum(mn[1:] ** 2)) == pytest.approx(i_n, rel=1e-6)

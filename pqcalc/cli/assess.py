@@ -23,8 +23,13 @@ from ._common import Progress, echo_json, fmt, main, user_errors
 def assess_cmd(installation, as_json, which, no_interaction):
     """Branch, panel, feeder and neutral currents, THDv and checks of an INSTALLATION file.
 
-    Exit code 0 when every check passes, 1 when one fails, 2 for bad input, 3 when the tool
-    fails (the traceback is written to a file in the temporary folder).
+    Without --scenario, the design scenario (the one with the highest panel currents) is
+    shown in full and every other scenario in one line with its verdict and worst finding.
+
+    Exit code 0 when every check passes in every scenario, 1 when one fails, 2 for bad
+    input, 3 when the tool fails (the traceback is written to a file in the temporary
+    folder) or a circuit could not be solved and nothing else failed (verdict "not
+    assessed": the totals are incomplete).
     """
     inst = load_installation(installation)
     if no_interaction:
@@ -57,8 +62,8 @@ def assess_cmd(installation, as_json, which, no_interaction):
 
                 raise InputError(f"--scenario: no scenario named {which!r}; known: design, all, "
                                  + ", ".join(s.name for s in a.scenarios))
-        print_assessment(a, scen)
-    sys.exit(1 if a.failed else 0)
+        print_assessment(a, scen, others=which == "design")
+    sys.exit({"pass": 0, "fail": 1, "not assessed": 3}[a.verdict])
 
 
 def _worst_bounds(a, cid: str, fixture: str) -> dict:
@@ -87,7 +92,30 @@ def _flags(checks) -> str:
                      for c in bad) or "ok"
 
 
-def print_assessment(a, scenarios) -> None:
+def plural(n: int, word: str, many: str | None = None) -> str:
+    """``1 circuit``, ``2 circuits``; ``many`` for an irregular plural."""
+    return f"{n} {word if n == 1 else (many or word + 's')}"
+
+
+def _counts(checks) -> str:
+    checks = list(checks)
+    fails = sum(c.status == "fail" for c in checks)
+    warns = sum(c.status == "warn" for c in checks)
+    return f"{plural(fails, 'check')} failed, {plural(warns, 'warning')}"
+
+
+def _worst_finding(sc) -> str:
+    rank = {"fail": 0, "warn": 1}
+    bad = sorted((c for c in sc.all_checks() if c.status in rank), key=lambda c: rank[c.status])
+    if not bad:
+        return "no findings"
+    c = bad[0]
+    where = next((x.id for x in sc.circuits if c in x.checks), None) or next(
+        (p.id for p in sc.panels + sc.feeders + (sc.transformer,) if c in p.checks), "")
+    return f"worst: {c.status.upper()} {c.name}" + (f" at {where}" if where else "")
+
+
+def print_assessment(a, scenarios, others: bool = False) -> None:
     inst = a.installation
     out = click.echo
     pj = inst.project
@@ -95,12 +123,14 @@ def print_assessment(a, scenarios) -> None:
     s = inst.supply
     out(f"supply: {s.system}, {s.voltage_ln_v:g} V line-to-neutral, {s.frequency_hz:g} Hz, "
         f"source {s.impedance.r_ohm * 1e3:.1f} mohm + {s.impedance.l_h * 1e6:.1f} uH "
-        f"({s.impedance_basis}); {inst.n_lamps} lamps in {len(inst.circuits)} circuits; "
-        f"{a.solves} distinct circuit solves")
+        f"({s.impedance_basis}); {plural(inst.n_lamps, 'lamp')} in "
+        f"{plural(len(inst.circuits), 'circuit')}, rated connected load "
+        f"{a.connected_load_w:.0f} W; {plural(a.solves, 'distinct circuit solve')}")
     for sc in scenarios:
         out("")
-        out(f"== scenario: {sc.name}" + (f" (supply interaction: {sc.interaction_iterations} "
-                                          "iterations)" if sc.interaction_iterations else ""))
+        out(f"== scenario: {sc.name}" + (
+            f" (supply interaction: {plural(sc.interaction_iterations, 'iteration')})"
+            if sc.interaction_iterations else ""))
         out("")
         out(f"  {'circuit':<12} {'panel':<8} {'ph':<3} {'set':>5} {'Irms A':>8} {'THDi %':>7} "
             f"{'PF':>5} {'DPF':>5} {'P W':>8}  flags")
@@ -135,7 +165,7 @@ def print_assessment(a, scenarios) -> None:
         for p in sc.panels + sc.feeders + (sc.transformer,):
             label, kind = p.id, p.kind
             for ln, r in p.lines.items():
-                thdv = f"{100 * r.thd_v:.2f}" if p.kind == "panel" else "-"
+                thdv = f"{100 * r.thd_v:.2f}" if inst.has_source_impedance else "-"
                 out(f"  {label:<12} {kind:<11} {ln:<4} {r.i_rms_a:>8.2f} {r.i1_a:>8.2f} "
                     f"{100 * r.thd_i:>7.1f} {fmt(r.pf, '.2f'):>5} {thdv:>7}")
                 label = kind = ""
@@ -149,10 +179,19 @@ def print_assessment(a, scenarios) -> None:
                 out(f"  {'':<12}       [{c.source}]")
         for c in sc.checks:
             out(f"  {c.status.upper():<5} {c.name}: {c.message} [{c.source}]")
-        fails = [c for c in sc.all_checks() if c.status == "fail"]
-        warns = [c for c in sc.all_checks() if c.status == "warn"]
         out("")
-        out(f"  {len(fails)} failed, {len(warns)} warnings")
+        out(f"  scenario {sc.name}: {sc.verdict.upper()}, {_counts(sc.all_checks())}")
+        if sc.unsolved:
+            out(f"  not assessed: {plural(len(sc.unsolved), 'circuit')} without a solution "
+                f"({', '.join(sc.unsolved)}); the totals above are incomplete")
+    shown = {id(sc) for sc in scenarios}
+    rest = [sc for sc in a.scenarios if id(sc) not in shown]
+    if others and rest:
+        out("")
+        out("== other scenarios (pqcalc assess --scenario NAME for the details)")
+        for sc in rest:
+            out(f"  {sc.name}: {sc.verdict.upper()}, {_counts(sc.all_checks())}; "
+                f"{_worst_finding(sc)}")
     if a.diversity is not None:
         div = a.diversity.to_dict()
         out("")
@@ -164,6 +203,8 @@ def print_assessment(a, scenarios) -> None:
             n = f", N {_div(p['neutral'])}" if "neutral" in p else ""
             out(f"  {p['id']}: {items}{n}")
     out("")
+    out(f"verdict: {a.verdict.upper()} over {plural(len(a.scenarios), 'scenario')} "
+        f"({_counts(c for sc in a.scenarios for c in sc.all_checks())})")
     out(f"caution: {CAUTION}")
 
 

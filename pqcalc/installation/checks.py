@@ -250,7 +250,7 @@ def transformer_derating(
            "eddy_loss_pu": eddy_loss_pu, "k_rating_needed": k_needed}
     src = "IEEE Std C57.110-2018, clause 5; K ratings per UL 1561 (common practice)"
     if rated_current_a is None:
-        return Check("transformer", "info",
+        return Check("transformer", "info" if k_needed is not None else "warn",
                      f"F_HL {harmonic_loss_factor:.2f} (this load's spectrum, orders 1..50, most "
                      f"loaded line): a standard transformer serving only this load may carry "
                      f"{100 * i_max_pu:.0f} % of its rated current; a K-rated replacement "
@@ -258,6 +258,8 @@ def transformer_derating(
                      "pu", det)
     allowed = i_max_pu * rated_current_a
     st: Status = "pass" if load_current_a <= allowed else "fail"
+    if st == "pass" and k_needed is None:
+        st = "warn"  # within the derated capacity, but no K rating covers this spectrum
     return Check("transformer", st,
                  f"F_HL {harmonic_loss_factor:.2f} (this load's spectrum, orders 1..50, most "
                  f"loaded line): if the whole load had this spectrum, the derated capacity "
@@ -343,13 +345,23 @@ def circuit_checks(inst: Installation, c: Circuit, cs: CaseResult, i_rms_a: floa
 
 def node_checks(inst: Installation, kind: str, lines: Mapping[str, LineResult],
                 neutral: NeutralResult | None, k: float, fhl: float,
-                panel: Panel | None = None) -> tuple[Check, ...]:
+                panel: Panel | None = None, left_out: tuple[str, ...] = ()
+                ) -> tuple[Check, ...]:
     """The checks of a panel (neutral and line conductors) or of the service
-    (transformer derating)."""
+    (transformer derating); first, when circuits could not be solved, that the totals are
+    incomplete."""
     sup = inst.supply
     max_line = max(r.i_rms_a for r in lines.values())
     worst = max(lines, key=lambda ln: lines[ln].i_rms_a)
     checks: list[Check] = []
+    if left_out:
+        checks.append(Check(
+            "totals incomplete", "fail",
+            f"{len(left_out)} circuit{'s' if len(left_out) != 1 else ''} without a solution "
+            f"({', '.join(left_out[:5])}{', ...' if len(left_out) > 5 else ''}) are missing "
+            "from these totals: the currents below understate the load; not assessed",
+            "periodic steady-state circuit model", float(len(left_out)), 0.0, "circuits",
+            {"flag": "no-solution", "left_out": list(left_out)}))
     if kind == "panel" and neutral is not None and max_line > 0:
         if sup.system == "three-phase-wye":
             lo = min(r.i_rms_a for r in lines.values())

@@ -21,7 +21,7 @@ from .cases import CaseResult, CaseSolver
 from .model import LINE_ANGLES_DEG, Installation
 from .sums import GRID_SAMPLES, MAX_ORDER, on_period, sum_period, to_l1_frame, triplen_share
 
-__all__ = ["summation_exponent", "summation_law", "Percentiles", "SummationPanel",
+__all__ = ["summation_exponent", "summation_law", "sequence_neutral", "Percentiles", "SummationPanel",
            "SummationDiversity", "MonteCarloPanel", "MonteCarloDiversity",
            "summation_diversity", "monte_carlo_diversity", "diversity"]
 
@@ -137,6 +137,28 @@ class MonteCarloDiversity:
                 "panels": [p.to_dict() for p in self.panels]}
 
 
+def sequence_neutral(system: str, line_magnitudes: dict[str, np.ndarray]) -> np.ndarray:
+    """The neutral's magnitude per order [A] from the lines' magnitudes per order [A].
+
+    Each line's total is taken at the same angle in its own line's frame (the circuits of
+    the lines are alike); on the L1 reference order h of line L then turns by ``h * theta_L``
+    (its sequence): ``|I_N,h| = |sum_L I_L,h exp(j h theta_L)|``. On a balanced wye set the
+    triplens (zero sequence) add to three times a line's, the others (positive and negative
+    sequence) cancel; on a split-phase set the odd orders cancel. Unequal lines leave their
+    difference, as they should.
+
+    >>> m = np.zeros(10); m[[3, 5, 9]] = 1.0
+    >>> n = sequence_neutral("three-phase-wye", {"L1": m, "L2": m, "L3": m})
+    >>> [round(float(x), 9) for x in n[[3, 5, 9]]]
+    [3.0, 0.0, 3.0]
+    """
+    angles = LINE_ANGLES_DEG[system]
+    h = np.arange(len(next(iter(line_magnitudes.values()))))
+    total = sum((np.asarray(m) * np.exp(1j * h * np.radians(angles[ln]))
+                 for ln, m in line_magnitudes.items()), np.zeros(h.size, dtype=complex))
+    return np.abs(total)
+
+
 def summation_diversity(inst: Installation, solver: CaseSolver) -> SummationDiversity:
     """IEC TR 61000-3-6 summation law over circuits at their worst listed setting."""
     angles = inst.supply.lines
@@ -156,20 +178,22 @@ def summation_diversity(inst: Installation, solver: CaseSolver) -> SummationDive
         for ln, ms in per_line.items():
             s = summation_law(np.array(ms)) if ms else np.zeros(MAX_ORDER + 1)
             lines[ln] = (float(np.sqrt(np.sum(s**2))), float(s[3]))
-        allm = [m for ms in per_line.values() for m in ms]
         neutral = None
-        if inst.supply.system != "single-phase" and allm:
-            # every order by the summation law over all the panel's circuits (their relative
-            # phases unknown), but the fundamental as the phasor sum of the lines (set by the
-            # load balance, not by the dimmer settings)
-            sn = summation_law(np.array(allm))
+        if inst.supply.system != "single-phase" and any(per_line.values()):
+            sn = sequence_neutral(inst.supply.system, {
+                ln: summation_law(np.array(ms)) if ms else np.zeros(MAX_ORDER + 1)
+                for ln, ms in per_line.items()})
+            # the fundamental as the phasor sum of the lines (set by the load balance and the
+            # displacement, not by the dimmer settings)
             sn[1] = abs(sum(fund.values()))
             neutral = (float(np.sqrt(np.sum(sn**2))), triplen_share(sn))
         panels.append(SummationPanel(p.id, lines, neutral))
     return SummationDiversity(
         "IEC TR 61000-3-6 summation law, exponents 1 (h<5), 1.4 (5..10), 2 (h>10) (from "
-        "memory); each circuit at the largest magnitude per order over its scenarios; the "
-        "neutral fundamental from the phasor sum of the lines", tuple(panels))
+        "memory); each circuit at the largest magnitude per order over its scenarios, per line; "
+        "the neutral per order from the lines' totals turned by the order's sequence (triplens "
+        "add, balanced non-triplens cancel), its fundamental from the phasor sum of the lines",
+        tuple(panels))
 
 
 def monte_carlo_diversity(inst: Installation, solver: CaseSolver) -> MonteCarloDiversity:

@@ -150,25 +150,27 @@ def circuit_sources(inst: Installation, cases: Mapping[str, CaseResult],
 
 
 def node_voltages(inst: Installation, sums: InstallationSums
-                  ) -> dict[tuple[str, str], np.ndarray]:
+                  ) -> dict[tuple[str, str, str], np.ndarray]:
     """Harmonic voltage at each panel, feeder end and the service, per line (L1 frame)
     [V rms phasors], from the drops over the source and feeder impedances. Keys are
-    (node id, line); the service is ``"service"``."""
+    (kind, node id, line) with kind ``"panel"``, ``"feeder"`` or ``"transformer"`` (the
+    service, id ``"service"``)."""
     sup = inst.supply
     f = sup.frequency_hz
     tot_l, tot_n = sums.total.phasors(sums.cycles)
     fdr = {k: v.phasors(sums.cycles) for k, v in sums.feeders.items()}
     out = {}
     for ln in tot_l:
-        out[("service", ln)] = ideal_voltage(inst, ln) - voltage_drop(sup.impedance, tot_l[ln],
-                                                                      tot_n, f)
+        out[("transformer", "service", ln)] = ideal_voltage(inst, ln) - voltage_drop(
+            sup.impedance, tot_l[ln], tot_n, f)
     for fid, (fl, fn) in fdr.items():
         for ln in tot_l:
-            out[(fid, ln)] = out[("service", ln)] - voltage_drop(inst.feeders[fid].impedance,
-                                                                 fl[ln], fn, f)
+            out[("feeder", fid, ln)] = out[("transformer", "service", ln)] - voltage_drop(
+                inst.feeders[fid].impedance, fl[ln], fn, f)
     for p in inst.panels:
         for ln in tot_l:
-            out[(p.id, ln)] = out[("service", ln)] if p.feeder is None else out[(p.feeder, ln)]
+            out[("panel", p.id, ln)] = (out[("transformer", "service", ln)] if p.feeder is None
+                                        else out[("feeder", p.feeder, ln)])
     return out
 
 

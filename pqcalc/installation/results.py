@@ -13,15 +13,25 @@ from __future__ import annotations
 
 from collections.abc import Iterator
 from dataclasses import dataclass, field
-from typing import Any
+from typing import Any, Literal
 
 import numpy as np
 
 from ..standards.results import CAUTION, Check, Status
 from .model import Installation
 
-__all__ = ["CAUTION", "Status", "Check", "CircuitResult", "LineResult", "NeutralResult",
+__all__ = ["CAUTION", "Status", "Check", "Verdict", "CircuitResult", "LineResult", "NeutralResult",
            "NodeResult", "ScenarioResult", "Assessment"]
+
+
+#: The verdict of a scenario or a study.
+Verdict = Literal["pass", "fail", "not assessed"]
+
+
+def _verdict(checks: list[Check], unsolved: bool) -> Verdict:
+    if any(c.status == "fail" and c.details.get("flag") != "no-solution" for c in checks):
+        return "fail"
+    return "not assessed" if unsolved else "pass"
 
 
 @dataclass(frozen=True)
@@ -113,13 +123,20 @@ class NodeResult:
     checks: tuple[Check, ...] = ()
     k_factor: float = 1.0
     harmonic_loss_factor: float = 1.0
+    #: circuits whose current could not be solved and is missing from these totals
+    left_out: tuple[str, ...] = ()
 
     @property
     def max_line_a(self) -> float:
         return max(r.i_rms_a for r in self.lines.values())
 
+    @property
+    def complete(self) -> bool:
+        return not self.left_out
+
     def to_dict(self) -> dict[str, Any]:
-        return {"id": self.id, "kind": self.kind,
+        return {"id": self.id, "kind": self.kind, "complete": self.complete,
+                "left_out": list(self.left_out),
                 "lines": {k: v.to_dict() for k, v in self.lines.items()},
                 "neutral": None if self.neutral is None else self.neutral.to_dict(),
                 "k_factor": self.k_factor, "harmonic_loss_factor": self.harmonic_loss_factor,
@@ -139,6 +156,17 @@ class ScenarioResult:
     interaction_iterations: int
     ideal: ScenarioResult | None = None
     checks: tuple[Check, ...] = ()
+
+    @property
+    def unsolved(self) -> tuple[str, ...]:
+        """Circuits without a solution in this scenario (missing from every total)."""
+        return tuple(c.id for c in self.circuits if "no-solution" in c.flags)
+
+    @property
+    def verdict(self) -> Verdict:
+        """``fail`` when a check fails for a reason other than a missing solution;
+        else ``not assessed`` when a circuit could not be solved; else ``pass``."""
+        return _verdict(list(self.all_checks()), bool(self.unsolved))
 
     def all_checks(self) -> Iterator[Check]:
         for c in self.circuits:
@@ -179,7 +207,21 @@ class Assessment:
 
     @property
     def failed(self) -> bool:
-        return any(c.status == "fail" for s in self.scenarios for c in s.all_checks())
+        return self.verdict == "fail"
+
+    @property
+    def verdict(self) -> Verdict:
+        """Over every scenario: ``fail``, ``not assessed`` (a circuit could not be solved
+        and nothing else failed: never a pass), or ``pass``."""
+        return _verdict([c for s in self.scenarios for c in s.all_checks()],
+                        any(s.unsolved for s in self.scenarios))
+
+    @property
+    def connected_load_w(self) -> float:
+        """The rated connected load: every fixture at its declared power [W]."""
+        inst = self.installation
+        return float(sum(g.count * inst.fixtures[g.fixture].power_w
+                         for c in inst.circuits for g in c.groups))
 
     def to_dict(self) -> dict[str, Any]:
         inst = self.installation
@@ -200,6 +242,8 @@ class Assessment:
             "transformer": d["transformer"],
             "scenarios": [s.to_dict() for s in self.scenarios],
             "diversity": None if self.diversity is None else self.diversity.to_dict(),
-            "verdict": "fail" if self.failed else "pass",
+            "connected_load_w": self.connected_load_w,
+            "verdict": self.verdict,
+            "scenario_verdicts": {s.name: s.verdict for s in self.scenarios},
             "caution": self.caution,
         }

@@ -65,12 +65,12 @@ def _circuit_result(inst: Installation, c: Circuit, cs: CaseResult, scenario: in
 
 
 def _node_result(inst: Installation, name: str, kind: str, node: NodeSum, cycles: int,
-                 vmap: dict[tuple[str, str], np.ndarray] | None,
-                 panel: Panel | None = None) -> NodeResult:
+                 vmap: dict[tuple[str, str, str], np.ndarray] | None,
+                 panel: Panel | None = None, left_out: tuple[str, ...] = ()) -> NodeResult:
     sup = inst.supply
     lines = {}
     for ln in sup.lines:
-        v = ideal_voltage(inst, ln) if vmap is None else vmap[(name, ln)]
+        v = ideal_voltage(inst, ln) if vmap is None else vmap[(kind, name, ln)]
         lines[ln] = line_result(node.line(ln), cycles, v, node.p[ln])
     max_line = max(r.i_rms_a for r in lines.values())
     neutral = None
@@ -80,26 +80,35 @@ def _node_result(inst: Installation, name: str, kind: str, node: NodeSum, cycles
     kf = float(k_factor(mw)) if mw[1] > 0 else 1.0
     fhl = float(harmonic_loss_factor(mw)) if mw[1] > 0 else 1.0
     return NodeResult(name, kind, lines, neutral,
-                      node_checks(inst, kind, lines, neutral, kf, fhl, panel), kf, fhl)
+                      node_checks(inst, kind, lines, neutral, kf, fhl, panel, left_out), kf, fhl,
+                      left_out)
 
 
 def _assemble(inst: Installation, scenario: int, cases: dict[str, CaseResult],
               sums: InstallationSums, iterations: int, interacting: bool) -> ScenarioResult:
+    """Results of one pass. Every node's voltage (panels, feeder ends, the service) is the
+    supply's EMF less the drops its currents make over the source and feeder impedances,
+    wherever an impedance is known; circuits are reported on the voltage they were solved
+    under (their panel's in the interacting pass, the stiff supply's in the ideal pass)."""
     cyc = sums.cycles
-    vmap = node_voltages(inst, sums) if interacting else None
+    vmap = node_voltages(inst, sums) if inst.has_source_impedance else None
     memo: dict[tuple[int, PanelVoltage | None], tuple] = {}
     circuits = []
     for p in inst.panels:
         for c in p.circuits:
-            v = None if vmap is None else own_frame(inst, c.line, vmap[(p.id, c.line)])
+            v = (own_frame(inst, c.line, vmap[("panel", p.id, c.line)])
+                 if interacting and vmap else None)
             circuits.append(_circuit_result(inst, c, cases[c.id], scenario, v, memo))
-    # feeders and the service are reported on the ideal voltage reference (their THDv is
-    # the point-of-coupling check's); panels on their own voltage when interacting
-    pres = tuple(_node_result(inst, p.id, "panel", sums.panels[p.id], cyc, vmap, p)
+    # circuits without a solution are missing from the totals of every node above them
+    gone = {p.id: tuple(c.id for c in p.circuits if "no-solution" in cases[c.id].flags)
+            for p in inst.panels}
+    pres = tuple(_node_result(inst, p.id, "panel", sums.panels[p.id], cyc, vmap, p, gone[p.id])
                  for p in inst.panels)
-    fres = tuple(_node_result(inst, f, "feeder", sums.feeders[f], cyc, None)
+    fres = tuple(_node_result(inst, f, "feeder", sums.feeders[f], cyc, vmap, None,
+                              tuple(x for p in inst.panels if p.feeder == f for x in gone[p.id]))
                  for f in inst.feeders)
-    tres = _node_result(inst, "service", "transformer", sums.total, cyc, None)
+    tres = _node_result(inst, "service", "transformer", sums.total, cyc, vmap, None,
+                        tuple(x for p in inst.panels for x in gone[p.id]))
     extra: list[Check] = []
     note = nec_neutral_note(inst.nonlinear_share(), inst.supply.system)
     if note is not None:
