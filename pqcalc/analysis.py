@@ -7,7 +7,7 @@ form printed by ``pqcalc analyze --json``.
 
 from __future__ import annotations
 
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 
 import numpy as np
 
@@ -89,7 +89,12 @@ def harmonic_table(s: Spectrum, max_order: int = 40) -> list[dict]:
 
 
 def analyze(waveform: Waveform, max_order: int = 40) -> Analysis:
-    """Spectrum (orders 0..50) and summary (THD over 2..max_order) of one record."""
+    """Spectrum (orders 0..50) and summary (THD over 2..max_order) of one record.
+
+    For a capture resampled onto whole cycles the peak and the crest factor are those of
+    the recorded samples (:attr:`Waveform.recorded`), never of the interpolated record; the
+    other figures come from the resampled record.
+    """
     s = spectrum(waveform, max(50, max_order))
     notes = []
     if not waveform.has_voltage:
@@ -97,4 +102,13 @@ def analyze(waveform: Waveform, max_order: int = 40) -> Analysis:
             "no voltage channel: phases refer to the current fundamental; pf, dpf and power "
             "need the voltage"
         )
-    return Analysis(summarize(s, max_order), s, max_order, waveform.label, tuple(notes))
+    summary = summarize(s, max_order)
+    rec = waveform.recorded
+    if rec is not None:
+        summary = replace(summary, crest_factor=waveform.crest_factor)
+        notes.append(
+            f"peak and crest factor from the recorded samples ({rec.samples_per_cycle:.1f} per "
+            "cycle: a step is located to one sample interval, so the crest factor is known to "
+            f"about {200.0 / rec.samples_per_cycle:.2g} %)"
+        )
+    return Analysis(summary, s, max_order, waveform.label, tuple(notes))

@@ -82,7 +82,8 @@ class Spectrum:
     v_rms_v, p_w
         Time-domain voltage RMS [V] and active power [W], or None without a voltage.
     i_peak_a
-        Largest absolute current sample [A].
+        Largest absolute current sample [A] (of the recorded samples for a capture resampled
+        onto whole cycles, :attr:`pqcalc.waveform.Waveform.i_peak_a`).
     reference
         ``"voltage"`` or ``"current"``: whose fundamental zero crossing is the phase origin.
     """
@@ -212,15 +213,14 @@ def spectrum(
         # origin moved to the reference's positive-going zero crossing: phi_h -= h * psi_1
         return rotate_phasors(p, -psi1)
 
-    i = waveform.current_a
     return Spectrum(
         current_a=to_phasors(ci),
         frequency_hz=waveform.frequency_hz,
         i_rms_a=waveform.i_rms_a,
-        i_peak_a=float(np.max(np.abs(i))),
+        i_peak_a=waveform.i_peak_a,  # of the recorded samples for a resampled capture
         voltage_v=None if cv is None else to_phasors(cv),
         v_rms_v=waveform.v_rms_v,
-        v_peak_v=None if waveform.voltage_v is None else float(np.max(np.abs(waveform.voltage_v))),
+        v_peak_v=waveform.v_peak_v,
         p_w=waveform.p_w,
         reference=reference,
         label=waveform.label,

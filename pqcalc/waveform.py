@@ -7,20 +7,24 @@ so the discrete Fourier transform of the record has each harmonic order exactly 
 
 Records that are not synchronous with the mains (every real one) are brought onto whole
 cycles by :func:`resample_whole_cycles` after the fundamental frequency has been estimated
-by :func:`estimate_frequency`.
+by :func:`estimate_frequency`. The resampling interpolates between the recorded samples; the
+peaks and the crest factor of such a record are those of the recorded samples themselves
+(:class:`RecordedFigures`), never of the interpolant.
 """
 
 from __future__ import annotations
 
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 
 import numpy as np
 
 from .errors import InputError
 
 __all__ = [
+    "RecordedFigures",
     "Waveform",
     "estimate_frequency",
+    "interpolate_limited",
     "resample_whole_cycles",
     "sine",
     "shift_periodic",
@@ -37,6 +41,40 @@ def _as_samples(x, name: str) -> np.ndarray:
         bad = int(np.flatnonzero(~np.isfinite(a))[0])
         raise InputError(f"{name}: sample {bad} is not a finite number")
     return a
+
+
+@dataclass(frozen=True)
+class RecordedFigures:
+    """Figures of the recorded samples themselves, over the span a resampled record covers.
+
+    A record resampled onto whole cycles holds interpolated values; its peak and crest factor
+    are taken here, from the samples the recorder stored, over the same whole cycles.
+
+    Attributes
+    ----------
+    i_peak_a
+        Largest absolute recorded current sample in the span [A].
+    i_rms_a
+        RMS of the recorded current samples over the span [A]; each sample stands for the
+        interval to the next one, the last one for the part of it inside the span.
+    samples_per_cycle
+        Recorded samples per fundamental cycle [-]: a step (a dimmer firing) is located only
+        to within one recorded sample interval, so a crest factor is known to about
+        ``2 / samples_per_cycle`` relative (``tests/test_capture.py``).
+    v_peak_v, v_rms_v
+        The same for the voltage [V], or None.
+    """
+
+    i_peak_a: float
+    i_rms_a: float
+    samples_per_cycle: float
+    v_peak_v: float | None = None
+    v_rms_v: float | None = None
+
+    def scaled(self, factor: float) -> RecordedFigures:
+        """The figures of ``factor`` identical records (the currents scale, the voltage not)."""
+        return replace(self, i_peak_a=self.i_peak_a * abs(factor),
+                       i_rms_a=self.i_rms_a * abs(factor))
 
 
 @dataclass(frozen=True)
@@ -58,6 +96,9 @@ class Waveform:
         cover exactly ``cycles / frequency_hz`` seconds).
     label
         Free text carried into reports (fixture name, file name, ...).
+    recorded
+        For a record resampled from a capture, the figures of the recorded samples (peaks,
+        RMS); ``None`` when the samples are the record itself (a model, a synthetic signal).
 
     Examples
     --------
@@ -73,6 +114,7 @@ class Waveform:
     cycles: int = 1
     label: str = ""
     meta: dict = field(default_factory=dict, compare=False)
+    recorded: RecordedFigures | None = field(default=None, compare=False)
 
     def __post_init__(self) -> None:
         i = _as_samples(self.current_a, "current")
@@ -140,6 +182,33 @@ class Waveform:
         return float(np.sqrt(np.mean(self.voltage_v**2)))
 
     @property
+    def i_peak_a(self) -> float:
+        """Largest absolute current [A]: of the recorded samples when the record was
+        resampled from a capture (:attr:`recorded`), else of the samples here."""
+        if self.recorded is not None:
+            return self.recorded.i_peak_a
+        return float(np.max(np.abs(self.current_a)))
+
+    @property
+    def v_peak_v(self) -> float | None:
+        """Largest absolute voltage [V] (recorded samples where known), or None."""
+        if self.voltage_v is None:
+            return None
+        if self.recorded is not None and self.recorded.v_peak_v is not None:
+            return self.recorded.v_peak_v
+        return float(np.max(np.abs(self.voltage_v)))
+
+    @property
+    def crest_factor(self) -> float:
+        """Current peak over RMS [-], both of the recorded samples when the record was
+        resampled from a capture, else of the samples here (sqrt 2 for a sine)."""
+        peak, rms = ((self.recorded.i_peak_a, self.recorded.i_rms_a)
+                     if self.recorded is not None else (self.i_peak_a, self.i_rms_a))
+        if rms == 0:
+            raise InputError("crest factor of an all-zero record is undefined")
+        return float(peak / rms)
+
+    @property
     def p_w(self) -> float | None:
         """Active power, the mean of v(t)·i(t) over the record [W], or None."""
         if self.voltage_v is None:
@@ -157,6 +226,7 @@ class Waveform:
             self.cycles,
             self.label,
             dict(self.meta),
+            None if self.recorded is None else self.recorded.scaled(factor),
         )
 
     def shifted(self, angle_rad: float) -> Waveform:
@@ -178,10 +248,12 @@ class Waveform:
             self.cycles,
             self.label,
             dict(self.meta),
+            self.recorded,  # a delay changes neither the peaks nor the RMS
         )
 
     def __add__(self, other: Waveform) -> Waveform:
-        """Sample-by-sample sum of the currents of two records on the same grid."""
+        """Sample-by-sample sum of the currents of two records on the same grid (the sum's
+        peak is that of its samples: the recorded figures of the parts do not add)."""
         if not isinstance(other, Waveform):
             return NotImplemented
         if (
@@ -201,7 +273,8 @@ class Waveform:
         )
 
     def cycle(self, index: int = -1) -> Waveform:
-        """One fundamental cycle of the record (default the last one)."""
+        """One fundamental cycle of the record (default the last one); its peak is that of its
+        samples (the recorded figures cover the whole record)."""
         spc = self.samples_per_cycle
         if spc != int(spc):
             raise InputError("the record has a fractional number of samples per cycle")
@@ -335,10 +408,16 @@ def resample_whole_cycles(
 ) -> Waveform:
     """Resample a record that is not synchronous with the mains onto whole cycles.
 
-    The record is interpolated with a cubic spline at ``samples_per_cycle`` points per cycle
-    of ``frequency_hz``, over the largest whole number of cycles it holds (or ``cycles``).
-    With a sample rate well above the highest harmonic of interest (>= 20 samples per cycle
-    of that harmonic) the interpolation error stays far below 0.1 % of the fundamental.
+    The record is interpolated at ``samples_per_cycle`` points per cycle of ``frequency_hz``,
+    over the largest whole number of cycles it holds (or ``cycles``), by
+    :func:`interpolate_limited`: a cubic spline wherever it stays within what the samples
+    allow, a monotone piecewise cubic elsewhere, so the result does not ring at a step (a
+    dimmer firing) and its peak never exceeds the recorded samples'. With a sample rate well
+    above the highest harmonic of interest (>= 20 samples per cycle of that harmonic) the
+    harmonic error stays far below 0.1 % of the fundamental (``tests/test_capture.py``).
+
+    The peaks and RMS of the recorded samples over the same cycles are kept in
+    ``waveform.recorded`` (:class:`RecordedFigures`): the crest factor comes from them.
 
     Parameters
     ----------
@@ -355,8 +434,6 @@ def resample_whole_cycles(
     start
         First sample of the original record to use.
     """
-    from scipy.interpolate import CubicSpline
-
     i = np.asarray(current_a, dtype=float)[start:]
     n = i.size
     t_end = (n - 1) / sample_rate_hz
@@ -370,14 +447,96 @@ def resample_whole_cycles(
         cycles = available
     elif cycles > available:
         raise InputError(f"asked for {cycles} cycles but the record holds {available}")
-    t = np.arange(n) / sample_rate_hz
-    tn = np.arange(cycles * samples_per_cycle) / (samples_per_cycle * frequency_hz)
-    ci = CubicSpline(t, i)(tn)
-    cv = None
+    tn = np.arange(cycles * samples_per_cycle) * (sample_rate_hz / (samples_per_cycle * frequency_hz))
+    ci = interpolate_limited(i, tn)
+    # the recorded samples over the span [0, cycles / f): sample k stands for [k, k+1)
+    span = cycles * sample_rate_hz / frequency_hz  # [recorded sample intervals]
+    m = min(n, int(np.ceil(span - 1e-9)))
+    weight = np.ones(m)
+    weight[-1] = span - (m - 1)
+
+    def peak_rms(x: np.ndarray) -> tuple[float, float]:
+        x = x[:m]
+        return float(np.max(np.abs(x))), float(np.sqrt(np.dot(weight, x * x) / span))
+
+    i_pk, i_rms = peak_rms(i)
+    cv, v_pk, v_rms = None, None, None
     if voltage_v is not None:
         v = np.asarray(voltage_v, dtype=float)[start:]
-        cv = CubicSpline(t, v)(tn)
-    return Waveform(ci, samples_per_cycle * frequency_hz, frequency_hz, cv, cycles)
+        cv = interpolate_limited(v, tn)
+        v_pk, v_rms = peak_rms(v)
+    rec = RecordedFigures(i_pk, i_rms, sample_rate_hz / frequency_hz, v_pk, v_rms)
+    return Waveform(ci, samples_per_cycle * frequency_hz, frequency_hz, cv, cycles,
+                    recorded=rec)
+
+
+def interpolate_limited(x: np.ndarray, at: np.ndarray) -> np.ndarray:
+    """Values of uniformly sampled ``x`` at fractional sample positions ``at`` [same unit].
+
+    A not-a-knot cubic spline (fourth-order accurate, as good as band-limited interpolation
+    for the harmonics of a well-sampled record) is used on every sample interval where it
+    stays within a bound the samples set; on the others, the monotone piecewise cubic
+    Hermite interpolant (PCHIP, Fritsch and Carlson 1980, derivatives by Fritsch and
+    Butland 1984 as in :class:`scipy.interpolate.PchipInterpolator`), which on each interval
+    lies between its two end samples.
+
+    The bound on the interval from sample k to k+1: between ``x[k]`` and ``x[k+1]``, widened
+    on the side of the curvature by ``|c| / 4`` where ``c`` is the smaller of the second
+    differences ``x[j-1] - 2 x[j] + x[j+1]`` at ``j = k, k+1`` when they have the same sign,
+    and 0 otherwise (minmod). A smooth peak between two samples exceeds them by at most
+    ``|x''| T^2 / 8`` (a parabola through the samples), so a well-sampled sine keeps its
+    spline; at a step the second differences on either side have opposite signs or one side
+    is flat, the bound is the two samples themselves, and the spline's ringing (about 10 % of
+    the step for a cubic spline) is replaced. Every result therefore lies within the
+    bound of its interval: the overshoot beyond the neighbouring samples is at most a quarter
+    of the smaller neighbouring second difference, zero at a step, and the largest value
+    never exceeds the largest sample by more than that.
+
+    Parameters
+    ----------
+    x
+        Samples on a uniform grid (positions 0, 1, ..., n-1).
+    at
+        Positions to interpolate at, within ``[0, n-1]`` [sample intervals].
+
+    References
+    ----------
+    F. N. Fritsch, R. E. Carlson, "Monotone piecewise cubic interpolation", SIAM J. Numer.
+    Anal. 17 (1980) 238-246; F. N. Fritsch, J. Butland, "A method for constructing local
+    monotone piecewise cubic interpolants", SIAM J. Sci. Stat. Comput. 5 (1984) 300-304.
+
+    Examples
+    --------
+    >>> step = np.r_[np.zeros(8), np.ones(8)]
+    >>> y = interpolate_limited(step, np.linspace(0, 15, 151))
+    >>> float(y.min()), float(y.max())
+    (0.0, 1.0)
+    """
+    from scipy.interpolate import CubicSpline, PchipInterpolator
+
+    x = np.asarray(x, dtype=float)
+    at = np.asarray(at, dtype=float)
+    n = x.size
+    pos = np.arange(n, dtype=float)
+    y = CubicSpline(pos, x)(at)
+    if n < 3:
+        return y
+    k = np.clip(np.floor(at).astype(np.intp), 0, n - 2)
+    d2 = np.zeros(n)
+    d2[1:-1] = x[:-2] - 2.0 * x[1:-1] + x[2:]
+    a, b = d2[:-1], d2[1:]
+    c = np.where(a * b > 0, np.sign(a) * np.minimum(np.abs(a), np.abs(b)), 0.0)
+    lo = np.minimum(x[:-1], x[1:]) - np.maximum(c, 0.0) / 4.0
+    hi = np.maximum(x[:-1], x[1:]) + np.maximum(-c, 0.0) / 4.0
+    # a relative slack of 1e-12 of the record's scale keeps round-off from counting
+    slack = 1e-12 * float(np.max(np.abs(x)))
+    out = (y < lo[k] - slack) | (y > hi[k] + slack)
+    if np.any(out):
+        bad = np.zeros(n - 1, dtype=bool)
+        bad[k[out]] = True
+        sel = bad[k]  # the whole interval, so one interval is never half one, half the other
+        y[sel] = PchipInterpolator(pos, x)(at[sel])
+    return y
 
 
 def shift_periodic(x: np.ndarray, angle_rad: float, cycles: int = 1) -> np.ndarray:

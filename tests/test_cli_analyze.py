@@ -223,3 +223,27 @@ def test_usage_mistakes_are_one_line_with_exit_2():
         r = CliRunner().invoke(main, args)
         assert r.exit_code == 2
         assert len(r.stderr.strip().splitlines()) == 1 and r.stderr.startswith("error:")
+
+
+@pytest.mark.parametrize("fs", [9871.0, 10000.0])
+def test_crest_factor_of_a_dimmer_capture(tmp_path, fs):
+    # A resistive load behind a 90 deg leading-edge cut (the dimmer capture): the cut
+    # keeps the sine's crest and I_rms = I_pk/2 (closed form, REFERENCES.md), so the crest
+    # factor is 2.000. The old spline-resampled record read 2.22. Tolerance from the
+    # sampling: 2/N + (1 - cos(2 pi/N)) relative with N samples per cycle (the firing is
+    # placed only within one sample interval; tests/test_capture.py derives it).
+    t = np.arange(int(fs * 0.6)) / fs + 0.0007
+    wt = 2 * np.pi * 50.0 * t
+    v = 325.0 * np.sin(wt)
+    i = np.where(np.mod(wt, np.pi) >= np.pi / 2, 1.5 * np.sin(wt), 0.0)
+    rows = [f"{a:.8f},{b:.4f},{c:.6f}" for a, b, c in zip(t, v, i, strict=True)]
+    r = run(write(tmp_path / "dimmer.csv", rows=rows), "--json")
+    assert r.exit_code == 0, r.output
+    d = json.loads(r.stdout)
+    n = fs / 50.0
+    assert d["crest_factor"] == pytest.approx(2.0, abs=2 * (2 / n + 1 - np.cos(2 * np.pi / n)))
+    assert d["i_peak_a"] <= 1.5 + 1e-6  # a recorded sample, never an interpolant's overshoot
+    assert any("recorded samples" in note for note in d["notes"])
+    # the terminal table shows the same figure
+    r = run(str(tmp_path / "dimmer.csv"))
+    assert r.exit_code == 0 and f"{d['crest_factor']:.3f}" in r.output

@@ -489,7 +489,9 @@ def record_to_waveform(
 
     The frequency comes from the voltage channel when there is one (it is the cleaner
     signal), else from the current. A clipped channel raises a :class:`ClippingWarning`.
-    The estimated frequency is kept in ``waveform.frequency_hz``.
+    The estimated frequency is kept in ``waveform.frequency_hz``; the peaks and RMS of the
+    recorded samples over the cycles kept in ``waveform.recorded`` (the crest factor is
+    taken from them, not from the interpolated record).
     """
     for name, x in (("current", record.current_a), ("voltage", record.voltage_v)):
         if x is not None and _clipped(x):
@@ -516,4 +518,5 @@ def record_to_waveform(
     except InputError as e:
         raise InputError(f"{record.source}: {e}") from None
     return Waveform(w.current_a, w.sample_rate_hz, w.frequency_hz, w.voltage_v, w.cycles,
-                    label=Path(record.source).name, meta=dict(record.meta))
+                    label=Path(record.source).name, meta=dict(record.meta),
+                    recorded=w.recorded)
