@@ -123,7 +123,7 @@ def test_missing_file_and_no_input_exit_2(tmp_path):
 
 
 def test_demo_captures_are_judged_by_the_small_lighting_options():
-    # the demo downlight draws about 12 W: the 5 W to 25 W options a, b, c apply (7.4.2)
+    # the demo downlight draws about 9 W: the 5 W to 25 W options a, b, c apply (7.4.2)
     r = run(str(DEMO / "downlight_full.csv"), "--json")
     d = json.loads(r.output)
     res = d["results"][0]
