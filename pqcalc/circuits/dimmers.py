@@ -24,7 +24,7 @@ import numpy as np
 
 from ..errors import InputError
 from .network import Network
-from .pwl import Automaton
+from .pwl import EPS_I_A, Automaton
 from .spec import DimmerSpec, Supply
 
 __all__ = ["dimmer_params", "resolve_dimmer", "build_dimmer", "conduction_from_knob"]
@@ -159,6 +159,16 @@ class WindowSwitch(Automaton):
     def fire(self, tag, s, t, x, value):
         return tag, x
 
+    def compiled_spec(self, net):
+        from .loop import WINDOW
+
+        return (WINDOW, SWITCH, [self.H, -1.0 if self.always is None else float(self.always)],
+                [te for te, _ in self.edges], [float(st) for _, st in self.edges])
+
+
+#: the triac's event tags in the compiled loop (pqcalc.circuits.loop), by code
+TRIAC_TAGS = ("low", "release", "recover", "fire+", "fire-", "gate-end", "fire")
+
 
 class Triac(Automaton):
     """Triac with latching and holding, fired by the RC network's trigger diode or by an
@@ -194,8 +204,12 @@ class Triac(Automaton):
                 return [(row, -self.p["holding_current_a"], "low")]
             return [(row, -self.p["holding_current_a"], "release")]
         if s[0] == "low":
-            row = s[1] * self.i_row(ms)
-            return [(row, self.p["holding_current_a"], "recover"), (-row, 0.0, "release")]
+            row = s[2] * self.i_row(ms)
+            # the current must rise EPS_I_A above holding to recover: without that margin
+            # a current leaving holding at the instant it reached it would switch on and
+            # low without end at one time
+            return [(row, self.p["holding_current_a"] + EPS_I_A, "recover"),
+                    (-row, 0.0, "release")]
         if s[0] == "off" and self.j is not None:
             r = np.zeros(self.n)
             r[self.j] = 1.0
@@ -249,6 +263,34 @@ class Triac(Automaton):
         if tag == "release":
             return ("off",), x
         return s, x
+
+    def compiled_spec(self, net):
+        from .loop import TRIAC
+
+        p = self.p
+        return (TRIAC, SWITCH,
+                [self.H, p["holding_current_a"], p["latching_current_a"], p["gate_pulse_s"],
+                 p.get("recovery_s", 0.0), p["breakover_v"], p["breakback_v"],
+                 np.nan if self.fire_at is None else self.fire_at,
+                 -1.0 if self.j is None else float(self.j), float(net.index[SWITCH])], [], [])
+
+    def to_row(self, s):
+        if s[0] == "off":
+            return (0.0, 0.0, 0.0)
+        if s[0] == "on":
+            return (2.0, 0.0, s[1])
+        return (1.0 if s[0] == "gate" else 3.0, s[1], s[2])
+
+    def from_row(self, row):
+        code = int(row[0])
+        if code == 0:
+            return ("off",)
+        if code == 2:
+            return ("on", float(row[2]))
+        return ("gate" if code == 1 else "low", float(row[1]), float(row[2]))
+
+    def tag_name(self, code):
+        return TRIAC_TAGS[code]
 
 
 def build_dimmer(net: Network, spec: DimmerSpec, p: dict, supply: Supply, din: str,

@@ -355,6 +355,14 @@ class ConverterUVLO(Automaton):
             return min(k, s - 1), x
         return max(k, 1), x  # "start"
 
+    def compiled_spec(self, net):
+        from .loop import CONVERTER
+
+        return (CONVERTER, self.el, [float(self.j), self.v_on], list(self.b), [])
+
+    def tag_name(self, code):
+        return ("start", "down", "up")[code]
+
 
 class TapLevels(Automaton):
     """Segment index of the tapped linear regulator's piecewise-affine characteristic."""
@@ -382,6 +390,14 @@ class TapLevels(Automaton):
 
     def fire(self, tag, s, t, x, value):
         return (s + 1 if tag == "up" else s - 1), x
+
+    def compiled_spec(self, net):
+        from .loop import TAPS
+
+        return (TAPS, self.el, [float(self.vi)], list(self.breaks), [])
+
+    def tag_name(self, code):
+        return ("up", "down")[code]
 
 
 # ---------------------------------------------------------------------- building

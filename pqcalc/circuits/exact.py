@@ -23,12 +23,12 @@ holds the exact figures of one current and the voltage it is referred to.
 
 from __future__ import annotations
 
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 
 import numpy as np
 
 from ..waveform import Waveform
-from .kernels import seg_fourier, seg_integral_to, seg_mean_product, seg_peak
+from .kernels import seg_at, seg_fourier, seg_integral_to, seg_mean_product, seg_peak
 from .network import CH_ONE, CH_SOURCE
 
 __all__ = ["Expansion", "Figures", "SolvedWaveform", "expand", "figures", "MAX_ORDER"]
@@ -59,6 +59,10 @@ class Expansion:
     def _row(self, r: int):
         return (np.ascontiguousarray(self.alpha[:, r, :]), self.mu,
                 np.ascontiguousarray(self.g[:, r]), self.t0, self.t1)
+
+    def at(self, r: int, ts: np.ndarray) -> np.ndarray:
+        """Point values of output ``r`` at the ascending times ``ts``."""
+        return seg_at(*self._row(r), np.ascontiguousarray(ts, dtype=float))
 
     def integral_to(self, r: int, ts: np.ndarray) -> np.ndarray:
         """``int_0^t y_r dt`` at the ascending times ``ts`` in ``[0, period]``."""
@@ -98,37 +102,24 @@ def expand(eng, tr, rows: list[int]) -> Expansion:
     ``tr`` of the engine ``eng``."""
     net, src = eng.net, eng.src
     nx = net.n_x
-    segs = tr.segments
-    mds: dict[int, int] = {}
-    per_mode: list[tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray]] = []
+    t0, t1, (Q, V, P, p0, lam, consts), idx, C = tr.segment_table()
     kw = 1j * src.omega * src.orders  # (K,)
-    for sg in segs:
-        md = sg.md
-        if id(md) not in mds:
-            mds[id(md)] = len(per_mode)
-            Qr = md.Q[rows]
-            Qx, Qu = Qr[:, :nx], Qr[:, nx:]
-            modal = Qx @ md.V  # (R, n)
-            harm = Qx @ md.P + np.outer(Qu[:, CH_SOURCE], src.amplitudes)  # (R, K)
-            g = Qx @ md.p0 + Qu[:, CH_ONE] + Qu[:, CH_SOURCE] * src.dc_v
-            for ch, val in md.consts:
-                g = g + Qu[:, ch] * val
-            per_mode.append((modal, harm, g, md.lam))
-    idx = np.array([mds[id(sg.md)] for sg in segs])
-    t0 = np.array([sg.t0 for sg in segs])
-    t1 = np.array([sg.t1 for sg in segs])
-    C = np.array([sg.c for sg in segs]).reshape(len(segs), nx)
-    modal = np.array([m[0] for m in per_mode])[idx]  # (S, R, n)
-    harm = np.array([m[1] for m in per_mode])[idx]  # (S, R, K)
-    g = np.array([m[2] for m in per_mode])[idx]
-    lam = np.array([m[3] for m in per_mode]).reshape(len(per_mode), nx)[idx]
-    alpha = np.concatenate([modal * C[:, None, :],
-                            harm * np.exp(np.outer(t0, kw))[:, None, :]], axis=2)
-    mu = np.concatenate([lam, np.broadcast_to(kw, (len(segs), kw.size))], axis=1)
-    period = float(t1[-1])
+    S = t0.size
+    Qr = Q[:, rows, :]  # (modes, R, nx + nu)
+    Qx = Qr[:, :, :nx]
+    modal = Qx @ V  # (modes, R, n)
+    harm = Qx @ P + Qr[:, :, nx + CH_SOURCE][:, :, None] * src.amplitudes  # (modes, R, K)
+    gm = (Qx @ p0[:, :, None])[:, :, 0] + Qr[:, :, nx + CH_ONE] + \
+        Qr[:, :, nx + CH_SOURCE] * src.dc_v
+    for k, cs in enumerate(consts):
+        for ch, val in cs:
+            gm[k] = gm[k] + Qr[k, :, nx + ch] * val
+    alpha = np.concatenate([modal[idx] * C[:, None, :],
+                            harm[idx] * np.exp(np.outer(t0, kw))[:, None, :]], axis=2)
+    mu = np.concatenate([lam[idx], np.broadcast_to(kw, (S, kw.size))], axis=1)
     return Expansion(t0, t1, np.ascontiguousarray(mu, dtype=complex),
                      np.ascontiguousarray(alpha, dtype=complex),
-                     np.ascontiguousarray(g, dtype=float), period)
+                     np.ascontiguousarray(gm[idx], dtype=float), float(t1[-1]))
 
 
 @dataclass(frozen=True)
@@ -225,7 +216,8 @@ class SolvedWaveform(Waveform):
       :func:`pqcalc.spectrum.spectrum` of this waveform gives ``figures``' phasors.
     - ``i_rms_a``, ``v_rms_v``, ``p_w``: exact (``figures``), not from the samples (a cell
       mean smooths a pulse narrower than the cell, and would understate the rms).
-    - The largest sample is a cell mean: the exact peak is ``figures.i_peak_a``.
+    - ``i_peak_a``, ``v_peak_v``: exact (``figures``); the largest sample is a cell mean,
+      below the peak of a pulse narrower than a cell.
     - :meth:`scaled` keeps the exact figures; :meth:`shifted`, ``+`` and :meth:`cycle`
       give plain waveforms whose figures come from their samples.
     """
@@ -247,9 +239,21 @@ class SolvedWaveform(Waveform):
         """Active power of the solution [W] (exact)."""
         return super().p_w if self.figures is None else self.figures.p_w
 
+    @property
+    def i_peak_a(self) -> float:
+        """Largest absolute current of the solution [A] (exact, not a sample)."""
+        if self.figures is None:
+            return float(np.max(np.abs(self.current_a)))
+        return self.figures.i_peak_a
+
+    @property
+    def v_peak_v(self) -> float | None:
+        """Largest absolute voltage of the solution [V] (exact, not a sample)."""
+        if self.figures is None:
+            return None if self.voltage_v is None else float(np.max(np.abs(self.voltage_v)))
+        return self.figures.v_peak_v
+
     def scaled(self, factor: float) -> SolvedWaveform:
         """``factor`` identical currents (lamps) at the same voltage; exact figures kept."""
-        return SolvedWaveform(self.current_a * factor, self.sample_rate_hz,
-                              self.frequency_hz, self.voltage_v, self.cycles, self.label,
-                              dict(self.meta),
-                              None if self.figures is None else self.figures.scaled(factor))
+        return replace(self, current_a=self.current_a * factor, meta=dict(self.meta),
+                       figures=None if self.figures is None else self.figures.scaled(factor))

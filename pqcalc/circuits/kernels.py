@@ -228,13 +228,19 @@ def seg_mean_product(a, b, mu, ga, gb, t0, t1):
 
 @njit(cache=True)
 def seg_integral_to(a, mu, g, t0, t1, ts):
-    """``int_0^t y dt`` at the ascending times ``ts`` (``t0[0] = 0``)."""
+    """``int_0^t y dt`` at the ascending times ``ts`` (``t0[0] = 0``). The exponentials
+    advance by recurrence between neighbouring times of a segment (re-anchored on exact
+    values every 32 times)."""
     S, M = mu.shape
     out = np.empty(ts.size)
+    e = np.empty(M, dtype=np.complex128)
+    st = np.empty(M, dtype=np.complex128)
     s = 0
     base = 0.0
+    run = 0  # times so far on the current segment
     for n in range(ts.size):
         t = ts[n]
+        moved = False
         while s < S - 1 and t > t1[s]:
             d = t1[s] - t0[s]
             acc = g[s] * d
@@ -242,10 +248,26 @@ def seg_integral_to(a, mu, g, t0, t1, ts):
                 acc += (a[s, m] * d * _phi1(mu[s, m] * d)).real
             base += acc
             s += 1
+            moved = True
+        if moved:
+            run = 0
         tau = t - t0[s]
+        if run % 32 == 0 or ts[n] - ts[n - 1] != ts[n - 1] - ts[n - 2] or n < 2:
+            for m in range(M):
+                e[m] = cmath.exp(mu[s, m] * tau)
+                if n >= 1:
+                    st[m] = cmath.exp(mu[s, m] * (ts[n] - ts[n - 1]))
+        else:
+            for m in range(M):
+                e[m] *= st[m]
+        run += 1
         acc = g[s] * tau
         for m in range(M):
-            acc += (a[s, m] * tau * _phi1(mu[s, m] * tau)).real
+            z = mu[s, m] * tau
+            if abs(z) < 1e-5:
+                acc += (a[s, m] * tau * (1.0 + z * (0.5 + z / 6.0))).real
+            else:
+                acc += (a[s, m] * (e[m] - 1.0) / mu[s, m]).real
         out[n] = base + acc
     return out
 
@@ -327,3 +349,95 @@ def modal(A, b_src, amps, orders, omega):
             M[i, i] += 1j * orders[k] * omega
         P[:, k] = np.linalg.solve(M, b_src.astype(np.complex128) * amps[k])
     return lam, V, Vinv, P
+
+
+@njit(cache=True)
+def assemble_mode(on, M0, Rhs0, g_cond, inc, ds_on, ds_pos, ds_g_on, ds_g_off, ds_v_on,
+                  gs_j, gs_pos, gs_g, gs_i0, cond, g_all, Q0, vsrc, a, b, caps, inds, c_val,
+                  l_val, nn, nx, one):
+    """The state equations ``x' = A x + B u`` and output matrix ``Q`` of one mode: the
+    arithmetic of :meth:`pqcalc.circuits.network.Network._build` (modified nodal analysis
+    with the mode's conductances stamped), compiled. Returns (A, B, Q)."""
+    g_c = g_cond.copy()
+    i0_c = np.zeros(g_c.size)
+    for q in range(ds_on.size):
+        if on[ds_on[q]] != 0:
+            g = ds_g_on[q]
+            g_c[ds_pos[q]] = g
+            i0_c[ds_pos[q]] = -g * ds_v_on[q]
+        else:
+            g_c[ds_pos[q]] = ds_g_off[q]
+            i0_c[ds_pos[q]] = 0.0
+    for q in range(gs_j.size):
+        seg = on[gs_j[q]]
+        g_c[gs_pos[q]] = gs_g[q, seg]
+        i0_c[gs_pos[q]] = gs_i0[q, seg]
+    M = M0 + (inc * g_c.reshape(1, g_c.size)) @ inc.T
+    Rhs = Rhs0.copy()
+    Rhs[:, one] -= inc @ i0_c
+    ncol = Rhs.shape[1]
+    ne = Q0.shape[0]
+    Z = np.linalg.solve(M, Rhs)  # singular (a floating node): LinAlgError, see the caller
+    Vn = np.zeros((nn + 1, ncol))
+    Vn[1:] = Z[:nn]
+    Vel = np.empty((ne, ncol))
+    for e in range(ne):
+        Vel[e] = Vn[a[e]] - Vn[b[e]]
+    g_of = g_all.copy()
+    i_one = np.zeros(ne)
+    for k in range(cond.size):
+        g_of[cond[k]] = g_c[k]
+        i_one[cond[k]] = i0_c[k]
+    cur = Q0.copy()
+    for k in range(cond.size):
+        e = cond[k]
+        cur[e] = g_of[e] * Vel[e]
+    for e in range(ne):
+        cur[e, one] += i_one[e]
+    for k in range(vsrc.size):
+        cur[vsrc[k]] = Z[nn + k]
+    Q = np.empty((2 * ne, ncol))
+    Q[:ne] = cur
+    Q[ne:] = Vel
+    AB = np.empty((caps.size + inds.size, ncol))
+    for k in range(caps.size):
+        AB[k] = cur[caps[k]] / c_val[k]
+    for k in range(inds.size):
+        AB[caps.size + k] = Vel[inds[k]] / l_val[k]
+    return np.ascontiguousarray(AB[:, :nx]), np.ascontiguousarray(AB[:, nx:]), Q
+
+
+@njit(cache=True)
+def seg_at(a, mu, g, t0, t1, ts):
+    """Point values ``y(t)`` at the ascending times ``ts`` (a time on a segment boundary
+    takes the earlier segment's value). The exponentials advance by recurrence between
+    neighbouring times of a segment (re-anchored on exact values every 32 times)."""
+    S, M = mu.shape
+    out = np.empty(ts.size)
+    e = np.empty(M, dtype=np.complex128)
+    st = np.empty(M, dtype=np.complex128)
+    s = 0
+    run = 0
+    for n in range(ts.size):
+        t = ts[n]
+        moved = False
+        while s < S - 1 and t > t1[s]:
+            s += 1
+            moved = True
+        if moved:
+            run = 0
+        tau = t - t0[s]
+        if run % 32 == 0 or n < 2 or ts[n] - ts[n - 1] != ts[n - 1] - ts[n - 2]:
+            for m in range(M):
+                e[m] = cmath.exp(mu[s, m] * tau)
+                if n >= 1:
+                    st[m] = cmath.exp(mu[s, m] * (ts[n] - ts[n - 1]))
+        else:
+            for m in range(M):
+                e[m] *= st[m]
+        run += 1
+        v = g[s]
+        for m in range(M):
+            v += (a[s, m] * e[m]).real
+        out[n] = v
+    return out

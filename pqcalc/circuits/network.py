@@ -32,6 +32,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from ..errors import InputError
+from .kernels import COMPILED, assemble_mode
 
 __all__ = ["Network", "Element", "ModeSystem", "CH_SOURCE", "CH_ONE"]
 
@@ -153,9 +154,44 @@ class Network:
         key = tuple(on)
         ms = self._cache.get(key)
         if ms is None:
-            ms = self._build(key)
+            ms = self._build_compiled(key) if COMPILED else self._build(key)
             self._cache[key] = ms
         return ms
+
+    def _build_compiled(self, on: tuple) -> ModeSystem:
+        """:meth:`_build`'s arithmetic in one compiled call."""
+        try:
+            A, B, Q = assemble_mode(np.array(on, dtype=np.int64), *self.compiled_args())
+        except np.linalg.LinAlgError as err:
+            raise InputError(
+                "the circuit has a floating node or a loop of capacitors and sources; "
+                "check the component values"
+            ) from err
+        return ModeSystem(A, B, Q)
+
+    def compiled_args(self) -> tuple:
+        """The mode-independent arrays that :func:`~pqcalc.circuits.kernels.assemble_mode`
+        takes after the switch vector (built once)."""
+        st = getattr(self, "_st", None)
+        if st is None:
+            st = self._st = self._static()
+        ka = st.get("_kargs")
+        if ka is None:
+            gs = st["gs"]
+            width = max([len(t) for *_, t in gs] + [1])
+            gs_g = np.zeros((len(gs), width))
+            gs_i0 = np.zeros((len(gs), width))
+            for q, (*_, table) in enumerate(gs):
+                gs_g[q, :len(table)] = [g for g, _ in table]
+                gs_i0[q, :len(table)] = [i0 for _, i0 in table]
+            ka = st["_kargs"] = (
+                st["M"], st["Rhs"], st["g_cond"], np.ascontiguousarray(st["inc"]),
+                st["ds_on"], st["ds_pos"], st["ds_g_on"], st["ds_g_off"], st["ds_v_on"],
+                np.array([j for j, *_ in gs], dtype=np.int64),
+                np.array([k for _, k, *_ in gs], dtype=np.int64), gs_g, gs_i0, st["cond"],
+                st["g"], st["Q0"], st["vsrc"], st["a"], st["b"], st["caps"], st["inds"],
+                st["c_val"], st["l_val"], st["nn"], self.n_x, self.n_x + CH_ONE)
+        return ka
 
     def _static(self) -> dict:
         """The mode-independent part of the nodal equations (resistors, sources, reactive

@@ -612,6 +612,16 @@ def _input_power(case, tr, b, period) -> float:
     return (ex.mean_product(0, 1) - ex.mean_product(0, 2)) / b.m
 
 
+def _point_samples(eng, tr, ts, outs) -> np.ndarray:
+    """Element currents ('i') or voltages ('v') at the times ``ts`` [A, V]: (outputs, ts)."""
+    if not outs:
+        return np.zeros((0, ts.size))
+    net = eng.net
+    ex = expand(eng, tr, [(net.index[name] if kind == "i" else net.n_e + net.index[name])
+                          for name, kind in outs])
+    return np.array([ex.at(r, ts) for r in range(len(outs))])
+
+
 def _assemble(supply, dimmer, dp, loads, gparams, levels, case, tr, period, iters, ok, spc,
               extras, measured, fires, nolatch, cond_set, reference) -> Solution:
     eng = case.eng
@@ -628,7 +638,7 @@ def _assemble(supply, dimmer, dp, loads, gparams, levels, case, tr, period, iter
         outs += [(r, "i") for r in b.resistors]
         outs += [(r, "v") for r in b.resistors]
     outs = list(dict.fromkeys(outs))
-    Y, _ = eng.sample(tr, ts, outs) if outs else (np.zeros((0, n)), None)
+    Y = _point_samples(eng, tr, ts, outs)
     col = {o: i for i, o in enumerate(outs)}
     seg_state = _segment_states(tr, ts)
     fs = spc * f
@@ -642,7 +652,8 @@ def _assemble(supply, dimmer, dp, loads, gparams, levels, case, tr, period, iter
     vline = means[1]
     v_peak = ex.peak(1)
     fig = figures(ex, 0, 1, coef[1], coef[0], f, v_peak)
-    wf = SolvedWaveform(means[0], fs, f, vline, period, label="dimmer input", figures=fig)
+    wf = SolvedWaveform(means[0], fs, f, voltage_v=vline, cycles=period, label="dimmer input",
+                        figures=fig)
     flags = set()
     if period > 1:
         flags.add("subharmonic")
@@ -664,7 +675,7 @@ def _assemble(supply, dimmer, dp, loads, gparams, levels, case, tr, period, iter
     for k, (b, g, p) in enumerate(zip(case.builds, loads, gparams, strict=True)):
         m = b.m
         gfig = figures(ex, 2 + k, 1, coef[1], coef[2 + k], f, v_peak, scale=1.0 / m)
-        gw = SolvedWaveform(means[2 + k] / m, fs, f, vline, period,
+        gw = SolvedWaveform(means[2 + k] / m, fs, f, voltage_v=vline, cycles=period,
                             label=f"{g.model} {g.power_w:g} W", figures=gfig)
         # extras=False: the light's normalisation (a reference solve) waits until it is
         # read, except when the glow-when-off flag needs it now
@@ -797,6 +808,5 @@ def _inrush(supply, dimmer, dp, loads, gparams, levels, k) -> float:
     T = eng.T1
     disc = (tuple([False] * len(case.net.diodes)), tuple(a.initial for a in eng.automata))
     tr = eng.run(T / 4, T / 2, np.zeros(case.net.n_x), disc, record=True)
-    ts = T / 4 + np.arange(4096) * (T / 4) / 4096
-    Y, _ = eng.sample(tr, ts, [(case.builds[k].sense, "i")])
-    return float(np.max(np.abs(Y[0])) / case.builds[k].m)
+    ex = expand(eng, tr, [case.net.index[case.builds[k].sense]])
+    return ex.peak(0) / case.builds[k].m

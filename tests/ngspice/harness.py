@@ -49,10 +49,17 @@ class Case:
     damping_ohm: float = 100.0
     switch_r_on_ohm: float = 0.05
     switch_r_off_ohm: float = 1e8
+    #: identical lamps in parallel (resistances / count, capacitances and the diodes' area
+    #: and the behavioural sources' currents * count)
+    count: int = 1
+    #: component values replacing those of LOADS, as (name, value) items
+    parts: tuple = ()
 
     @property
     def id(self) -> str:
-        return f"{self.model}-{self.v_rms:g}V{self.f_hz:g}Hz-{self.kind}-{self.conduction_deg:g}"
+        tail = f"-x{self.count}" if self.count != 1 else ""
+        return (f"{self.model}-{self.v_rms:g}V{self.f_hz:g}Hz-{self.kind}-"
+                f"{self.conduction_deg:g}{tail}")
 
     @property
     def cycles(self) -> int:
@@ -112,10 +119,12 @@ def loads_for(case: Case) -> dict:
     """The case's component values. At 120 V the dropper's string is 100 V instead of
     200 V (a 200 V string never conducts on a 170 V peak: no reference to compare)."""
     if case.model == "sine-follow":
-        return sine_follow_parts(case)
-    p = dict(LOADS[case.model])
-    if case.model == "dropper" and case.v_rms < 200:
-        p["v_string_v"] = 100.0
+        p = sine_follow_parts(case)
+    else:
+        p = dict(LOADS[case.model])
+        if case.model == "dropper" and case.v_rms < 200:
+            p["v_string_v"] = 100.0
+    p.update(dict(case.parts))
     return p
 
 
@@ -174,39 +183,48 @@ def netlist(case: Case, out_path: str, attempt: int = 0) -> str:
                   f"B1 din dout I = V(din,dout)*({1 / case.switch_r_on_ohm:g}*V(g) + "
                   f"{1 / case.switch_r_off_ohm:g})"]
     p = loads_for(case)
+    m = case.count
     ic = ""
     uic = False
+
+    def r(x):  # a resistance of m lamps in parallel
+        return f"{x / m:.9g}" if m != 1 else f"{x:g}"
+
+    def c(x):  # a capacitance of m lamps in parallel
+        return f"{x * m:.9g}" if m != 1 else f"{x:g}"
+
+    dr = f"DR m={m}" if m != 1 else "DR"  # m diodes in parallel
     if case.model == "resistive":
-        lines.append(f"RL dout 0 {p['r_ohm']:g}")
+        lines.append(f"RL dout 0 {r(p['r_ohm'])}")
     else:
         if case.model.startswith("bulk-cap"):
-            lines.append(f"Rf dout ac {p['r_series_ohm']:g}")
+            lines.append(f"Rf dout ac {r(p['r_series_ohm'])}")
         elif case.model == "sine-follow":
-            lines.append(f"Rf dout ac {p['r_fuse_ohm']:.9g}")
+            lines.append(f"Rf dout ac {p['r_fuse_ohm'] / m:.9g}")
         else:
-            lines += [f"Cser dout x1 {p['c_series_f']:g}",
-                      f"Rbl dout x1 {p['r_bleed_ohm']:g}",
-                      f"Rsu x1 ac {p['r_surge_ohm']:g}"]
-        lines += ["D1 ac p DR", "D2 0 p DR", "D3 n ac DR", "D4 n 0 DR",
+            lines += [f"Cser dout x1 {c(p['c_series_f'])}",
+                      f"Rbl dout x1 {r(p['r_bleed_ohm'])}",
+                      f"Rsu x1 ac {r(p['r_surge_ohm'])}"]
+        lines += [f"D1 ac p {dr}", f"D2 0 p {dr}", f"D3 n ac {dr}", f"D4 n 0 {dr}",
                   "Rshp p 0 1e9", "Rshn n 0 1e9", DIODE_MODEL]
         if case.model == "bulk-cap":
-            lines += [f"Cb p n {p['c_bulk_f']:g}", f"RLd p n {p['r_load_ohm']:g}"]
+            lines += [f"Cb p n {c(p['c_bulk_f'])}", f"RLd p n {r(p['r_load_ohm'])}"]
         elif case.model == "bulk-cap-cp":
             # a smooth lock-out at 0.45 Vpk lets the capacitor charge from zero first; in
             # steady state (above 0.8 Vpk) the factor differs from 1 by under 1e-9
             v_lo = 0.45 * v_pk
-            lines += [f"Cb p n {p['c_bulk_f']:g}", f"Rbl p n {p['r_bleed_ohm']:g}",
-                      f"Bcp p n I = {CP_POWER_W:g} * V(p,n) / (V(p,n) * V(p,n) + 1) * 0.5 * "
-                      f"(1 + tanh((V(p,n) - {v_lo:.6g}) / 5))"]
+            lines += [f"Cb p n {c(p['c_bulk_f'])}", f"Rbl p n {r(p['r_bleed_ohm'])}",
+                      f"Bcp p n I = {CP_POWER_W * m:g} * V(p,n) / (V(p,n) * V(p,n) + 1) * "
+                      f"0.5 * (1 + tanh((V(p,n) - {v_lo:.6g}) / 5))"]
         elif case.model == "sine-follow":
-            table = ", ".join(f"{v:.9g}, {i:.9g}" for v, i in regulator_points(p))
-            lines += [f"Cin p n {p['c_in_f']:.9g}", f"Rbl p n {p['r_bleed_ohm']:.9g}",
+            table = ", ".join(f"{v:.9g}, {i * m:.9g}" for v, i in regulator_points(p))
+            lines += [f"Cin p n {p['c_in_f'] * m:.9g}", f"Rbl p n {p['r_bleed_ohm'] / m:.9g}",
                       f"Breg p n I = pwl(V(p,n), {table})"]
         else:
-            lines += ["Dst p s1 DR",
+            lines += [f"Dst p s1 {dr}",
                       f"Vst s1 s2 DC {p['v_string_v'] - DIODE_DROP_V:g}",
-                      f"Rst s2 n {p['r_string_ohm'] - 0.08:g}",
-                      f"Cst p n {p['c_string_f']:g}"]
+                      f"Rst s2 n {r(p['r_string_ohm'] - 0.08)}",
+                      f"Cst p n {c(p['c_string_f'])}"]
     if ic:
         lines.append(ic)
     t_stop = case.cycles * T
