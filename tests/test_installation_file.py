@@ -99,6 +99,15 @@ CASES = [
     ("breaker_a = 16", 'breaker_a = "16 A"', "panels[0].circuits[0].breaker_a", 21),
     ('system = "three-phase-wye"', 'system = "single-phase"', "panels[0].circuits[1].line", 27),
     ("voltage_ln_v = 230", "voltage_ln_v = 2300", "supply.voltage_ln_v", 6),
+    # a regional rule set that does not exist; a breaker type the set does not know
+    ('system = "three-phase-wye"', 'system = "three-phase-wye"\nrules = "EU"', "supply.rules", 6),
+    ('breaker_curve = "C"', 'breaker_curve = "TM"', "panels[0].circuits[0].breaker_curve", 22),
+    # a cable without a length; a pulse-withstand table whose allowed peak rises with width
+    ('breaker_curve = "C"', 'breaker_curve = "C"\ncable = {size_mm2 = 1.5}',
+     "panels[0].circuits[0].cable.length_m", 23),
+    ('breaker_curve = "C"',
+     'breaker_curve = "C"\nbreaker_pulse_table = {width_s = [1e-4, 1e-3], peak_a = [200, 300]}',
+     "panels[0].circuits[0].breaker_pulse_table.peak_a[1]", 23),
 ]
 
 
@@ -119,3 +128,16 @@ def test_not_toml_and_empty_and_directory(folder):
         assert r.exit_code == 2 and "site.toml" in r.output
     r = CliRunner().invoke(main, ["assess", str(folder)])
     assert r.exit_code == 2 and "directory" in r.output
+
+
+def test_regional_rules_default_from_the_supply():
+    # The rule set follows the supply when the file names none (common practice: 230/400 V
+    # 50 Hz is designed to IEC 60364, 120/208 V 60 Hz to the US NEC): the school is IEC,
+    # the office US; their breakers default to the set's usual type.
+    from pathlib import Path
+
+    demo = Path(__file__).resolve().parents[1] / "demo_installations"
+    school = load_installation(demo / "harbour_school.toml")
+    office = load_installation(demo / "cedar_row_offices.toml")
+    assert (school.supply.rules, office.supply.rules) == ("IEC", "US")
+    assert {c.breaker_curve for c in office.circuits} <= {"TM", "B", "C", "D"}

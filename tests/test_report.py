@@ -92,7 +92,7 @@ def test_standards_are_named_with_their_editions(text):
     assert "Table 3" in std
     # the IEEE 519 check at the service names its edition (2022 by default in assess)
     assert re.search(r"IEEE Std 519-20(14|22)", std)
-    assert "IEC 60898-1" in std  # the breaker inrush check's source
+    assert "IEC 60364-4-43" in std  # the breaker load check's source (an IEC project)
 
 
 def test_cautions_are_carried(text):
@@ -158,7 +158,59 @@ def test_limits_in_amperes_from_the_deciding_rule():
     assert r.p_w > 25
     assert lim[5] == pytest.approx(0.10 * s.i1_a, rel=1e-9)
     assert lim[7] == pytest.approx(0.07 * s.i1_a, rel=1e-9)
-    assert lim[3] == pytest.approx(0.30 * r.pf * s.i1_a, rel=1e-9)
+    # h3: 27 % of I1 in the default edition 5.1 (Table 2 as amended by AMD1:2020; a test
+    # laboratory's public summary), 30 x lambda % in edition 5.0
+    assert lim[3] == pytest.approx(0.27 * s.i1_a, rel=1e-9)
+    r5 = evaluate_fixture(w, nominal_voltage_v=230, fixture="x", edition="5.0")
+    assert limits_in_amps(r5, s)[3] == pytest.approx(0.30 * r5.pf * s.i1_a, rel=1e-9)
+
+
+def _hatched(fig) -> set[int]:
+    """Orders whose bar is hatched (drawn as over the limit)."""
+    return {int(b.get_gid().split("-")[1]) for b in fig.axes[0].patches
+            if (b.get_gid() or "").startswith("order-") and b.get_hatch()}
+
+
+def test_report_figure_hatches_exactly_the_orders_the_table_fails():
+    # 30 W at 230 V: I1 = 0.1304 A. h2 at 3 % of I1 = 3.9 mA is over Table 2's 2 % but below
+    # the 5 mA under which harmonics are disregarded (IEC 61000-3-2, clause 7; memory):
+    # PASS in the table, so not hatched. h5 at 12 % is over Table 2's 10 %: FAIL, hatched.
+    from pqcalc.installation.lineup import LineupEntry, LineupState
+    from pqcalc.plots import spectrum_figure
+    from pqcalc.reporting.sections import _spectrum_fig
+
+    n, f, i1 = 4096, 50.0, 30 / 230
+    wt = 2 * np.pi * f * np.arange(n) / (n * f)
+    v = 230 * np.sqrt(2) * np.sin(wt)
+    i = i1 * np.sqrt(2) * (np.sin(wt) + 0.03 * np.sin(2 * wt) + 0.12 * np.sin(5 * wt))
+    w = Waveform(i, n * f, f, v, 1)
+    r = evaluate_fixture(w, nominal_voltage_v=230, fixture="x")
+    s = spectrum(w)
+    c2 = next(c for c in r.deciding.checks if c.order == 2)
+    assert c2.disregarded and c2.status == "pass" and c2.value > c2.limit
+    table_fails = {c.order for c in r.deciding.order_checks() if c.status == "fail"}
+    assert table_fails == {5}
+    st = LineupState("full", 180.0, w, s, r.p_w, r, limits_in_amps(r, s))
+    e = LineupEntry("x", "", "capture x.csv", "none", r.verdict, r.rule, (st,), r)
+    assert _hatched(_spectrum_fig(e)) == table_fails
+    # without the disregard rule the figure would flag h2 as well (the defect this guards)
+    lims = {h: 100 * lim / s.i1_a for h, lim in st.limits_a.items()}
+    assert _hatched(spectrum_figure(st.magnitudes_a, lims, unit="pct")) == {2, 5}
+
+
+def test_summary_of_a_120_v_lineup_is_information_only(tmp_path):
+    # IEC 61000-3-2, clause 1: no limits below 220 V line-to-neutral; the lineup line of the
+    # summary says "information only" and names no failing fixture type
+    from types import SimpleNamespace
+
+    from pqcalc.reporting.sections import _lineup_summary
+
+    from .test_lineup import led_site
+
+    entries = evaluate_lineup(load_installation(led_site(tmp_path, 120, 60)))
+    a = SimpleNamespace(installation=SimpleNamespace(supply=SimpleNamespace(voltage_ln_v=120.0)))
+    line = _lineup_summary(a, entries)
+    assert "information only" in line and "220 V" in line and "failing" not in line
 
 
 def test_lineup_entry_title_names_the_dimmer(lineup):

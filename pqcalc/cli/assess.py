@@ -152,8 +152,8 @@ def print_assessment(a, scenarios, others: bool = False) -> None:
         if cap:
             out("")
             out(f"  {'circuit':<12} {'fixture type':<26} {'count':>5} {'max by inrush':>13} "
-                f"{'max by load':>11}  (worst scenario; IEC 60898-1 band, 80 % continuous "
-                "load: common practice)")
+                f"{'max by load':>11}  (worst scenario; inrush by the breaker's pulse "
+                f"withstand, load by the {inst.supply.rules} load rule)")
             for c, f, _m in cap:
                 n = next((g.count for g in _groups(a, c) if g.fixture == f), 0)
                 worst = _worst_bounds(a, c.id, f)

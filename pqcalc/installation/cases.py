@@ -15,6 +15,7 @@ when the panel voltage sags or distorts.
 
 from __future__ import annotations
 
+import math
 from dataclasses import dataclass, replace
 from typing import Any
 
@@ -71,7 +72,7 @@ class CaseConditions:
            ) -> CaseConditions:
         cond, knob = c.setting(scenario)
         return cls(tuple((g.fixture, g.count) for g in c.groups), c.dimmer, c.dimmer_switch,
-                   cond, knob, c.dimmer_params, c.branch_r_ohm, c.branch_l_h, voltage)
+                   cond, knob, c.dimmer_params, c.loop_r_ohm, c.loop_l_h, voltage)
 
 
 @dataclass(frozen=True)
@@ -96,6 +97,9 @@ class CaseResult:
     flags: tuple[str, ...]
     groups: tuple[GroupStress, ...]
     notes: tuple[str, ...] = ()
+    #: the worst lamp's light: ``mean`` [-, 1 = full output], ``pst_lm``, ``svm`` [-]
+    #: (None for measured records and where the lamp is dark)
+    light: dict[str, float] | None = None
 
     @property
     def phasors(self) -> np.ndarray:
@@ -111,9 +115,11 @@ def _sum_cases(parts: list[CaseResult], notes: tuple[str, ...] = ()) -> CaseResu
     for p in parts:  # in order, as the reference sums were made
         cur = cur + np.tile(p.current_a, cyc // p.cycles)
     flags = tuple(dict.fromkeys(f for p in parts for f in p.flags))
+    lights = [p.light for p in parts if p.light is not None]
+    light = max(lights, key=lambda d: d.get("pst_lm") or 0.0) if lights else None
     return CaseResult(cur, cyc, sum(p.p_w for p in parts), flags,
                       tuple(g for p in parts for g in p.groups),
-                      tuple(dict.fromkeys(n for p in parts for n in p.notes + notes)))
+                      tuple(dict.fromkeys(n for p in parts for n in p.notes + notes)), light)
 
 
 class CaseSolver:
@@ -275,7 +281,62 @@ class CaseSolver:
         p = float(w.p_w) if w.p_w is not None else float("nan")
         if not np.isfinite(p):
             raise InputError(f"circuit {cid}: the solver returned no power")
-        return CaseResult(x, w.cycles, p, tuple(sol.flags), gs)
+        return CaseResult(x, w.cycles, p, tuple(sol.flags), gs, (),
+                          _worst_light(sol, inst.supply.frequency_hz))
+
+    def inrush(self, c: Circuit, scenario: int) -> tuple[Any, tuple[str, ...]]:
+        """The switch-on transient of the circuit's modelled lamps at the scenario's
+        setting, through its own loop (supply source and feeder, line and neutral, plus the
+        branch), and the fixture ids of its groups; (None, ()) without modelled lamps."""
+        from ..circuits import LoadGroup, Supply
+        from ..circuits.inrush import switch_on_transient
+
+        fx = self.inst.fixtures
+        groups = tuple((g.fixture, g.count) for g in c.groups if not fx[g.fixture].measured)
+        if not groups:
+            return None, ()
+        panel = next(p for p in self.inst.panels if p.id == c.panel)
+        z = self.inst.supply.impedance
+        r = z.r_ohm + z.neutral_r_ohm + c.loop_r_ohm
+        l_h = z.l_h + z.neutral_l_h + c.loop_l_h
+        if panel.feeder is not None:
+            zf = self.inst.feeders[panel.feeder].impedance
+            r, l_h = r + zf.r_ohm + zf.neutral_r_ohm, l_h + zf.l_h + zf.neutral_l_h
+        k = CaseConditions.of(c, scenario)
+        key = ("inrush", groups, k.dimmer, k.dimmer_switch, k.conduction_deg, k.knob,
+               k.dimmer_params, round(r, 9), round(l_h, 12))
+        hit = self.cache.get(key)
+        if hit is None:
+            sup = self.inst.supply
+            loads = [LoadGroup(model=str(fx[f].model), power_w=fx[f].power_w, count=n,
+                               params=tuple(sorted(self.rated_params(f).items())))
+                     for f, n in groups]
+            dim = None if k.dimmer == "none" else dimmer_spec(k)
+            try:
+                hit = switch_on_transient(Supply(v_rms_v=sup.voltage_ln_v,
+                                                 frequency_hz=sup.frequency_hz,
+                                                 source_r_ohm=r, source_l_h=l_h), loads, dim)
+            except (ConvergenceError, InputError) as e:
+                raise InputError(f"circuit {c.id}: the switch-on transient: {e}") from None
+            self.cache[key] = hit
+        return hit, tuple(f for f, _ in groups)
+
+
+def _worst_light(sol: Any, frequency_hz: float) -> dict[str, float] | None:
+    """The light figures of the solution's worst lamp (highest Pst_LM): mean light [-],
+    Pst_LM and SVM [-]; None when every lamp is dark."""
+    from ..light.metrics import light_metrics
+
+    worst: dict[str, float] | None = None
+    for g in sol.groups:
+        m = light_metrics(g.light, sol.period_cycles / frequency_hz, dark_below=0.02)
+        if m.pst_lm is None:
+            continue
+        d = {"mean": float(np.mean(g.light)), "pst_lm": float(m.pst_lm),
+             "svm": float(m.svm) if m.svm is not None else math.nan}
+        if worst is None or d["pst_lm"] > worst["pst_lm"]:
+            worst = d
+    return worst
 
 
 def dimmer_spec(k: CaseConditions) -> Any:

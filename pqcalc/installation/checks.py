@@ -11,14 +11,24 @@ from __future__ import annotations
 
 import math
 from collections.abc import Mapping
+from dataclasses import replace
 from typing import Any
 
 import numpy as np
 
+from ..circuits.inrush import CircuitInrush
 from ..errors import InputError
 from ..spectrum import rotate_phasors
+from ..standards.breakers import judge_pulse
+from ..standards.regions import (
+    RuleSet,
+    instantaneous_band,
+    rule_set,
+    load_figures,
+    neutral_figures,
+)
 from .cases import CaseResult
-from .model import BREAKER_CURVE_NAMES, LINE_ANGLES_DEG, Circuit, Installation, Panel
+from .model import LINE_ANGLES_DEG, Circuit, Installation, Panel
 from .results import CAUTION, Check, LineResult, NeutralResult, Status
 from .sums import NodeSum
 
@@ -26,195 +36,159 @@ __all__ = [
     "CAUTION",
     "Status",
     "Check",
-    "BREAKER_CURVES",
     "breaker_inrush",
-    "breaker_max_fixtures",
+    "breaker_load",
+    "steady_bound",
     "dimmer_load",
-    "neutral_factor_iec",
+    "dimmer_compatibility",
     "neutral_conductor",
-    "nec_neutral_note",
     "transformer_derating",
     "K_RATINGS",
     "FLAG_TEXT",
-    "breaker_load",
     "circuit_checks",
     "node_checks",
     "pcc_checks",
 ]
 
-#: IEC 60898-1 instantaneous-trip bands, multiples of the rated current In (rms).
-BREAKER_CURVES: dict[str, tuple[float, float]] = dict(zip(
-    BREAKER_CURVE_NAMES, ((3.0, 5.0), (5.0, 10.0), (10.0, 20.0)), strict=True))
-_IEC60898 = "IEC 60898-1, instantaneous tripping bands B 3-5 In, C 5-10 In, D 10-20 In"
+def _fig(f: Any, name: str | None = None, details: Mapping[str, Any] | None = None) -> Check:
+    """A figure of :mod:`pqcalc.standards.regions` as a :class:`Check`."""
+    src = f.source + (f" ({f.certainty})" if f.certainty not in ("seen", "") else "")
+    return Check(name or f.name, f.status, f.message, src,
+                 math.nan if f.value is None else float(f.value),
+                 math.nan if f.limit is None else float(f.limit), f.unit, dict(details or {}))
 
 
-def _band(curve: str) -> tuple[float, float]:
-    try:
-        return BREAKER_CURVES[curve.upper()]
-    except KeyError:
-        raise InputError(
-            f"breaker curve: expected one of {', '.join(BREAKER_CURVES)}, got {curve!r}"
-        ) from None
+def breaker_inrush(rules: RuleSet, c: Circuit, inrush: CircuitInrush | None,
+                   fixtures: tuple[str, ...] = (), unknown: tuple[str, ...] = ()
+                   ) -> tuple[list[Check], dict[str, Any]]:
+    """The circuit's switch-on pulse against its breaker's pulse withstand, and the largest
+    number of drivers of each fixture type the breaker carries on switch-on.
 
-
-def breaker_inrush(inrush_peak_a: float, rating_a: float, curve: str) -> Check:
-    """Summed inrush peak against the lower edge of the instantaneous-trip band.
-
-    The band is given as an rms current; its peak ``sqrt(2) k_min In`` is compared with the
-    inrush peak. Inrush pulses of LED drivers last a few hundred microseconds, far shorter
-    than the half cycle the band is tested with, so a breaker often holds above this figure
-    (common practice; manufacturers publish driver counts per breaker). A result above the
-    lower edge is therefore a warning, never a failure on its own.
+    Breaker makers judge LED-driver inrush by peak and width at half peak, not peak alone
+    (common practice): the allowed peak at the pulse's width is read from the breaker
+    type's pulse-withstand table (:mod:`pqcalc.standards.breakers`; the maker's table where
+    the file gives one). The lower edge of the instantaneous-trip band (the peak-only rule)
+    is reported beside it.
     """
-    k_lo, k_hi = _band(curve)
-    lo = np.sqrt(2) * k_lo * rating_a
-    hi = np.sqrt(2) * k_hi * rating_a
-    st: Status
-    if inrush_peak_a <= lo:
-        st, msg = "pass", "summed inrush peak below the instantaneous-trip band"
-    else:
-        where_ = "inside" if inrush_peak_a <= hi else "above"
-        st, msg = "warn", (
-            f"summed inrush peak {inrush_peak_a:.0f} A is {where_} the instantaneous-trip band "
-            f"({lo:.0f}-{hi:.0f} A peak): nuisance trips are possible; the pulses last well under "
-            "a millisecond, so check the breaker maker's LED-driver tables, stagger switching "
-            "or split the circuit")
-    return Check("breaker inrush", st, msg, _IEC60898, float(inrush_peak_a), float(lo), "A",
-                 {"curve": curve.upper(), "rating_a": rating_a, "band_peak_a": [lo, hi]})
+    band = instantaneous_band(rules, c.breaker_curve, c.breaker_a,
+                              None if c.breaker_pickup_x_in is None else
+                              (c.breaker_pickup_x_in, max(20.0, 2 * c.breaker_pickup_x_in)))
+    kind = c.breaker_curve.upper()
+    table = None
+    if c.breaker_pulse_table is not None:
+        table = {"width_s": list(c.breaker_pulse_table[0]), "peak_a": list(c.breaker_pulse_table[1]),
+                 "unit": "A"}
+    pickup = c.breaker_pickup_x_in if c.breaker_pickup_x_in is not None else band.k_min
+    breaker = kind if kind in ("B", "C", "D") else "UL489"
+    checks: list[Check] = []
+    per: dict[str, Any] = {}
+    if inrush is not None:
+        circ = inrush.circuit
+        j = judge_pulse(breaker, c.breaker_a, circ.peak_a, circ.width_s, table, pickup)
+        st: Status = "pass" if circ.peak_a <= j.allowed_peak_a else "fail"
+        msg = (f"switched on at {inrush.switch_deg:.0f} deg through the loop "
+               f"{1e3 * inrush.loop_r_ohm:.0f} mohm + {1e6 * inrush.loop_l_h:.0f} uH: pulse "
+               f"{circ.peak_a:.0f} A peak, {1e6 * circ.width_s:.0f} us at half peak, "
+               f"I2t {circ.i2t_a2s:.3g} A2s; {c.breaker_curve} {c.breaker_a:g} A withstands "
+               f"{j.allowed_peak_a:.0f} A at that width ({j.reading}; peak-only rule "
+               f"{band.low_peak_a:.0f} A)")
+        if st == "fail":
+            msg += ": a nuisance trip on switch-on is likely; split the circuit, stagger "\
+                   "switching or take a breaker type the makers rate for it"
+        checks.append(Check("breaker inrush", st, msg,
+                            f"{j.table}: {j.source} (certainty: {j.certainty})",
+                            float(circ.peak_a), float(j.allowed_peak_a), "A",
+                            {"width_s": circ.width_s, "i2t_a2s": circ.i2t_a2s,
+                             "instantaneous_peak_a": band.low_peak_a,
+                             "breaker": c.breaker_curve, "rating_a": c.breaker_a}))
+        for fid, g in zip(fixtures, inrush.groups, strict=True):
+            one = g.pulse_one
+            jg = judge_pulse(breaker, c.breaker_a, one.peak_a, one.width_s, table, pickup)
+            per[fid] = {"inrush_bound": jg.max_drivers, "peak_only_bound":
+                               jg.peak_only_drivers, "peak_one_a": one.peak_a,
+                               "width_s": one.width_s, "i2t_one_a2s": one.i2t_a2s}
+    if unknown:
+        checks.append(Check("breaker inrush", "info",
+                            f"inrush of {', '.join(unknown)} unknown (a steady-state record); "
+                            "the inrush figure covers the modelled fixtures only",
+                            "measured record"))
+    return checks, per
 
 
-def breaker_max_fixtures(
-    inrush_peak_per_lamp_a: float, i_rms_per_lamp_a: float, rating_a: float, curve: str,
-    continuous_factor: float = 0.8,
-) -> dict:
-    """Largest number of one fixture type a breaker carries [-].
+def breaker_load(rules: RuleSet, c: Circuit, i_rms_a: float) -> list[Check]:
+    """Steady current against the breaker by the rule set's load rule (lighting counted as a
+    continuous load: common practice), and against the conductor where its ampacity is
+    given."""
+    out = [_fig(f, "breaker load" if f.name != "conductor protection" else None)
+           for f in load_figures(rules, c.breaker_a, i_rms_a)]
+    if c.conductor_ampacity_a is not None:
+        st: Status = "pass" if i_rms_a <= c.conductor_ampacity_a else "fail"
+        out.append(Check("conductor", st, f"{i_rms_a:.2f} A against "
+                         f"{c.conductor_ampacity_a:g} A ampacity", "conductor ampacity as given",
+                         i_rms_a, c.conductor_ampacity_a, "A"))
+    return out
 
-    Two bounds: the inrush bound (lamps switched together at the voltage crest stay below
-    the lower edge of the instantaneous band, IEC 60898-1) and the steady-state bound
-    (``continuous_factor`` times the rating; 0.8 is the usual continuous-load allowance,
-    common practice and NEC 210.19/210.20 for continuous loads).
-    """
-    k_lo, _ = _band(curve)
-    lo = np.sqrt(2) * k_lo * rating_a
-    n_inrush = (int(lo // inrush_peak_per_lamp_a)
-                if np.isfinite(inrush_peak_per_lamp_a) and inrush_peak_per_lamp_a > 0 else None)
-    n_steady = int(continuous_factor * rating_a // i_rms_per_lamp_a) if i_rms_per_lamp_a > 0 else None
-    bounds = [n for n in (n_inrush, n_steady) if n is not None]
-    return {"inrush_bound": n_inrush, "steady_bound": n_steady,
-            "max_fixtures": min(bounds) if bounds else None}
+
+def steady_bound(rules: RuleSet, rating_a: float, i_rms_one_a: float) -> int | None:
+    """Largest number of one fixture type a breaker carries in steady state [-]: the rating
+    over the rule set's continuous-load factor (NEC 210.20(A): 1/1.25 = 80 %; IEC: the
+    rating itself, IB <= In)."""
+    if i_rms_one_a <= 0:
+        return None
+    k = rules.continuous_load_factor or 1.0
+    return int(math.floor(rating_a / k / i_rms_one_a * (1 + 1e-12)))  # 16 A / 0.1 A is 160
 
 
 def dimmer_load(
     led_power_w: float, rating_w: float, led_derating: float, min_load_w: float | None,
     total_power_w: float,
 ) -> Check:
-    """LED load against the dimmer's rating derated for LED loads, and its minimum load.
+    """The dimmer's load against its rating: filament (resistive) watts count at face value,
+    LED watts at ``1 / led_derating`` each (a dimmer rated for filament watts carries far
+    fewer watts of LED drivers: capacitive inrush and peak currents; common practice, take
+    the dimmer maker's LED rating where published); and the minimum load.
 
-    A phase-cut dimmer rated for filament watts carries far fewer watts of LED drivers
-    (capacitive inrush and peak currents); ``led_derating`` is the usable share of the
-    rating (common practice; take the dimmer maker's LED rating where published).
+    ``total_power_w`` is the connected load (filament + LED) [W].
     """
     if not 0 < led_derating <= 1:
         raise InputError(f"led_derating: expected a fraction in (0, 1], got {led_derating}")
-    allowed = rating_w * led_derating
-    src = "dimmer rating derated for LED load (common practice; use the maker's LED rating)"
-    if led_power_w > allowed:
-        return Check("dimmer rating", "fail",
-                     f"LED load {led_power_w:.0f} W exceeds the derated rating "
-                     f"{allowed:.0f} W ({rating_w:.0f} W x {led_derating:g})", src,
-                     float(led_power_w), float(allowed), "W")
+    resistive_w = max(total_power_w - led_power_w, 0.0)
+    equivalent = resistive_w + led_power_w / led_derating
+    src = ("dimmer rating: filament watts plus LED watts / derating (common practice; use the "
+           "maker's LED rating)")
+    what = (f"{resistive_w:.0f} W filament + {led_power_w:.0f} W LED / {led_derating:g} = "
+            f"{equivalent:.0f} W of the {rating_w:.0f} W rating")
+    if equivalent > rating_w:
+        return Check("dimmer rating", "fail", f"{what}: over the rating", src,
+                     float(equivalent), float(rating_w), "W")
     if min_load_w is not None and total_power_w < min_load_w:
         return Check("dimmer rating", "warn",
                      f"connected load {total_power_w:.1f} W is below the dimmer's minimum load "
                      f"{min_load_w:.0f} W: flicker, drop-out or glow when off are likely",
                      "dimmer minimum load (maker's data; common practice)",
                      float(total_power_w), float(min_load_w), "W")
-    return Check("dimmer rating", "pass",
-                 f"LED load {led_power_w:.0f} W within the derated rating {allowed:.0f} W", src,
-                 float(led_power_w), float(allowed), "W")
+    return Check("dimmer rating", "pass", f"{what}: within the rating", src,
+                 float(equivalent), float(rating_w), "W")
 
 
-_E52 = "IEC 60364-5-52:2009, Annex E, Table E.52.1 (4- and 5-core cables, balanced loads)"
-
-
-def neutral_factor_iec(third_harmonic_pct: float) -> tuple[float, str]:
-    """Reduction factor and the current a 4- or 5-core cable is sized on.
-
-    ``third_harmonic_pct`` is the third-harmonic content of the line current [% of the
-    line current's RMS; the reading of the table's "third harmonic content of line current"
-    as I3/I_rms is from memory]. Bands: 0-15 % factor 1.0 on the line
-    current; >15-33 % 0.86 on the line current; >33-45 % 0.86 on the neutral current;
-    >45 % 1.0 on the neutral current.
-
-    References
-    ----------
-    IEC 60364-5-52:2009, Annex E, Table E.52.1.
-
-    >>> neutral_factor_iec(15.0), neutral_factor_iec(15.01), neutral_factor_iec(45.01)
-    ((1.0, 'line'), (0.86, 'line'), (1.0, 'neutral'))
-    """
-    t = float(third_harmonic_pct)
-    if not np.isfinite(t) or t < 0:
-        raise InputError(f"third-harmonic content: expected a percentage >= 0, got {t}")
-    if t <= 15:
-        return 1.0, "line"
-    if t <= 33:
-        return 0.86, "line"
-    if t <= 45:
-        return 0.86, "neutral"
-    return 1.0, "neutral"
-
-
-def neutral_conductor(
-    third_harmonic_pct: float, line_current_a: float, neutral_current_a: float,
-    neutral_ampacity_a: float | None = None, imbalance: float = 0.0,
-) -> Check:
-    """The IEC 60364-5-52 Table E.52.1 sizing current of a 4/5-core cable and, when the
-    ampacity is known, whether the neutral (and the cable) carry it.
-
-    Sizing current: ``I_line / factor`` or ``I_neutral / factor`` by the band. The table
-    assumes balanced lines whose neutral current is the third harmonic's; where the neutral
-    actually carries more than the table's sizing current (other triplens, the 9th and 15th,
-    or unbalanced lines), the neutral current itself is the sizing current (conservative).
-    ``imbalance`` is the spread of the line currents as a fraction of the highest [-].
-    """
-    factor, basis = neutral_factor_iec(third_harmonic_pct)
-    base = line_current_a if basis == "line" else neutral_current_a
-    size_on = base / factor
-    msg = (f"third harmonic {third_harmonic_pct:.0f} % of line current: Table E.52.1 sizes "
-           f"the cable on the {basis} current with factor {factor:g}: {size_on:.1f} A")
-    details = {"factor": factor, "basis": basis, "table_sizing_a": size_on}
-    if neutral_current_a > size_on:
-        size_on = neutral_current_a
-        msg += (f"; the neutral carries {neutral_current_a:.1f} A (triplens beyond the 3rd or "
-                f"unbalanced lines), so size on that")
-        details["basis"] = "neutral (measured above the table's figure)"
-    if imbalance > 0.1:
-        msg += (f"; the lines differ by {100 * imbalance:.0f} % but the table is for balanced "
-                "loads")
-    if neutral_ampacity_a is None:
-        return Check("neutral conductor", "info", msg, _E52, float(size_on), math.nan, "A", details)
-    st: Status = "pass" if size_on <= neutral_ampacity_a else "fail"
-    msg += f"; conductor ampacity {neutral_ampacity_a:.0f} A"
-    return Check("neutral conductor", st, msg, _E52, float(size_on), float(neutral_ampacity_a),
-                 "A", details)
-
-
-def nec_neutral_note(nonlinear_share: float, system: str) -> Check | None:
-    """The NEC note: on a four-wire wye circuit whose major portion of load is non-linear,
-    the neutral counts as a current-carrying conductor (ampacity adjustment).
-
-    References
-    ----------
-    NFPA 70 (NEC) 2020/2023, 310.15(E)(3).
-    """
-    if system != "three-phase-wye" or nonlinear_share <= 0.5:
-        return None
-    return Check(
-        "NEC neutral", "info",
-        f"{100 * nonlinear_share:.0f} % of the load is non-linear: under the US NEC, on a 4-wire "
-        "wye circuit the neutral counts as a current-carrying conductor for ampacity adjustment",
-        "NFPA 70 (NEC) 2023, 310.15(E)(3)", float(nonlinear_share), 0.5, "-")
+def neutral_conductor(rules: RuleSet, system: str, lines: Mapping[str, LineResult],
+                      neutral: NeutralResult, nonlinear_share: float,
+                      ampacity_a: float | None) -> Check:
+    """The neutral by the rule set's sizing method: IEC 60364-5-52 Annex E (Table E.52.1)
+    or NEC 310.15(E) with the Table 310.15(C)(1) adjustment."""
+    worst = max(lines, key=lambda ln: lines[ln].i_rms_a)
+    max_line = lines[worst].i_rms_a
+    lo = min(r.i_rms_a for r in lines.values())
+    f = neutral_figures(rules, system=system, line_current_a=max_line,
+                        neutral_current_a=neutral.i_rms_a,
+                        third_harmonic_pct=lines[worst].i3_pct_of_rms,
+                        nonlinear_share=nonlinear_share, ampacity_a=ampacity_a)
+    c = _fig(f, "neutral conductor", {"factor": f.factor, "basis": f.basis,
+                                      "method": f.method})
+    if f.method == "iec-annex-e" and max_line > 0 and (max_line - lo) / max_line > 0.1:
+        c = replace(c, message=c.message + f"; the lines differ by "
+                    f"{100 * (max_line - lo) / max_line:.0f} % but the table is for balanced loads")
+    return c
 
 
 #: K-factor ratings offered for replacement transformers (common practice: UL-listed K-4,
@@ -286,61 +260,88 @@ FLAG_TEXT = {
     "glow-when-off": "the dimmer's own supply current lights the lamp when off",
 }
 
-#: The status a circuit-model flag gives the dimmer-compatibility check (others: warn).
-FLAG_STATUS: dict[str, Status] = {
-    "no-solution": "fail", "no-latch": "fail", "misfire": "fail", "subharmonic": "fail",
-    "re-fire": "warn", "drop-out": "warn", "glow-when-off": "warn"}
+def dimmer_compatibility(flags: tuple[str, ...], light: Mapping[str, Any] | None,
+                         dimmer: str) -> list[Check]:
+    """Whether dimmer and lamps work together, judged by what the light does.
 
-_NEC_CONTINUOUS = ("continuous load at most 80 % of the breaker rating (common practice; "
-                   "NEC 210.20(A))")
+    The light fails when the dimmer misfires or fires only every few half cycles
+    (``misfire``, ``subharmonic``) *and* that shows in the light (Pst_LM above 1, the
+    visibility threshold of IEC TR 61547-1), or when the light flickers visibly for any
+    reason; a driver that drops out or glows when off is a warning. The triac's state is
+    evidence, not the verdict: a triac that releases after each charging pulse (``no-latch``)
+    is normal for capacitive-input drivers and passes when the light is steady.
+
+    ``light`` holds the worst lamp's figures: ``mean`` [-, 1 = full output], ``pst_lm``
+    [-], ``svm`` [-] (None where the lamp is dark).
+    """
+    if dimmer == "none" and not flags:
+        return []
+    src = ("periodic steady-state circuit model of dimmer and drivers; flicker by Pst_LM "
+           "(IEC TR 61547-1, visibility threshold 1)")
+    pst = None if light is None else light.get("pst_lm")
+    mean = None if light is None else light.get("mean")
+    seen = f"light {100 * mean:.0f} % of full output" if mean is not None else "no light figure"
+    if pst is not None:
+        seen += f", Pst_LM {pst:.2f}"
+    out: list[Check] = []
+    if "no-solution" in flags:
+        return [Check("dimmer compatibility", "fail", "the circuit model found no steady "
+                      "state: " + FLAG_TEXT["no-solution"], src, details={"flag": "no-solution"})]
+    visible = pst is not None and pst > 1.0
+    firing = [f for f in flags if f in ("misfire", "subharmonic", "no-latch", "re-fire")]
+    if visible:
+        why = (", ".join(f"'{f}'" for f in firing) + " in the firing, and ") if firing else ""
+        out.append(Check("dimmer compatibility", "fail",
+                         f"{why}the light flickers visibly ({seen}): add load, a bleeder, or "
+                         "use a trailing-edge dimmer rated for these drivers", src,
+                         float(pst), 1.0, "-", {"flag": firing[0] if firing else "flicker"}))
+    elif firing:
+        out.append(Check("dimmer compatibility", "info",
+                         f"the circuit model reports {', '.join(repr(f) for f in firing)} "
+                         f"(the triac's state), but the light is steady ({seen}): normal for "
+                         "capacitive-input drivers", src,
+                         math.nan if pst is None else float(pst), 1.0, "-",
+                         {"flag": firing[0]}))
+    for fl in flags:
+        if fl in ("drop-out", "glow-when-off", "asymmetric"):
+            out.append(Check("dimmer compatibility", "warn",
+                             f"the circuit model reports '{fl}' at this setting: "
+                             + FLAG_TEXT[fl], src, details={"flag": fl}))
+    return out
 
 
-def breaker_load(i_rms_a: float, rating_a: float) -> Check:
-    """Steady current against the breaker rating and the 80 % continuous-load allowance."""
-    if i_rms_a > rating_a:
-        return Check("breaker load", "fail", f"{i_rms_a:.2f} A exceeds the {rating_a:g} A "
-                     "rating", _NEC_CONTINUOUS, i_rms_a, rating_a, "A")
-    if i_rms_a > 0.8 * rating_a:
-        return Check("breaker load", "warn", f"{i_rms_a:.2f} A is over 80 % of the "
-                     f"{rating_a:g} A rating", _NEC_CONTINUOUS, i_rms_a, 0.8 * rating_a, "A")
-    return Check("breaker load", "pass", f"{i_rms_a:.2f} A within 80 % of {rating_a:g} A",
-                 _NEC_CONTINUOUS, i_rms_a, 0.8 * rating_a, "A")
-
-
-def circuit_checks(inst: Installation, c: Circuit, cs: CaseResult, i_rms_a: float
+def circuit_checks(inst: Installation, rules: RuleSet, c: Circuit, cs: CaseResult,
+                   i_rms_a: float, inrush: CircuitInrush | None,
+                   inrush_fixtures: tuple[str, ...]
                    ) -> tuple[tuple[Check, ...], float, dict[str, dict[str, Any]]]:
-    """The checks of one circuit at one scenario, its summed inrush peak [A] and the
-    largest number of each fixture type its breaker carries."""
-    inrush = sum(g.count * g.inrush_peak_one_a for g in cs.groups
-                 if np.isfinite(g.inrush_peak_one_a))
-    checks = [breaker_inrush(inrush, c.breaker_a, c.breaker_curve)]
-    unknown = [g.fixture for g in cs.groups if not np.isfinite(g.inrush_peak_one_a)]
-    if unknown:
-        checks.append(Check("breaker inrush", "info",
-                            f"inrush of {', '.join(unknown)} unknown (a steady-state record); "
-                            "the inrush figure covers the modelled fixtures only",
-                            "measured record"))
-    checks.append(breaker_load(i_rms_a, c.breaker_a))
-    if c.conductor_ampacity_a is not None:
-        st: Status = "pass" if i_rms_a <= c.conductor_ampacity_a else "fail"
-        checks.append(Check("conductor", st, f"{i_rms_a:.2f} A against "
-                            f"{c.conductor_ampacity_a:g} A ampacity", "conductor ampacity as given",
-                            i_rms_a, c.conductor_ampacity_a, "A"))
+    """The checks of one circuit at one scenario, its inrush peak [A] and the largest
+    number of each fixture type its breaker carries (by inrush and by steady load)."""
+    unknown = tuple(g.fixture for g in cs.groups if inst.fixtures[g.fixture].measured)
+    checks, per = breaker_inrush(rules, c, inrush, inrush_fixtures, unknown)
+    checks += breaker_load(rules, c, i_rms_a)
     fx = inst.fixtures
     if c.dimmer != "none" and c.dimmer_rating_w is not None:
         led_w = sum(g.count * fx[g.fixture].power_w for g in cs.groups if fx[g.fixture].nonlinear)
         connected_w = sum(g.count * fx[g.fixture].power_w for g in cs.groups)
         checks.append(dimmer_load(led_w, c.dimmer_rating_w, c.led_derating,
                                   c.dimmer_min_load_w, connected_w))
-    for fl in cs.flags:
-        checks.append(Check("dimmer compatibility", FLAG_STATUS.get(fl, "warn"),
-                            f"the circuit model reports '{fl}' at this setting: "
-                            + FLAG_TEXT.get(fl, "see the lamp model"),
-                            "periodic steady-state circuit model of dimmer and drivers",
-                            details={"flag": fl}))
-    mx = {g.fixture: breaker_max_fixtures(g.inrush_peak_one_a, g.i_rms_one_a, c.breaker_a,
-                                          c.breaker_curve) for g in cs.groups}
-    return tuple(checks), float(inrush), mx
+    checks += dimmer_compatibility(cs.flags, cs.light, c.dimmer)
+    mx = {}
+    for g in cs.groups:
+        p = per.get(g.fixture, {})
+        mx[g.fixture] = {"inrush_bound": p.get("inrush_bound"),
+                         "peak_only_bound": p.get("peak_only_bound"),
+                         "steady_bound": steady_bound(rules, c.breaker_a, g.i_rms_one_a)}
+        bounds = [x for x in (mx[g.fixture]["inrush_bound"], mx[g.fixture]["steady_bound"])
+                  if x is not None]
+        mx[g.fixture]["max_fixtures"] = min(bounds) if bounds else None
+    peak = inrush.circuit.peak_a if inrush is not None else math.nan
+    return tuple(checks), float(peak), mx
+
+
+def rules_of(inst: Installation) -> RuleSet:
+    """The installation's regional rule set."""
+    return rule_set(inst.supply.rules)
 
 
 def node_checks(inst: Installation, kind: str, lines: Mapping[str, LineResult],
@@ -363,12 +364,9 @@ def node_checks(inst: Installation, kind: str, lines: Mapping[str, LineResult],
             "periodic steady-state circuit model", float(len(left_out)), 0.0, "circuits",
             {"flag": "no-solution", "left_out": list(left_out)}))
     if kind == "panel" and neutral is not None and max_line > 0:
-        if sup.system == "three-phase-wye":
-            lo = min(r.i_rms_a for r in lines.values())
-            checks.append(neutral_conductor(lines[worst].i3_pct_of_rms, max_line,
-                                            neutral.i_rms_a,
-                                            panel.neutral_ampacity_a if panel else None,
-                                            (max_line - lo) / max_line))
+        checks.append(neutral_conductor(rules_of(inst), sup.system, lines, neutral,
+                                        inst.nonlinear_share(),
+                                        panel.neutral_ampacity_a if panel else None))
         if neutral.ratio_to_max_line > 1:
             checks.append(Check("neutral current", "warn",
                                 f"the neutral carries {neutral.ratio_to_max_line:.2f} times "

@@ -156,7 +156,7 @@ def circuit_rows(assessment: Assessment) -> list[dict]:
                 "conduction_deg": c.setting_deg, "knob": c.knob,
                 "i_rms_a": c.i_rms_a, "i1_rms_a": c.i1_a, "i_peak_a": c.i_peak_a,
                 "thd_i_pct": _pct(c.thd_i), "p_w": c.p_w, "pf": c.pf, "dpf": c.dpf,
-                "inrush_peak_a": c.inrush_peak_a,
+                "inrush_peak_a": _finite(c.inrush_peak_a),
                 "checks_failed": st.count("fail"), "checks_warned": st.count("warn"),
                 "flags": ";".join(c.flags),
             })

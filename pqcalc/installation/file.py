@@ -7,7 +7,8 @@ repeated here: a field left out takes the default declared on its dataclass in
 File layout (see ``demo_installations/harbour_school.toml`` for a commented example)::
 
     [project]      name, site, engineer, date, notes
-    [supply]       system, voltage_ln_v, frequency_hz, and one of: source_r_ohm/source_l_h,
+    [supply]       system, voltage_ln_v, frequency_hz, rules ("IEC" | "US"; default from the
+                   supply), and one of: source_r_ohm/source_l_h,
                    [supply.transformer] kva/impedance_pct/x_over_r, short_circuit_a/x_over_r
     [fixtures.ID]  model + power_w (+ [fixtures.ID.params]) | capture (+ capture options);
                    dimming range, description
@@ -16,11 +17,17 @@ File layout (see ``demo_installations/harbour_school.toml`` for a commented exam
     [[panels.circuits]]  id, line, breaker_a, breaker_curve, dimmer, conduction_deg
                    (a number or a list: one per scenario) or knob, dimmer_switch (triac |
                    transistor, leading edge), dimmer_rating_w, led_derating,
-                   dimmer_min_load_w, dimmer_params, fixtures = [{type, count}, ...]
+                   dimmer_min_load_w, dimmer_params, fixtures = [{type, count}, ...],
+                   cable = {length_m, size_mm2 | awg, material, temperature_c},
+                   breaker_pickup_x_in, breaker_pulse_table = {width_s = [...], peak_a = [...]}
     [analysis]     supply_interaction, scenarios (names), max_iterations, tolerance
     [diversity]    mode = "none" | "summation" | "monte-carlo", draws, low_deg, high_deg,
                    step_deg, seed
     [pcc]          demand_current_a, short_circuit_a, voltage_kv, ieee519_edition
+    [compliance]   strict_dimmed (dimmed states behind independent dimmers pass/fail)
+
+A fixture type's ``builtin_dimming = true`` says the equipment dims itself: its dimmed
+states are then part of its IEC 61000-3-2 verdict.
 """
 
 from __future__ import annotations
@@ -33,13 +40,13 @@ from ..io.capture import CsvOptions
 from ..io.installation_file import Fields, read_toml
 from .interaction import from_short_circuit, from_transformer
 from .model import (
-    BREAKER_CURVE_NAMES,
     DIMMER_KINDS,
     DIVERSITY_MODES,
     SWITCH_KINDS,
     SYSTEMS,
     AnalysisOptions,
     Circuit,
+    ComplianceOptions,
     Diversity,
     Feeder,
     FixtureGroup,
@@ -57,7 +64,8 @@ from .model import (
 
 __all__ = ["load_installation"]
 
-_TOP = {"project", "supply", "fixtures", "panels", "feeders", "analysis", "diversity", "pcc"}
+_TOP = {"project", "supply", "fixtures", "panels", "feeders", "analysis", "diversity", "pcc",
+        "compliance"}
 
 
 def _params(fld: Fields, d: dict, field_: str) -> tuple[tuple[str, float], ...]:
@@ -73,7 +81,7 @@ def _supply(fld: Fields, data: dict) -> SupplySpec:
     d = fld.table(data, "supply", "supply")
     fld.unknown(d, {"system", "voltage_ln_v", "frequency_hz", "source_r_ohm", "source_l_h",
                     "short_circuit_a", "x_over_r", "transformer", "neutral_r_ohm",
-                    "neutral_l_h"}, "supply")
+                    "neutral_l_h", "rules"}, "supply")
     system = fld.str_(d, "system", "supply.system", choices=SYSTEMS)
     v = fld.num(d, "voltage_ln_v", "supply.voltage_ln_v", lo=90.0, hi=300.0)
     f = fld.num(d, "frequency_hz", "supply.frequency_hz", lo=45.0, hi=65.0)
@@ -106,7 +114,23 @@ def _supply(fld: Fields, data: dict) -> SupplySpec:
     z = SourceImpedance(z.r_ohm, z.l_h,
                         fld.num(d, "neutral_r_ohm", "supply.neutral_r_ohm", 0.0, nonneg=True),
                         fld.num(d, "neutral_l_h", "supply.neutral_l_h", 0.0, nonneg=True))
-    return SupplySpec(system, v, f, z, kva, eddy, basis)
+    return SupplySpec(system, v, f, z, kva, eddy, basis, _rules(fld, d, system, v, f))
+
+
+def _rules(fld: Fields, d: dict, system: str, v_ln: float, f: float) -> str:
+    """The regional rule set: named in the file, or the default for the supply (230/400 V
+    50 Hz -> IEC; 120/208/277/480 V 60 Hz -> US; any other 50 Hz supply -> IEC)."""
+    from ..standards.regions import default_rule_set, known_rule_sets
+
+    if "rules" in d:
+        return str(fld.str_(d, "rules", "supply.rules", choices=known_rule_sets()))
+    try:
+        return default_rule_set(v_ln, f).name
+    except InputError:
+        if abs(f - 50.0) < 0.5:
+            return "IEC"
+        raise fld.error("supply.rules", "a regional rule set for this supply (no default for "
+                        f"{v_ln:g} V {f:g} Hz): one of " + ", ".join(known_rule_sets())) from None
 
 
 def _model_ids() -> tuple[str, ...]:
@@ -117,7 +141,7 @@ def _model_ids() -> tuple[str, ...]:
 
 _FIXTURE_FIELDS = {"model", "power_w", "params", "capture", "current_col", "voltage_col",
                    "time_col", "sample_rate_hz", "current_scale", "voltage_scale",
-                   "min_conduction_deg", "max_conduction_deg", "description"}
+                   "min_conduction_deg", "max_conduction_deg", "description", "builtin_dimming"}
 
 
 def _fixtures(fld: Fields, data: dict, base: Path) -> dict[str, FixtureType]:
@@ -139,12 +163,16 @@ def _fixtures(fld: Fields, data: dict, base: Path) -> dict[str, FixtureType]:
         if lo >= hi:
             raise fld.error(f"{path}.min_conduction_deg", f"less than max_conduction_deg ({hi:g})", lo)
         desc = fld.str_(t, "description", f"{path}.description", "")
+        builtin = t.get("builtin_dimming", default_of(ModelledFixture, "builtin_dimming"))
+        if not isinstance(builtin, bool):
+            raise fld.error(f"{path}.builtin_dimming", "true or false", builtin)
         if "model" in t:
             power = fld.num(t, "power_w", f"{path}.power_w", positive=True)
             model = fld.str_(t, "model", f"{path}.model", choices=_model_ids())
             params = _params(fld, fld.table(t, "params", f"{path}.params", required=False),
                              f"{path}.params")
-            out[fid] = ModelledFixture(fid, power, lo, hi, desc, model, params)
+            out[fid] = ModelledFixture(fid, power, lo, hi, desc, model, params,
+                                       builtin_dimming=builtin)
         else:
             power = fld.num(t, "power_w", f"{path}.power_w", 0.0, nonneg=True)
             cap = fld.str_(t, "capture", f"{path}.capture")
@@ -158,7 +186,8 @@ def _fixtures(fld: Fields, data: dict, base: Path) -> dict[str, FixtureType]:
                 current_scale=fld.num(t, "current_scale", f"{path}.current_scale", 1.0, positive=True),
                 voltage_scale=fld.num(t, "voltage_scale", f"{path}.voltage_scale", 1.0, positive=True),
             )
-            out[fid] = MeasuredFixture(fid, power, lo, hi, desc, str(cp), opts)
+            out[fid] = MeasuredFixture(fid, power, lo, hi, desc, str(cp), opts,
+                                       builtin_dimming=builtin)
     return out
 
 
@@ -182,11 +211,64 @@ def _angles(fld: Fields, c: dict, key: str, path: str, lo: float, hi: float
 _CIRCUIT_FIELDS = {"id", "line", "breaker_a", "breaker_curve", "dimmer", "conduction_deg",
                    "knob", "dimmer_rating_w", "led_derating", "dimmer_min_load_w",
                    "dimmer_params", "dimmer_switch", "fixtures", "branch_r_ohm", "branch_l_h",
-                   "conductor_ampacity_a", "description"}
+                   "conductor_ampacity_a", "description", "cable", "breaker_pickup_x_in",
+                   "breaker_pulse_table"}
+
+
+def _cable(fld: Fields, c: dict, path: str) -> tuple[float, float, str]:
+    """A circuit's branch cable: loop R [ohm] and L [H] from length, size (mm2 or AWG) and
+    material; (0, 0, "") without one."""
+    from ..circuits.inrush import cable_impedance
+
+    t = fld.table(c, "cable", f"{path}.cable", required=False)
+    if not t:
+        return 0.0, 0.0, ""
+    cp = f"{path}.cable"
+    fld.unknown(t, {"length_m", "size_mm2", "awg", "material", "temperature_c"}, cp)
+    length = fld.num(t, "length_m", f"{cp}.length_m", lo=0.1, hi=10_000.0)
+    if ("size_mm2" in t) == ("awg" in t):
+        raise fld.error(cp, "one conductor size: size_mm2 = ... or awg = ...")
+    size = fld.num(t, "size_mm2", f"{cp}.size_mm2", None, lo=0.5, hi=1000.0)
+    awg = t.get("awg")
+    if awg is not None and not isinstance(awg, (int, str)) or isinstance(awg, bool):
+        raise fld.error(f"{cp}.awg", "an AWG size such as 14, 12, 10 or \"1/0\"", awg)
+    material = fld.str_(t, "material", f"{cp}.material", "copper",
+                        choices=("copper", "aluminium"))
+    # 20 C: a cold circuit being switched on (the lowest resistance, the largest inrush)
+    temp = fld.num(t, "temperature_c", f"{cp}.temperature_c", 20.0, lo=-40.0, hi=250.0)
+    try:
+        z = cable_impedance(length, size_mm2=size, awg=awg, material=material,
+                            temperature_c=temp)
+    except InputError as e:
+        raise fld.error(cp, f"a cable pqcalc can compute ({e})") from None
+    what = (f"{length:g} m {material} " + (f"{size:g} mm2" if size is not None else f"AWG {awg}")
+            + f" at {temp:g} C")
+    return float(z.r_ohm), float(z.l_h), what
+
+
+def _pulse_table(fld: Fields, c: dict, path: str
+                 ) -> tuple[tuple[float, ...], tuple[float, ...]] | None:
+    """The maker's pulse-withstand table of a circuit's breaker, validated (widths rising,
+    allowed peaks not rising)."""
+    from ..standards.breakers import table_from_data
+
+    t = fld.table(c, "breaker_pulse_table", f"{path}.breaker_pulse_table", required=False)
+    if not t:
+        return None
+    tp = f"{path}.breaker_pulse_table"
+    fld.unknown(t, {"width_s", "peak_a"}, tp)
+    try:
+        tab = table_from_data({**t, "unit": "A"}, "", "maker's table")
+    except InputError as e:
+        ln = fld.line(tp)
+        raise InputError(f"{fld.path}:{ln}: {tp}.{e}" if ln else f"{fld.path}: {tp}.{e}") from None
+    return tuple(tab.width_s), tuple(tab.peaks)
 
 
 def _circuit(fld: Fields, c: Any, path: str, panel: str, supply: SupplySpec,
              fixtures: dict[str, FixtureType]) -> Circuit:
+    from ..standards.regions import rule_set
+
     if not isinstance(c, dict):
         raise fld.error(path, "a table of circuit fields", c)
     if "phase" in c:
@@ -225,11 +307,17 @@ def _circuit(fld: Fields, c: Any, path: str, panel: str, supply: SupplySpec,
         groups.append(FixtureGroup(ftype, fld.count(g, "count", f"{gp}.count")))
     dp = _params(fld, fld.table(c, "dimmer_params", f"{path}.dimmer_params", required=False),
                  f"{path}.dimmer_params")
+    rules = rule_set(supply.rules)
+    curve = fld.str_(c, "breaker_curve", f"{path}.breaker_curve", rules.default_breaker,
+                     choices=rules.breaker_type_names)
+    cable_r, cable_l, cable = _cable(fld, c, path)
     return Circuit(
         id=cid, panel=panel, line=line, groups=tuple(groups),
         breaker_a=fld.num(c, "breaker_a", f"{path}.breaker_a", dflt("breaker_a"), positive=True),
-        breaker_curve=fld.str_(c, "breaker_curve", f"{path}.breaker_curve", dflt("breaker_curve"),
-                               choices=BREAKER_CURVE_NAMES),
+        breaker_curve=curve,
+        breaker_pickup_x_in=fld.num(c, "breaker_pickup_x_in", f"{path}.breaker_pickup_x_in",
+                                    None, lo=1.01, hi=100.0),
+        breaker_pulse_table=_pulse_table(fld, c, path),
         dimmer=dimmer,
         conduction_deg=cond if cond is not None else dflt("conduction_deg"),
         knob=knob,
@@ -245,6 +333,7 @@ def _circuit(fld: Fields, c: Any, path: str, panel: str, supply: SupplySpec,
         branch_r_ohm=fld.num(c, "branch_r_ohm", f"{path}.branch_r_ohm", dflt("branch_r_ohm"),
                              nonneg=True),
         branch_l_h=fld.num(c, "branch_l_h", f"{path}.branch_l_h", dflt("branch_l_h"), nonneg=True),
+        cable_r_ohm=cable_r, cable_l_h=cable_l, cable=cable,
         conductor_ampacity_a=fld.num(c, "conductor_ampacity_a", f"{path}.conductor_ampacity_a",
                                      dflt("conductor_ampacity_a"), positive=True),
     )
@@ -373,6 +462,15 @@ def _pcc(fld: Fields, data: dict) -> PccSpec:
         cast(Edition, ed))
 
 
+def _compliance(fld: Fields, data: dict) -> ComplianceOptions:
+    cp = fld.table(data, "compliance", "compliance", required=False)
+    fld.unknown(cp, {"strict_dimmed"}, "compliance")
+    strict = cp.get("strict_dimmed", default_of(ComplianceOptions, "strict_dimmed"))
+    if not isinstance(strict, bool):
+        raise fld.error("compliance.strict_dimmed", "true or false", strict)
+    return ComplianceOptions(strict)
+
+
 def load_installation(path: str | Path) -> Installation:
     """Read and validate an installation file; every error names file, line and field."""
     p = Path(path)
@@ -387,4 +485,4 @@ def load_installation(path: str | Path) -> Installation:
     panels = _panels(fld, data, supply, fixtures, feeders)
     analysis = _analysis(fld, data, _n_scenarios(p, panels))
     return Installation(project, supply, fixtures, panels, feeders, _diversity(fld, data),
-                        analysis, _pcc(fld, data), str(p))
+                        analysis, _pcc(fld, data), str(p), compliance=_compliance(fld, data))

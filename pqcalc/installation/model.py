@@ -23,10 +23,10 @@ from ..standards.ieee519 import Edition
 
 __all__ = [
     "System", "SYSTEMS", "LINE_ANGLES_DEG", "DimmerKind", "DIMMER_KINDS", "SwitchKind",
-    "SWITCH_KINDS", "BreakerCurve", "BREAKER_CURVE_NAMES", "DiversityMode", "DIVERSITY_MODES",
+    "SWITCH_KINDS", "DiversityMode", "DIVERSITY_MODES",
     "Project", "SourceImpedance", "SupplySpec", "ModelledFixture", "MeasuredFixture",
     "FixtureType", "FixtureGroup", "Circuit", "Panel", "Feeder", "Diversity",
-    "AnalysisOptions", "PccSpec", "Installation", "default_of",
+    "AnalysisOptions", "PccSpec", "ComplianceOptions", "Installation", "default_of",
 ]
 
 System = Literal["single-phase", "split-phase", "three-phase-wye"]
@@ -38,9 +38,6 @@ LINE_ANGLES_DEG: dict[str, dict[str, float]] = {
     "three-phase-wye": {"L1": 0.0, "L2": -120.0, "L3": 120.0},
 }
 SYSTEMS: tuple[str, ...] = get_args(System)
-
-BreakerCurve = Literal["B", "C", "D"]
-BREAKER_CURVE_NAMES: tuple[str, ...] = get_args(BreakerCurve)
 
 DiversityMode = Literal["none", "summation", "monte-carlo"]
 DIVERSITY_MODES: tuple[str, ...] = get_args(DiversityMode)
@@ -117,6 +114,8 @@ class SupplySpec:
     #: rated winding eddy-current loss P_EC-R [pu] (typical of a dry-type unit, from memory)
     eddy_loss_pu: float = 0.1
     impedance_basis: str = "direct"
+    #: the regional rule set (``"IEC"`` or ``"US"``; :mod:`pqcalc.standards.regions`)
+    rules: str = "IEC"
 
     @property
     def lines(self) -> tuple[str, ...]:
@@ -141,6 +140,10 @@ class _Fixture:
     min_conduction_deg: float = 30.0
     max_conduction_deg: float = 180.0
     description: str = ""
+    #: the equipment dims itself (built-in dimming): its dimmed states are part of its
+    #: IEC 61000-3-2 verdict; False: dimmed by an independent dimmer, dimmed states
+    #: informative (pqcalc.standards.iec61000_3_2.evaluate_dimmable)
+    builtin_dimming: bool = field(default=False, kw_only=True)
 
 
 @dataclass(frozen=True)
@@ -193,7 +196,13 @@ class Circuit:
     line: str
     groups: tuple[FixtureGroup, ...]
     breaker_a: float = 16.0
-    breaker_curve: str = "B"
+    #: breaker type of the rule set (IEC: B, C, D; US: TM, B, C, D); "" = the set's default
+    breaker_curve: str = ""
+    #: the maker's instantaneous pickup [x In] (needed for a US thermal-magnetic breaker's
+    #: pulse withstand; overrides the rule set's band where given)
+    breaker_pickup_x_in: float | None = None
+    #: the maker's pulse-withstand table: (widths at half peak [s], allowed peaks [A])
+    breaker_pulse_table: tuple[tuple[float, ...], tuple[float, ...]] | None = None
     dimmer: str = "none"
     #: dimmer settings as conduction angles [deg], one per scenario (or one for all)
     conduction_deg: tuple[float, ...] = (180.0,)
@@ -205,8 +214,13 @@ class Circuit:
     dimmer_min_load_w: float | None = None
     dimmer_params: tuple[tuple[str, float], ...] = ()
     dimmer_switch: str = "triac"
+    #: branch impedance given directly, loop (line + neutral) [ohm], [H]
     branch_r_ohm: float = 0.0
     branch_l_h: float = 0.0
+    #: the branch cable's loop impedance from its length, size and material [ohm], [H]
+    cable_r_ohm: float = 0.0
+    cable_l_h: float = 0.0
+    cable: str = ""
     conductor_ampacity_a: float | None = None
 
     def setting(self, scenario: int) -> tuple[float | None, float | None]:
@@ -216,6 +230,16 @@ class Circuit:
             return None, k
         c = self.conduction_deg[scenario] if len(self.conduction_deg) > 1 else self.conduction_deg[0]
         return c, None
+
+    @property
+    def loop_r_ohm(self) -> float:
+        """The branch's loop resistance: given plus cable [ohm]."""
+        return self.branch_r_ohm + self.cable_r_ohm
+
+    @property
+    def loop_l_h(self) -> float:
+        """The branch's loop inductance: given plus cable [H]."""
+        return self.branch_l_h + self.cable_l_h
 
     @property
     def n_settings(self) -> int:
@@ -285,6 +309,14 @@ class PccSpec:
 
 
 @dataclass(frozen=True)
+class ComplianceOptions:
+    """How the fixture lineup is judged: ``strict_dimmed`` holds the dimmed states behind
+    independent dimmers to pass/fail (an owner's requirement beyond IEC 61000-3-2)."""
+
+    strict_dimmed: bool = False
+
+
+@dataclass(frozen=True)
 class Installation:
     project: Project
     supply: SupplySpec
@@ -295,6 +327,7 @@ class Installation:
     analysis: AnalysisOptions = AnalysisOptions()
     pcc: PccSpec = PccSpec()
     path: str = ""
+    compliance: ComplianceOptions = field(default=ComplianceOptions(), kw_only=True)
 
     @property
     def circuits(self) -> tuple[Circuit, ...]:

@@ -64,7 +64,8 @@ class CircuitResult:
             "setting_deg": self.setting_deg, "knob": self.knob,
             "i_rms_a": self.i_rms_a, "i1_rms_a": self.i1_a, "i_peak_a": self.i_peak_a,
             "thd_i_pct": 100 * self.thd_i, "p_w": self.p_w, "pf": self.pf, "dpf": self.dpf,
-            "inrush_peak_a": self.inrush_peak_a, "flags": list(self.flags),
+            "inrush_peak_a": (self.inrush_peak_a if np.isfinite(self.inrush_peak_a) else None),
+            "flags": list(self.flags),
             "checks": [c.to_dict() for c in self.checks],
             "max_fixtures_per_breaker": self.max_fixtures, "notes": list(self.notes),
         }

@@ -13,7 +13,7 @@ import numpy as np
 
 from ..metrics import harmonic_loss_factor, k_factor, thd
 from .cases import CaseResult, CaseSolver, PanelVoltage
-from .checks import circuit_checks, nec_neutral_note, node_checks, pcc_checks
+from .checks import circuit_checks, node_checks, pcc_checks, rules_of
 from .interaction import fixed_point, ideal_voltage, node_voltages, own_frame
 from .model import Circuit, Installation, Panel
 from .results import Check, CircuitResult, NodeResult, ScenarioResult
@@ -39,8 +39,8 @@ def solve_pass(inst: Installation, solver: CaseSolver, scenario: int,
                                           for k, v in cases.items()})
 
 
-def _circuit_result(inst: Installation, c: Circuit, cs: CaseResult, scenario: int,
-                    v: PanelVoltage | None,
+def _circuit_result(inst: Installation, solver: CaseSolver, c: Circuit, cs: CaseResult,
+                    scenario: int, v: PanelVoltage | None,
                     memo: dict[tuple[int, PanelVoltage | None], tuple]) -> CircuitResult:
     key = (id(cs), v)
     hit = memo.get(key)
@@ -58,9 +58,10 @@ def _circuit_result(inst: Installation, c: Circuit, cs: CaseResult, scenario: in
         memo[key] = hit
     m, i_rms, i1, i_peak, thd_i, pf, dpf = hit
     cond, knob = c.setting(scenario)
-    checks, inrush, mx = circuit_checks(inst, c, cs, i_rms)
+    inrush, fixtures = solver.inrush(c, scenario)
+    checks, peak, mx = circuit_checks(inst, rules_of(inst), c, cs, i_rms, inrush, fixtures)
     return CircuitResult(c.id, c.panel, c.line, cond if c.dimmer != "none" else None, knob,
-                         i_rms, i1, i_peak, thd_i, cs.p_w, pf, dpf, inrush,
+                         i_rms, i1, i_peak, thd_i, cs.p_w, pf, dpf, peak,
                          cs.flags, checks, mx, cs.notes, m)
 
 
@@ -84,7 +85,8 @@ def _node_result(inst: Installation, name: str, kind: str, node: NodeSum, cycles
                       left_out)
 
 
-def _assemble(inst: Installation, scenario: int, cases: dict[str, CaseResult],
+def _assemble(inst: Installation, solver: CaseSolver, scenario: int,
+              cases: dict[str, CaseResult],
               sums: InstallationSums, iterations: int, interacting: bool) -> ScenarioResult:
     """Results of one pass. Every node's voltage (panels, feeder ends, the service) is the
     supply's EMF less the drops its currents make over the source and feeder impedances,
@@ -98,7 +100,7 @@ def _assemble(inst: Installation, scenario: int, cases: dict[str, CaseResult],
         for c in p.circuits:
             v = (own_frame(inst, c.line, vmap[("panel", p.id, c.line)])
                  if interacting and vmap else None)
-            circuits.append(_circuit_result(inst, c, cases[c.id], scenario, v, memo))
+            circuits.append(_circuit_result(inst, solver, c, cases[c.id], scenario, v, memo))
     # circuits without a solution are missing from the totals of every node above them
     gone = {p.id: tuple(c.id for c in p.circuits if "no-solution" in cases[c.id].flags)
             for p in inst.panels}
@@ -109,11 +111,7 @@ def _assemble(inst: Installation, scenario: int, cases: dict[str, CaseResult],
                  for f in inst.feeders)
     tres = _node_result(inst, "service", "transformer", sums.total, cyc, vmap, None,
                         tuple(x for p in inst.panels for x in gone[p.id]))
-    extra: list[Check] = []
-    note = nec_neutral_note(inst.nonlinear_share(), inst.supply.system)
-    if note is not None:
-        extra.append(note)
-    extra.extend(pcc_checks(inst, sums.total, cyc))
+    extra: list[Check] = list(pcc_checks(inst, sums.total, cyc))
     return ScenarioResult(inst.scenario_name(scenario), tuple(circuits), pres, fres, tres,
                           iterations, None, tuple(extra))
 
@@ -123,11 +121,11 @@ def evaluate_scenario(inst: Installation, solver: CaseSolver, scenario: int,
     """Solve, sum and check one scenario; with supply interaction, the ideal-supply result
     is kept as ``ideal``."""
     cases, sums = solve_pass(inst, solver, scenario, None, progress)
-    ideal = _assemble(inst, scenario, cases, sums, 0, False)
+    ideal = _assemble(inst, solver, scenario, cases, sums, 0, False)
     if not (inst.analysis.supply_interaction and inst.has_source_impedance):
         return ideal
     fp = fixed_point(inst, lambda at: solve_pass(inst, solver, scenario, at), cases, sums)
-    res = _assemble(inst, scenario, fp.cases, fp.sums, fp.iterations, True)
+    res = _assemble(inst, solver, scenario, fp.cases, fp.sums, fp.iterations, True)
     extra = res.checks
     opts = inst.analysis
     if fp.change >= opts.tolerance:
