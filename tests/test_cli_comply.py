@@ -38,21 +38,32 @@ def run(*args):
 
 
 def test_lamp_above_25_w_passes_table_2(tmp_path):
-    # 30 W at 230 V: I1 = 30/230 A; h3 20 % -> lambda = 1/sqrt(1.04) = 0.9806 and the h3
-    # limit 30 x 0.9806 = 29.4 % (IEC 61000-3-2, Table 2)
+    # 30 W at 230 V: I1 = 30/230 A; h3 20 % -> lambda = 1/sqrt(1.04) = 0.9806; the h3 limit
+    # is 27 % in the default edition 5.1 (Table 2 as amended by AMD1:2020; secondary) and
+    # 30 x 0.9806 = 29.4 % in edition 5.0 (IEC 61000-3-2:2018, Table 2)
     cap = write_capture(tmp_path / "lamp30.csv", 230.0, 30 / 230, {3: 0.20, 5: 0.05})
     r = run(cap, "--json")
     assert r.exit_code == 0, r.output
     d = json.loads(r.output)
     res = d["results"][0]
     assert res["verdict"] == "pass" and res["rule"].startswith("class C")
-    assert res["fixture"] == "lamp30" and res["setting"] == ""
+    assert res["fixture"] == "lamp30" and res["state"] == ""
+    assert d["edition"] == "5.1" and res["role"] == "verdict"
     assert res["p_w"] == pytest.approx(30.0, rel=1e-3)  # P = V I1; resampling error < 0.1 %
     assert res["pf"] == pytest.approx(1 / np.sqrt(1 + 0.04 + 0.0025), rel=1e-3)
     o3 = next(o for o in res["orders"] if o["order"] == 3)
     assert set(o3) >= {"order", "value", "limit", "unit"} and o3["unit"] == "% of I1"
     assert o3["value"] == pytest.approx(20.0, rel=1e-3)
-    assert o3["limit"] == pytest.approx(30 * res["pf"], rel=1e-9)
+    assert o3["limit"] == pytest.approx(27.0, rel=1e-9)
+    # one margin: relative to the limit, in percent ((27 - 20) / 27), beside the margin in
+    # the limit's unit (7 percentage points)
+    assert o3["margin_pct"] == pytest.approx(100 * (27 - 20) / 27, rel=1e-3)
+    assert o3["margin"] == pytest.approx(7.0, rel=1e-3)
+    d5 = json.loads(run(cap, "--json", "--edition", "5.0").output)
+    o3 = next(o for o in d5["results"][0]["orders"] if o["order"] == 3)
+    assert d5["edition"] == "5.0" and o3["limit"] == pytest.approx(30 * res["pf"], rel=1e-9)
+    text = run(cap).output
+    assert "margin [% of limit]" in text and "+25.9" in text  # (27 - 20) / 27 = 25.9 %
 
 
 def test_lamp_above_25_w_fails_and_prints_the_table(tmp_path):
@@ -68,10 +79,13 @@ def test_dimming_series_uses_the_maximum_power_state(tmp_path):
     dim = write_capture(tmp_path / "dim.csv", 230.0, 20 / 230, {3: 0.40})  # same 35 mA h3
     r = run("--settings-of", "pendant", full, dim, "--json")
     d = json.loads(r.output)
-    assert [x["setting"] for x in d["results"]] == ["full", "dim"]
-    # dimmed: h3 = 0.4 x 20/230 = 34.8 mA; limit 30 lambda % x I1 at full = 0.294 x 0.1739 A
-    # = 51.1 mA (Table 2 at maximum power, absolute) -> pass
-    assert d["results"][1]["verdict"] == "pass" and d["results"][1]["orders"][1]["unit"] == "A"
+    assert [x["state"] for x in d["results"]] == ["full", "dim"]
+    # dimmed: h3 = 0.4 x 20/230 = 34.8 mA; limit 27 % x I1 at full = 0.27 x 0.1739 A
+    # = 47.0 mA (Table 2 of ed. 5.1 at maximum power, absolute) -> within; behind an
+    # independent dimmer the state is informative (IEC 61000-3-2, 5.1 and 5.2)
+    dim_res = d["results"][1]
+    assert dim_res["verdict"] == "info" and dim_res["limits_met"] is True
+    assert dim_res["role"] == "informative" and dim_res["orders"][1]["unit"] == "A"
     assert any("memory" in n for n in d["results"][1]["notes"])  # dimmed rule: memory
     assert r.exit_code == 0
 
@@ -99,8 +113,57 @@ def test_below_220_v_the_standard_does_not_apply(tmp_path):
     d = json.loads(r.output)
     assert r.exit_code == 0 and not d["results"][0]["applicable"]
     assert "220 V" in d["results"][0]["rule"]  # IEC 61000-3-2 scope: >= 220 V (clause 1)
-    r2 = run(cap, "--outside-scope")  # evaluated on request: h3 50 % fails Table 2
-    assert r2.exit_code == 1 and "for information" in r2.output
+    # evaluated on request: h3 50 % is above Table 2, shown for information only and never
+    # a failure (a 120 V project's verdict carries no IEC failure)
+    r2 = run(cap, "--outside-scope")
+    assert r2.exit_code == 0, r2.output
+    assert "INFORMATIVE (above limits)" in r2.output and "FAIL" not in r2.output
+    d2 = json.loads(run(cap, "--outside-scope", "--json").output)
+    assert d2["verdict"] == "info" and d2["results"][0]["limits_met"] is False
+
+
+def _series(tmp_path):
+    # full: 40 W, h3 20 % = 34.8 mA; dimmed: I1 = 20/230 A, h3 60 % = 52.2 mA, over the
+    # full-output h3 limit 27 % x 40/230 A = 47.0 mA (ed. 5.1 Table 2, absolute at maximum
+    # power)
+    full = write_capture(tmp_path / "full.csv", 230.0, 40 / 230, {3: 0.20})
+    dim = write_capture(tmp_path / "dim.csv", 230.0, 20 / 230, {3: 0.60})
+    return "--settings-of", "pendant", full, dim
+
+
+def test_dimmed_state_over_the_limits_is_informative_unless_strict(tmp_path):
+    # IEC 61000-3-2, 5.1 and 5.2 (AMD1:2020): independent phase-control dimmers are Class A
+    # and not lighting equipment; the lamp is type-tested at its rated supply
+    r = run(*_series(tmp_path))
+    assert r.exit_code == 0, r.output
+    assert "INFORMATIVE (above limits)" in r.output and "1 informative" in r.output
+    r = run(*_series(tmp_path), "--strict-dimmed")  # the owner's strict requirement
+    assert r.exit_code == 1 and "FAIL (strict)" in r.output and "pendant @ dim" in r.output
+    d = json.loads(run(*_series(tmp_path), "--strict-dimmed", "--json").output)
+    assert d["verdict"] == "fail" and d["strict_dimmed"] is True
+    assert d["results"][1]["role"] == "strict" and d["results"][1]["verdict"] == "fail"
+    # built-in dimming: every state is part of the verdict (Annex C test conditions)
+    r = run(*_series(tmp_path), "--builtin-dimming")
+    assert r.exit_code == 1 and "FAIL" in r.output
+
+
+def test_class_d_at_700_w_is_out_of_its_scope(tmp_path):
+    # IEC 61000-3-2:2018+AMD1:2020, 5.1: Class D covers a specified power up to and including
+    # 600 W. 700 W with h3 90 % of I1 = 2.74 A would fail the 2.30 A Class D cap.
+    cap = write_capture(tmp_path / "pc700.csv", 230.0, 700 / 230, {3: 0.90})
+    r = run(cap, "--class", "D")
+    assert r.exit_code == 0, r.output
+    assert "NOT APPLICABLE" in r.output and "600 W" in r.output and "Class A" in r.output
+    cap = write_capture(tmp_path / "pc500.csv", 230.0, 500 / 230, {3: 0.90})
+    assert run(cap, "--class", "D").exit_code == 1  # 500 W: Class D applies, 1.96 A > 1.70 A
+
+
+def test_unknown_edition_exits_2_with_one_line(tmp_path):
+    cap = write_capture(tmp_path / "lamp.csv", 230.0, 0.2, {3: 0.1})
+    r = run(cap, "--edition", "4.0")
+    err = r.stderr.strip().splitlines()
+    assert r.exit_code == 2 and len(err) == 1
+    assert "--edition" in err[0] and "5.0" in err[0] and "5.1" in err[0]
 
 
 @pytest.mark.parametrize("args, what", [

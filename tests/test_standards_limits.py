@@ -29,9 +29,12 @@ CLASS_A = {3: 2.30, 5: 1.14, 7: 0.77, 9: 0.40, 11: 0.33, 13: 0.21, 2: 1.08, 4: 0
 CLASS_A.update({h: 0.15 * 15 / h for h in range(15, 40, 2)})  # Table 1: 0.15 x 15/h
 CLASS_A.update({h: 0.23 * 8 / h for h in range(8, 41, 2)})  # Table 1: 0.23 x 8/h
 
-# IEC 61000-3-2:2018+AMD1:2020, Table 2 (Class C > 25 W) [% of fundamental]; h3 is 30 x lambda
+# IEC 61000-3-2:2018 (ed. 5.0), Table 2 (Class C > 25 W) [% of fundamental]; h3 is 30 x lambda
 CLASS_C = {2: 2.0, 3: 30.0, 5: 10.0, 7: 7.0, 9: 5.0}
 CLASS_C.update({h: 3.0 for h in range(11, 40, 2)})
+# IEC 61000-3-2:2018+AMD1:2020 (ed. 5.1), Table 2: h3 27 % (a test laboratory's public
+# summary of the AMD1 changes: "from 30 lambda to 27"; secondary), the other rows as ed. 5.0
+CLASS_C_5_1 = {**CLASS_C, 3: 27.0}
 
 # IEC 61000-3-2:2018+AMD1:2020, Table 3 (Class D): column 2 [mA/W], column 3 [A]
 CLASS_D_PER_WATT = {3: 3.4, 5: 1.9, 7: 1.0, 9: 0.5, 11: 0.35}
@@ -54,10 +57,12 @@ def close(a: float, b: float) -> bool:
 
 
 def test_known_keys_cover_the_issue():
-    # the set of tables the compliance work needs (common practice naming)
+    # the set of tables the compliance work needs (common practice naming); IEC 61000-3-2
+    # per edition (5.0: 2018; 5.1: 2018 + AMD1:2020) and without one (the default, 5.1)
+    iec = {"class-a", "class-b", "class-c", "class-c:5-25w", "class-d"}
     assert set(known_keys()) == {
-        "iec61000-3-2:class-a", "iec61000-3-2:class-b", "iec61000-3-2:class-c",
-        "iec61000-3-2:class-c:5-25w", "iec61000-3-2:class-d",
+        *(f"iec61000-3-2:{t}" for t in iec),
+        *(f"iec61000-3-2:{e}:{t}" for e in ("5.0", "5.1") for t in iec),
         "ieee519:2014:current", "ieee519:2022:current",
         "ieee519:2014:voltage", "ieee519:2022:voltage",
     }
@@ -67,7 +72,12 @@ def test_every_file_states_standard_edition_table_and_certainty():
     for key in known_keys():
         src = load_limits(key).source
         assert src.standard and src.edition and src.table, key
-        assert src.certainty in ("seen", "memory", "computed", "common practice"), key
+        assert src.certainty in ("seen", "secondary", "memory", "computed",
+                                 "common practice"), key
+        if key.startswith("iec61000-3-2:5.0:"):
+            assert src.edition == "5.0 (2018)", key
+        elif key.startswith("iec61000-3-2:"):
+            assert "AMD1:2020" in src.edition, key  # 5.1 and the default
 
 
 def test_class_a_rows():
@@ -86,12 +96,23 @@ def test_class_b_is_one_and_a_half_class_a():
 
 
 def test_class_c_rows():
-    t = load_limits("iec61000-3-2:class-c")
+    t = load_limits("iec61000-3-2:5.0:class-c")
     assert t.relative and set(t.orders) == set(CLASS_C)  # Table 2: other even orders free
     for h, v in CLASS_C.items():
-        assert close(t[h].limit, v / 100), h  # IEC 61000-3-2, Table 2
+        assert close(t[h].limit, v / 100), h  # IEC 61000-3-2 ed. 5.0, Table 2
     assert t[3].times_lambda and not t[5].times_lambda  # Table 2: h3 is 30 x lambda
     assert close(t[3].value_at(0.9), 0.27)
+    assert t.applies_above_w == 25.0
+
+
+@pytest.mark.parametrize("key", ["iec61000-3-2:5.1:class-c", "iec61000-3-2:class-c"])
+def test_class_c_rows_edition_5_1(key):
+    t = load_limits(key)
+    assert t.relative and set(t.orders) == set(CLASS_C_5_1)
+    for h, v in CLASS_C_5_1.items():
+        assert close(t[h].limit, v / 100), h  # ed. 5.1, Table 2
+    assert not t[3].times_lambda and close(t[3].value_at(0.5), 0.27)  # 27 %, not x lambda
+    assert t[3].certainty == "secondary" and t[5].certainty == "seen"
     assert t.applies_above_w == 25.0
 
 

@@ -10,7 +10,14 @@ import numpy as np
 
 from ..errors import InputError
 from ..io.capture import record_to_waveform
-from ..standards import CAUTION, EQUIPMENT_CLASSES, evaluate_dimmable, evaluate_fixture
+from ..standards import (
+    CAUTION,
+    DEFAULT_EDITION,
+    EQUIPMENT_CLASSES,
+    check_edition,
+    evaluate_dimmable,
+    evaluate_fixture,
+)
 from ..standards.iec61000_3_2 import SCOPE_MIN_VOLTAGE_V
 from ..standards.results import FixtureResult
 from ._common import STDIO, deprecated_alias, echo_json, main, user_errors
@@ -39,29 +46,39 @@ def guess_nominal_voltage(waveforms) -> float | None:
 
 
 def _fmt_value(d: dict) -> tuple[str, str, str]:
+    """Value, limit (in the limit's unit) and the margin [% of limit] of one check."""
     spec = ".4g" if d["unit"] == "A" else ".3f" if d["unit"] == "deg" else ".2f"
-    return format(d["value"], spec), format(d["limit"], spec), format(d["margin"], "+" + spec)
+    m = d.get("margin_pct")
+    return (format(d["value"], spec), format(d["limit"], spec),
+            "-" if m is None else format(m, "+.1f"))
+
+
+def _head(r: FixtureResult) -> str:
+    return f"{r.fixture}" + (f" @ {r.state}" if r.state else "")
 
 
 def print_result(r: FixtureResult) -> None:
     out = click.echo
     d = r.to_dict()
-    head = f"{r.fixture}" + (f" @ {r.setting}" if r.setting else "")
-    out(f"{head}: {r.p_w:.4g} W, lambda {r.pf:.3f}: {r.verdict.upper()}  (rule: {r.rule})")
+    out(f"{_head(r)}: {r.p_w:.4g} W, lambda {r.pf:.3f}: {r.label}  (rule: {r.rule})")
+    if r.role != "verdict" and r.basis:
+        out(f"  {'informative' if r.informative else 'strict'}: {r.basis}")
     if r.rules and len(r.rules) > 1:
         out("  " + ", ".join(f"{x.rule}: {x.verdict if x.evaluated else 'not evaluated'}"
                              for x in r.rules))
     dec = r.deciding
     if dec is not None:
         out(f"  {dec.reference}")
-        out(f"  {'quantity':<22} {'value':>10} {'limit':>10} {'unit':<10} {'margin':>10}  status")
+        out(f"  {'quantity':<22} {'value':>10} {'limit':>10} {'unit':<10} "
+            f"{'margin [% of limit]':>19}  status")
         for c in dec.checks:
             cd = c.to_dict()
             v, lim, m = _fmt_value(cd)
             bound = ">=" if c.bound == "min" else "<="
             flag = " (disregarded)" if c.disregarded else ""
-            out(f"  {c.name:<22} {v:>10} {bound}{lim:>8} {cd['unit']:<10} {m:>10}  "
-                f"{c.status}{flag}")
+            status = "info" if r.informative else c.status
+            out(f"  {c.name:<22} {v:>10} {bound}{lim:>8} {cd['unit']:<10} {m:>19}  "
+                f"{status}{flag}")
         for n in dec.notes:
             out(f"  note: {n}")
     for n in d["notes"]:
@@ -70,7 +87,7 @@ def print_result(r: FixtureResult) -> None:
 
 
 def _model_states(model, power_w, dimmer, voltage, frequency, params, equipment_class,
-                  outside_scope):
+                  outside_scope, edition=DEFAULT_EDITION, strict=False, dimming="independent"):
     """IEC 61000-3-2 results of one simulated fixture at full output and dimmed states."""
     from ..circuits import DIMMER_KINDS, MODELS, Supply
     from ..circuits.drivers import resolve_params
@@ -102,11 +119,12 @@ def _model_states(model, power_w, dimmer, voltage, frequency, params, equipment_
     label = f"{model} {power_w:g} W"
     if len(recs) == 1:
         r = evaluate_fixture(recs[0][1], None, None, equipment_class, fixture=label,
-                             setting=recs[0][0], nominal_voltage_v=voltage,
-                             outside_scope=outside)
+                             state=recs[0][0], nominal_voltage_v=voltage,
+                             outside_scope=outside, edition=edition)
         return [r], list(r.notes)
     d = evaluate_dimmable(recs, equipment_class, fixture=label, nominal_voltage_v=voltage,
-                          outside_scope=outside)
+                          outside_scope=outside, edition=edition, strict=strict,
+                          dimming=dimming)
     notes = [f"{label}: evaluated behind a reference {dimmer} cut (an ideal switch at each "
              "setting)"] + [n for n in d.notes if n != CAUTION]
     return list(d.results), notes
@@ -146,8 +164,17 @@ MODEL_VOLTAGE_V, MODEL_FREQUENCY_HZ = 230.0, 50.0
                    "records' peak).")
 @deprecated_alias("--nominal-voltage", "--voltage", "voltage", type=float)
 @click.option("--outside-scope", is_flag=True,
-              help=f"Evaluate even below {SCOPE_MIN_VOLTAGE_V:g} V, where IEC 61000-3-2 does "
-                   "not apply (for information).")
+              help=f"Evaluate even below {SCOPE_MIN_VOLTAGE_V:g} V, where IEC 61000-3-2 sets "
+                   "no limits: information only, never a failure.")
+@click.option("--edition", default=DEFAULT_EDITION, show_default=True,
+              help="IEC 61000-3-2 edition: 5.0 (2018) or 5.1 (2018 + AMD1:2020; Class C "
+                   "h3 27 % instead of 30 x lambda %).")
+@click.option("--strict-dimmed", is_flag=True,
+              help="Hold dimmed states behind an independent dimmer to pass/fail (an owner's "
+                   "requirement beyond the standard); without it they are informative.")
+@click.option("--builtin-dimming", is_flag=True,
+              help="With --settings-of or --model: the fixture dims itself (built-in "
+                   "dimming), so every dimmed state is part of its verdict.")
 @click.option("--keep-small", is_flag=True,
               help="Do not disregard harmonics below 0.6 % of the current or 5 mA.")
 @click.option("--model", "model",
@@ -160,7 +187,8 @@ MODEL_VOLTAGE_V, MODEL_FREQUENCY_HZ = 230.0, 50.0
 @click.option("--json", "as_json", is_flag=True, help="Print one JSON object instead of tables.")
 @user_errors
 def comply_cmd(captures, installation, equipment_class, settings_of, power_w, pf, voltage,
-               outside_scope, keep_small, model, dimmer, params, as_json, frequency, **kw):
+               outside_scope, edition, strict_dimmed, builtin_dimming, keep_small, model,
+               dimmer, params, as_json, frequency, **kw):
     """IEC 61000-3-2 harmonic-emission verdicts, fixture by fixture and setting by setting.
 
     Each CAPTURE is one fixture (power and power factor from the record's voltage and
@@ -169,6 +197,12 @@ def comply_cmd(captures, installation, equipment_class, settings_of, power_w, pf
     above 25 W Table 2 with 30 x lambda % for the third order. Option b's waveform test
     needs the voltage channel. A CAPTURE of - is read from standard input as delimited
     text (CSV); a COMTRADE record cannot be, as it is a .cfg file with its .dat file.
+
+    The verdict of a fixture is at its rated supply and full output. Dimmed states behind
+    an independent phase-cut dimmer (--settings-of, --model with --dimmer, an installation)
+    are informative, shown against the full-output limits in amperes, unless
+    --strict-dimmed; with --builtin-dimming they are part of the verdict. Below 220 V
+    line-to-neutral every line is information only. Class D covers up to 600 W.
 
     Exit code 0 when every fixture passes, 1 when any fails (the tables are printed), 2 for
     bad input, including a verdict that hinges on option b without a voltage channel, 3
@@ -182,6 +216,8 @@ def comply_cmd(captures, installation, equipment_class, settings_of, power_w, pf
         raise InputError(f"--voltage: expected a positive voltage [V], got {voltage:g}")
     if captures.count(STDIO) > 1:
         raise InputError("CAPTURE -: standard input can be read once; give - once")
+    check_edition(edition, "--edition")
+    dimming = "builtin" if builtin_dimming else "independent"
     jobs = []  # (fixture, [(setting, waveform)])
     lineup_results: list[FixtureResult] = []
     lineup_notes: list[str] = []
@@ -189,13 +225,15 @@ def comply_cmd(captures, installation, equipment_class, settings_of, power_w, pf
         lineup_results, lineup_notes = _model_states(
             model, power_w, dimmer, MODEL_VOLTAGE_V if voltage is None else voltage,
             MODEL_FREQUENCY_HZ if frequency is None else frequency, params, equipment_class,
-            outside_scope)
+            outside_scope, edition, strict_dimmed, dimming)
         power_w = None  # it was the model's rating, not a capture's power
     if installation:
         from ..installation import evaluate_lineup, load_installation
 
         inst = load_installation(installation)
-        for e in evaluate_lineup(inst, equipment_class):
+        for e in evaluate_lineup(inst, equipment_class,
+                                 strict_dimmed=True if strict_dimmed else None,
+                                 edition=edition):
             res = e.result.results if hasattr(e.result, "results") else (e.result,)
             lineup_results.extend(res)
             lineup_notes.extend(f"{e.fixture} ({e.source}, {e.dimmer}): {n}" for n in e.notes
@@ -230,22 +268,26 @@ def comply_cmd(captures, installation, equipment_class, settings_of, power_w, pf
                 notes.append(f"{fixture}: nominal supply voltage taken as {nominal:g} V "
                              "from the record's voltage peak")
         common = dict(nominal_voltage_v=nominal, outside_scope=outside_scope,
-                      disregard_small=not keep_small)
+                      disregard_small=not keep_small, edition=edition)
         if len(states) > 1:
             d = evaluate_dimmable([(s, w, power_w, pf) for s, w in states], equipment_class,
-                                  fixture=fixture, **common)
+                                  fixture=fixture, strict=strict_dimmed, dimming=dimming,
+                                  **common)
             results.extend(d.results)
             notes.extend(n for n in d.notes if n != CAUTION and n not in notes)
         else:
             s, w = states[0]
             results.append(evaluate_fixture(w, power_w, pf, equipment_class, fixture=fixture,
-                                            setting=s if settings_of else "", **common))
+                                            state=s if settings_of else "", **common))
 
-    failed = [r for r in results if r.verdict == "fail"]
+    failed = [r for r in results if r.failed]
+    info = [r for r in results if r.informative]
     if as_json:
         echo_json({
             "standard": "IEC 61000-3-2",
-            "verdict": "fail" if failed else "pass",
+            "edition": edition,
+            "strict_dimmed": bool(strict_dimmed),
+            "verdict": "fail" if failed else "info" if len(info) == len(results) else "pass",
             "results": [r.to_dict() for r in results],
             "notes": notes,
             "caution": CAUTION,
@@ -255,10 +297,11 @@ def comply_cmd(captures, installation, equipment_class, settings_of, power_w, pf
             print_result(r)
         for n in notes:
             click.echo(f"note: {n}")
-        bad = ", ".join(f"{r.fixture}" + (f" @ {r.setting}" if r.setting else "")
-                        for r in failed)
-        click.echo(f"{len(results) - len(failed)} of {len(results)} pass"
-                   + (f"; failing: {bad}" if failed else ""))
+        bad = ", ".join(_head(r) for r in failed)
+        counted = len(results) - len(info)
+        click.echo(f"IEC 61000-3-2 edition {edition}: {counted - len(failed)} of {counted} "
+                   "pass" + (f"; failing: {bad}" if failed else "")
+                   + (f"; {len(info)} informative (not part of the verdict)" if info else ""))
         click.echo(f"caution: {CAUTION}")
     hinge = [r for r in results if r.undetermined]
     if hinge:

@@ -4,8 +4,16 @@ For each fixture type (and each dimmer kind it is used behind), the lamp alone i
 the installation's nominal voltage behind an ideal phase cut (a reference dimmer: the switch
 opens and closes exactly at the setting, so the result is the lamp's own emission, not the
 wall dimmer's), over its dimming range. The states evaluated are the maximum-power state and
-five settings whose powers lie equidistant between minimum and maximum power (IEC 61000-3-2
-test conditions for dimmable lighting). Measured fixture types are evaluated on their record.
+five settings whose powers lie equidistant between minimum and maximum power (IEC 61000-3-2,
+Annex C test conditions for dimmable lighting). Measured fixture types are evaluated on
+their record.
+
+The verdict of a fixture type is its state at the rated supply and full output. Its dimmed
+states behind an independent phase-cut dimmer are an informative emission assessment
+(shown against the full-output limits in amperes, never failing the verdict) unless the
+installation asks for strict mode (``[compliance] strict_dimmed = true``); a fixture type
+with ``builtin_dimming`` is judged in every state. Below 220 V line-to-neutral the whole
+lineup is information only (the standard sets no limits there).
 
 :func:`evaluate_lineup` returns one :class:`LineupEntry` per fixture type and dimmer kind.
 """
@@ -47,11 +55,17 @@ class LineupState:
         """Harmonic current magnitudes [A rms], index = order."""
         return np.asarray(self.spectrum.i_h_a, dtype=float)
 
+    @property
+    def role(self) -> str:
+        """``"verdict"``, ``"informative"`` or ``"strict"`` (see FixtureResult.role)."""
+        return self.result.role
+
 
 @dataclass(frozen=True)
 class LineupEntry:
     """A fixture type's IEC 61000-3-2 results behind one dimmer kind: the full-output state
-    first, then the dimmed states."""
+    first, then the dimmed states. ``verdict`` is ``"pass"``, ``"fail"`` (a state that counts
+    failed) or ``"info"`` (nothing counts: outside the standard's scope)."""
 
     fixture: str
     description: str
@@ -74,7 +88,9 @@ class LineupEntry:
         return {"fixture": self.fixture, "description": self.description, "source": self.source,
                 "dimmer": self.dimmer, "verdict": self.verdict, "rule": self.rule,
                 "states": [{"state": s.state, "conduction_deg": s.conduction_deg,
-                            "p_w": s.p_w, "verdict": s.result.verdict, "rule": s.result.rule,
+                            "p_w": s.p_w, "role": s.role, "basis": s.result.basis,
+                            "verdict": "info" if s.result.informative else s.result.verdict,
+                            "limits_met": s.result.verdict == "pass", "rule": s.result.rule,
                             "limits_a": {str(k): v for k, v in s.limits_a.items()}}
                            for s in self.states],
                 "result": self.result.to_dict(), "notes": list(self.notes)}
@@ -165,14 +181,27 @@ def fixture_states(ft: ModelledFixture, v: float, f: float, kind: str, grid: int
     return states
 
 
-def evaluate_lineup(inst: Installation, equipment_class: EquipmentClass = "C"
+def evaluate_lineup(inst: Installation, equipment_class: EquipmentClass = "C", *,
+                    strict_dimmed: bool | None = None, edition: str | None = None
                     ) -> list[LineupEntry]:
-    """IEC 61000-3-2 for every fixture type of an installation, at full output and dimmed."""
-    from ..standards import evaluate_dimmable, evaluate_fixture
+    """IEC 61000-3-2 for every fixture type of an installation, at full output and dimmed.
 
+    Parameters
+    ----------
+    strict_dimmed
+        Hold dimmed states behind independent dimmers to pass/fail; None takes the
+        installation's ``[compliance] strict_dimmed`` (default False: informative).
+    edition
+        ``"5.0"`` or ``"5.1"``; None: the default edition (5.1).
+    """
+    from ..standards import DEFAULT_EDITION, check_edition, evaluate_dimmable, evaluate_fixture
+    from ..standards.iec61000_3_2 import SCOPE_MIN_VOLTAGE_V
+
+    ed = check_edition(DEFAULT_EDITION if edition is None else edition)
+    strict = inst.compliance.strict_dimmed if strict_dimmed is None else bool(strict_dimmed)
     sup = inst.supply
     v, f = sup.voltage_ln_v, sup.frequency_hz
-    outside = v < 220.0
+    outside = v < SCOPE_MIN_VOLTAGE_V
     kinds: dict[str, list[str]] = {fid: [] for fid in inst.fixtures}
     for c in inst.circuits:
         for g in c.groups:
@@ -182,8 +211,9 @@ def evaluate_lineup(inst: Installation, equipment_class: EquipmentClass = "C"
     for fid, ft in inst.fixtures.items():
         notes = []
         if outside:
-            notes.append(f"IEC 61000-3-2 applies from 220 V line-to-neutral; evaluated at "
-                         f"{v:g} V on request, for information only")
+            notes.append(f"IEC 61000-3-2 sets no limits below {SCOPE_MIN_VOLTAGE_V:g} V "
+                         f"line-to-neutral (clause 1): evaluated at {v:g} V for information "
+                         "only, not a verdict")
         if isinstance(ft, MeasuredFixture):
             w = _capture_waveform(ft)
             if not w.has_voltage:
@@ -192,16 +222,16 @@ def evaluate_lineup(inst: Installation, equipment_class: EquipmentClass = "C"
                              "limit) and option b's waveform test cannot be made")
             r = evaluate_fixture(w if w.has_voltage else spectrum(w), None if w.has_voltage
                                  else ft.power_w, None if w.has_voltage else 1.0,
-                                 equipment_class, fixture=fid, setting="as recorded",
-                                 nominal_voltage_v=v, outside_scope=outside)
+                                 equipment_class, fixture=fid, state="as recorded",
+                                 nominal_voltage_v=v, outside_scope=outside, edition=ed)
             s = spectrum(w)
             st = LineupState("as recorded", None, w, s, r.p_w, r, limits_in_amps(r, s))
             entries.append(LineupEntry(fid, ft.description, f"capture {ft.capture}",
-                                       "as recorded", r.verdict, r.rule, (st,), r,
-                                       tuple(notes)))
+                                       "as recorded", "info" if r.informative else r.verdict,
+                                       r.rule, (st,), r, tuple(notes)))
             continue
         dimmed = [k for k in kinds[fid] if k != "none"]
-        if ft.model == "resistive" and dimmed:
+        if ft.model == "resistive" and dimmed and not ft.builtin_dimming:
             notes.append(f"{fid}: a filament lamp is resistive; behind a phase-cut dimmer the "
                          "harmonics are the dimmer's, and independent phase-control dimmers are "
                          "Class A equipment (IEC 61000-3-2): evaluated at full output only")
@@ -211,7 +241,9 @@ def evaluate_lineup(inst: Installation, equipment_class: EquipmentClass = "C"
             recs = [(lab, w, None, None) for lab, _, w in states]
             try:
                 res = evaluate_dimmable(recs, equipment_class, fixture=fid, nominal_voltage_v=v,
-                                        outside_scope=outside)
+                                        outside_scope=outside, edition=ed, strict=strict,
+                                        dimming="builtin" if ft.builtin_dimming
+                                        else "independent")
             except InputError as e:
                 raise InputError(f"fixtures.{fid}: {e}") from None
             # results[0] is the maximum-power state, the others in the order given
@@ -224,8 +256,8 @@ def evaluate_lineup(inst: Installation, equipment_class: EquipmentClass = "C"
                 lst.append(LineupState(lab, a, w, s, _power(w), r, limits_in_amps(r, s)))
             top = res.results[0]
             entries.append(LineupEntry(fid, ft.description, f"model {ft.model}", kind,
-                                       res.verdict, top.rule, tuple(lst), res,
-                                       tuple(notes) + tuple(res.notes)))
+                                       "info" if res.informative else res.verdict, top.rule,
+                                       tuple(lst), res, tuple(notes) + tuple(res.notes)))
     return entries
 
 

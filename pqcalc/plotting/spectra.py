@@ -114,12 +114,16 @@ class LimitMarks:
         The rule and its source, for the legend.
     disregarded
         Orders the rule disregards (below its threshold of significance).
+    failed
+        Orders whose check failed (over the limit and not disregarded): the orders a
+        compliance table marks FAIL, for :func:`spectrum_figure`'s ``failed``.
     """
 
     limits: dict[int, float]
     unit: str
     label: str
     disregarded: tuple[int, ...] = ()
+    failed: tuple[int, ...] = ()
 
 
 def limit_marks(result: FixtureResult | RuleResult, i1_a: float, unit: SpectrumUnit = "pct"
@@ -146,7 +150,7 @@ def limit_marks(result: FixtureResult | RuleResult, i1_a: float, unit: SpectrumU
     rule = result.deciding if hasattr(result, "deciding") else result
     if rule is None:
         return LimitMarks({}, unit, str(getattr(result, "rule", "no limits")))
-    limits, skip = {}, []
+    limits, skip, bad = {}, [], []
     for c in rule.order_checks():
         if c.order is None:  # order_checks() holds orders only; this narrows the type
             continue
@@ -160,7 +164,9 @@ def limit_marks(result: FixtureResult | RuleResult, i1_a: float, unit: SpectrumU
         limits[int(c.order)] = float(lim)
         if c.disregarded:
             skip.append(int(c.order))
-    return LimitMarks(limits, unit, f"{rule.reference}, {rule.rule}", tuple(skip))
+        if c.status == "fail":
+            bad.append(int(c.order))
+    return LimitMarks(limits, unit, f"{rule.reference}, {rule.rule}", tuple(skip), tuple(bad))
 
 
 def _clean_limits(limits, name: str = "limits") -> dict[int, float]:
@@ -239,6 +245,7 @@ def spectrum_figure(
     limits_label: str | None = None,
     min_order: int = 2,
     disregarded: Collection[int] = (),
+    failed: Collection[int] | None = None,
 ) -> Figure:
     """Harmonic spectrum as bars per order, with the applicable limit of each order marked.
 
@@ -264,6 +271,10 @@ def spectrum_figure(
     disregarded
         Orders the standard disregards (too small to count): never drawn as over the
         limit; a note names those above their line. :func:`limit_marks` supplies them.
+    failed
+        The orders a compliance table fails (:attr:`LimitMarks.failed`): when given, these
+        and only these bars are drawn as over the limit, so the figure and the table
+        agree by construction (the same disregard rule and comparison tolerance).
 
     Bars above their limit are drawn dark and hatched, the others light, so the two stay
     apart in grayscale.
@@ -287,6 +298,8 @@ def spectrum_figure(
     skip = {int(k) for k in disregarded}
     over = exceeding_orders(h, y, lims)
     over_but_skipped = [int(k) for k, o in zip(h, over, strict=True) if o and k in skip]
+    if failed is not None:
+        over = np.isin(h, [int(k) for k in failed])
     over &= ~np.isin(h, list(skip))
     dist = (orders >= 2) & (orders <= max_order)
     thd_pct = 100.0 * float(np.sqrt(np.sum(mags[dist] ** 2))) / i1

@@ -3,7 +3,7 @@
 from __future__ import annotations
 
 from collections.abc import Sequence
-from typing import TYPE_CHECKING
+from typing import TYPE_CHECKING, Literal
 
 import numpy as np
 
@@ -11,7 +11,7 @@ from .layout import A4_IN, Col, Doc, fmt_num, fmt_pct
 from .sources import standards_applied
 
 if TYPE_CHECKING:  # pragma: no cover
-    from ..installation import Assessment, LineupEntry, ScenarioResult
+    from ..installation import Assessment, LineupEntry, LineupState, ScenarioResult
     from ..installation import NodeResult as PanelResult
 
 __all__ = ["SECTION_TITLES", "cover", "summary", "lineup_section", "panels_section",
@@ -112,10 +112,10 @@ def summary(doc: Doc, a: Assessment, lineup: Sequence[LineupEntry],
              f"{len(a.scenarios)} scenarios. Design scenario (highest panel currents): "
              f"{a.design.name}.", size=10, weight="bold")
     if lineup:
-        bad = [e.title for e in lineup if e.verdict == "fail"]
-        doc.para(f"Fixture lineup, IEC 61000-3-2 Class C: {len(lineup) - len(bad)} of "
-                 f"{len(lineup)} fixture types pass in every state evaluated"
-                 + (f"; failing: {', '.join(bad)}." if bad else "."), size=10, weight="bold")
+        doc.para(_lineup_summary(a, lineup), size=10, weight="bold")
+        extra = _dimmed_summary(lineup)
+        if extra:
+            doc.para(extra, size=9)
     else:
         doc.para("Fixture lineup: not evaluated (no lineup results were available).", size=10)
     sc = a.design
@@ -149,19 +149,74 @@ def summary(doc: Doc, a: Assessment, lineup: Sequence[LineupEntry],
         doc.para(note, size=8, color=_GREY)
 
 
+def _editions(lineup: Sequence[LineupEntry]) -> str:
+    """The IEC 61000-3-2 edition(s) the lineup's rules cite."""
+    eds = {"5.1" if "AMD1" in r.reference else "5.0"
+           for e in lineup for s in e.states for r in s.result.rules}
+    return " and ".join(sorted(eds)) or "-"
+
+
+def _lineup_summary(a: Assessment, lineup: Sequence[LineupEntry]) -> str:
+    """The lineup's verdict line: at rated supply and full output, in the standard's scope."""
+    counted = [e for e in lineup if e.verdict != "info"]
+    if not counted:
+        v = a.installation.supply.voltage_ln_v
+        return (f"Fixture lineup, IEC 61000-3-2: information only, not part of the verdict - "
+                f"the standard sets no limits below 220 V line-to-neutral (this supply: "
+                f"{v:g} V; clause 1).")
+    bad = [e.title for e in counted if e.verdict == "fail"]
+    return (f"Fixture lineup, IEC 61000-3-2 (edition {_editions(lineup)}), at rated supply and "
+            f"full output: {len(counted) - len(bad)} of {len(counted)} fixture types pass"
+            + (f"; failing: {', '.join(bad)}." if bad else "."))
+
+
+def _dimmed_summary(lineup: Sequence[LineupEntry]) -> str:
+    """How the dimmed states count, and how many lie above the full-output limits."""
+    dimmed = [s for e in lineup for s in e.states[1:]]
+    if not dimmed or all(e.verdict == "info" for e in lineup):
+        return ""
+    info = [s for s in dimmed if s.role == "informative"]
+    strict = [s for s in dimmed if s.role == "strict"]
+    parts = []
+    if info:
+        over = sum(s.result.verdict == "fail" for s in info)
+        parts.append(f"{len(info)} dimmed states behind independent phase-cut dimmers are an "
+                     f"informative emission assessment against the full-output limits in "
+                     f"amperes, not part of the verdict ({over} above those limits)")
+    if strict:
+        bad = sum(s.result.failed for s in strict)
+        parts.append(f"{len(strict)} dimmed states are held to pass/fail at the owner's "
+                     f"request (strict mode; {bad} fail)")
+    builtin = [s for s in dimmed if s.role == "verdict"]
+    if builtin:
+        parts.append(f"{len(builtin)} dimmed states of fixtures with built-in dimming are "
+                     "part of their verdict")
+    return "; ".join(parts) + "."
+
+
 # ----------------------------------------------------------------------------- lineup
 def _spectrum_fig(entry: LineupEntry):
-    from ..plots import spectrum_figure
+    """The full-output state's spectrum; its hatched bars are the orders the compliance
+    table fails (the same disregard rule and comparison, by construction)."""
+    from ..plots import LimitMarks, limit_marks, spectrum_figure
 
     st = entry.states[0]
     dec = st.result.deciding
     pct = dec is not None and all(c.unit == "fraction of I1" for c in dec.order_checks())
-    i1 = float(st.magnitudes_a[1])
-    lims = {h: (100 * v / i1 if pct else v) for h, v in st.limits_a.items()} if i1 > 0 else {}
-    label = f"IEC 61000-3-2 Class C, {st.result.rule}"
-    return spectrum_figure(st.magnitudes_a, limits=lims or None, unit="pct" if pct else "A",
+    unit: Literal["A", "pct"] = "pct" if pct else "A"
+    i1 = float(st.spectrum.i1_a)
+    marks = limit_marks(st.result, i1, unit) if i1 > 0 else LimitMarks({}, unit, "")
+    label = f"IEC 61000-3-2 Class C, {st.result.rule}" + (
+        " (information only)" if st.result.informative else "")
+    return spectrum_figure(st.magnitudes_a, limits=marks.limits or None, unit=unit,
                            max_order=40, title=f"{entry.fixture}: {st.state}",
-                           limits_label=label)
+                           limits_label=label, disregarded=marks.disregarded,
+                           failed=marks.failed)
+
+
+def _state_label(s: LineupState) -> str:
+    role = {"informative": " (informative)", "strict": " (strict)"}.get(s.role, "")
+    return s.state + role
 
 
 def lineup_section(doc: Doc, lineup: Sequence[LineupEntry], notes: Sequence[str]) -> None:
@@ -171,10 +226,15 @@ def lineup_section(doc: Doc, lineup: Sequence[LineupEntry], notes: Sequence[str]
         for n in notes:
             doc.para(n, size=8, color=_GREY)
         return
-    doc.para("Each fixture type at full output and, where evaluated, in dimmed states. The "
-             "rule is the one that decided the verdict (for 5 W to 25 W lighting: the first "
-             "of options a, b, c that passed, else the closest). Margin: the smallest "
-             "distance to a limit, relative to that limit (negative: over the limit).",
+    doc.para("The verdict of a fixture type is its state at the rated supply and full output "
+             "(IEC 61000-3-2 type-tests the lamp). Dimmed states behind an independent "
+             "phase-cut dimmer, marked (informative), are an emission assessment against the "
+             "full-output limits in amperes and never the reason the verdict fails (verdict "
+             "INFO); marked (strict), they are held to pass/fail at the owner's request; "
+             "fixtures with built-in dimming are judged in every state. The rule is the one "
+             "that decided (for 5 W to 25 W lighting: the first of options a, b, c that "
+             "passed, else the closest). Margin [% of limit]: (limit - value) / limit for the "
+             "closest limit, disregarded harmonics left out; negative: over the limit.",
              size=8.5, color=_GREY)
     rows = []
     for e in lineup:
@@ -182,17 +242,16 @@ def lineup_section(doc: Doc, lineup: Sequence[LineupEntry], notes: Sequence[str]
             r = s.result
             dec = r.deciding
             worst = "-"
-            if dec is not None and dec.checks:
-                c = min((c for c in dec.checks if c.limit and not c.disregarded),
-                        key=lambda c: c.margin / abs(c.limit), default=None)
-                if c is not None:
-                    worst = f"{c.name} {100 * c.margin / abs(c.limit):+.0f} %"
-            rows.append((e.title, s.state, fmt_num(r.p_w, ".1f"), fmt_num(r.pf, ".3f"),
-                         r.rule, worst, r.verdict.upper()))
+            c = dec.closest_check if dec is not None else None
+            if c is not None:
+                worst = f"{c.name} {100 * c.relative_margin:+.0f}"
+            rows.append((e.title, _state_label(s), fmt_num(r.p_w, ".1f"), fmt_num(r.pf, ".3f"),
+                         r.rule, worst, r.status.upper()))
     doc.table([Col("fixture type", 1.5, wrap=True), Col("state", 1.0, wrap=True),
                Col("P [W]", 0.55, "right"),
                Col("lambda [-]", 0.6, "right"), Col("rule", 1.6, wrap=True),
-               Col("closest limit (margin)", 1.1, wrap=True), Col("verdict", 0.6)], rows,
+               Col("closest limit, margin [% of limit]", 1.1, wrap=True),
+               Col("verdict", 0.6)], rows,
               status_col=6,
               title="Compliance table")
     for n in notes:
@@ -206,7 +265,9 @@ def lineup_section(doc: Doc, lineup: Sequence[LineupEntry], notes: Sequence[str]
                   heading=f"{e.title}" + (f": {e.description}" if e.description else ""),
                   caption="Bars: harmonic current of the state shown (the maximum-power "
                           "state); black marks: the limit of the deciding rule per order; "
-                          "hatched bars exceed it.", keep_with_in=min(notes_h, 3.0))
+                          "hatched bars: the orders the compliance table fails (harmonics "
+                          "below 0.6 % of the input current or 5 mA are disregarded in "
+                          "both).", keep_with_in=min(notes_h, 3.0))
         for n in own:
             doc.para(n, size=7.5, color=_GREY)
 

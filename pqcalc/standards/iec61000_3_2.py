@@ -10,18 +10,32 @@ Rules (limit values in ``standards_limits/``, read by :func:`~.limits.load_limit
   (:func:`waveform_test`); (c) THD <= 70 % with limits for orders 2 to 11.
 - Class C below 5 W: no limits.
 - Class D: per-watt limits capped by absolute ones (Table 3).
-- Dimmable lighting (:func:`evaluate_dimmable`): the state of maximum power gives the
-  limits; in dimmed states the absolute harmonic currents may not exceed those allowed at
-  maximum power. **This dimmed-state rule rests on memory**, not on a text we have seen.
+- Dimmable lighting (:func:`evaluate_dimmable`): the formal verdict is at the rated supply
+  and full output. Dimmed states behind an *independent* phase-cut dimmer are an
+  informative emission assessment (the standard type-tests the lamp; independent
+  phase-control dimmers are Class A equipment and not lighting equipment, 5.1 and 5.2):
+  they are shown against the full-output limits as absolute currents [A] and never fail
+  the verdict, unless ``strict=True`` asks for it. Equipment with *built-in* dimming is
+  measured at maximum load and in five equidistant steps between minimum and maximum power
+  (Annex C, test conditions for lighting equipment), each state held to the absolute
+  currents allowed at maximum power. **That dimmed-state limit rests on memory.**
+
+Scope (clause 1 and 5.1): supplies of 220 V line-to-neutral and above (below, "the limits
+have not yet been considered"): :func:`evaluate_fixture` then gives no verdict, and on
+request (``outside_scope=True``) an informative evaluation; Class D covers equipment of a
+specified power up to and including 600 W.
+
+Editions are data: ``edition="5.0"`` (2018) or ``"5.1"`` (2018 + AMD1:2020, the default);
+they differ in the third order of Table 2 (30 * lambda % in 5.0, 27 % in 5.1; the 5.1
+value read in a test laboratory's public summary of AMD1, certainty "secondary").
 
 Harmonic currents below 0.6 % of the input current or below 5 mA, whichever is greater,
 are disregarded (recalled from memory; ``disregard_small=False`` turns this off).
-The standard covers supplies of 220 V line-to-neutral and above; below that it does not
-apply, and :func:`evaluate_fixture` evaluates only on request (``outside_scope=True``).
 
 References
 ----------
-IEC 61000-3-2:2018 (ed. 5.0) + AMD1:2020, clause 7 and Tables 1 to 3.
+IEC 61000-3-2:2018 (ed. 5.0) and its consolidated edition 5.1 (+ AMD1:2020): clause 1
+(scope), 5.1 and 5.2 (classes, lighting equipment), clause 7 and Tables 1 to 3, Annex C.
 """
 
 from __future__ import annotations
@@ -37,15 +51,29 @@ from ..errors import InputError
 from ..metrics import power_factor, thd
 from ..spectrum import Spectrum, spectrum
 from ..waveform import Waveform
-from .limits import OrderLimit, OrderTable, SmallLightingLimits, WaveformTestLimits, load_limits
-from .results import CAUTION, Check, FixtureResult, RuleResult
+from .limits import (
+    OrderLimit,
+    OrderTable,
+    SmallLightingLimits,
+    WaveformTestLimits,
+    known_keys,
+    load_limits,
+)
+from .results import CAUTION, Check, FixtureResult, Role, RuleResult
 
 __all__ = [
     "EquipmentClass",
     "EQUIPMENT_CLASSES",
     "SCOPE_MIN_VOLTAGE_V",
+    "CLASS_D_MAX_W",
     "NO_LIMITS_BELOW_W",
     "DIMMED_RULE_NOTE",
+    "INDEPENDENT_DIMMER_NOTE",
+    "Dimming",
+    "DIMMING_KINDS",
+    "DEFAULT_EDITION",
+    "editions",
+    "check_edition",
     "WaveformTestResult",
     "DimmableResult",
     "disregard_level_a",
@@ -74,10 +102,27 @@ NO_LIMITS_BELOW_W = 5.0
 SMALL_LIGHTING_MAX_W = 25.0
 #: Rated input current above which IEC 61000-3-2 no longer applies [A per phase].
 SCOPE_MAX_CURRENT_A = 16.0
+#: Class D covers equipment with a specified power up to and including this [W] (5.1, as
+#: worded by AMD1:2020; seen in a public copy of the amendment's text).
+CLASS_D_MAX_W = 600.0
+
+#: How a fixture type is dimmed: behind an independent (wall) dimmer, or by dimming built
+#: into the equipment itself.
+Dimming = Literal["independent", "builtin"]
+DIMMING_KINDS: tuple[str, ...] = get_args(Dimming)
+
+#: The edition used when none is named: the consolidated edition 5.1 (2018 + AMD1:2020).
+DEFAULT_EDITION = "5.1"
 
 DIMMED_RULE_NOTE = (
-    "dimmed states: the absolute harmonic currents may not exceed those allowed at maximum "
-    "power; this rule rests on memory and should be confirmed against the standard"
+    "dimmed states: held to the absolute harmonic currents [A] allowed at maximum power; "
+    "this limit rests on memory and should be confirmed against the standard"
+)
+INDEPENDENT_DIMMER_NOTE = (
+    "dimmed states behind an independent phase-cut dimmer are an informative emission "
+    "assessment against the full-output limits [A], not part of the verdict: IEC 61000-3-2 "
+    "type-tests the lamp at its rated supply, and independent phase-control dimmers are "
+    "Class A equipment, not lighting equipment (5.1, 5.2)"
 )
 _DISREGARD_NOTE = (
     "harmonics below 0.6 % of the input current or 5 mA (whichever is greater) are "
@@ -162,12 +207,42 @@ def _table_rule(rule: str, table: OrderTable, s: Spectrum, pf: float, disregard_
         _check_fundamental(s)
     lims = [(x.order, lim) for x in table.limits if (lim := x.value_at(pf)) is not None]
     checks, notes = _order_checks(s, lims, unit, disregard_small)
-    if any(x.certainty != "seen" for x in table.limits):
+    sec = [x.order for x in table.limits if x.certainty == "secondary"]
+    if sec:
+        notes += (f"the limit of order {', '.join(map(str, sec))} in this edition was read in "
+                  "a public summary of the standard, not in its text (secondary)",)
+    if any(x.certainty not in ("seen", "secondary") for x in table.limits):
         notes += ("some limits of this table rest on memory",)
     return RuleResult(rule, table.source.citation(), checks, True, extra_notes + notes)
 
 
-def _order_table(key: str) -> OrderTable:
+def editions() -> tuple[str, ...]:
+    """The editions of IEC 61000-3-2 whose limit tables are shipped (from the data files'
+    keys ``iec61000-3-2:<edition>:<table>``), sorted."""
+    out = set()
+    for k in known_keys():
+        parts = k.split(":")
+        if parts[0] == "iec61000-3-2" and len(parts) >= 3 and parts[1][:1].isdigit():
+            out.add(parts[1])
+    return tuple(sorted(out))
+
+
+def check_edition(edition: str, field: str = "edition") -> str:
+    """``edition`` if its tables are shipped, else an InputError naming ``field`` and the
+    known editions."""
+    known = editions()
+    if not isinstance(edition, str) or edition not in known:
+        raise InputError(f"{field}: unknown IEC 61000-3-2 edition {edition!r}; known: "
+                         f"{', '.join(known)} (5.0: 2018; 5.1: 2018 + AMD1:2020)")
+    return edition
+
+
+def _key(table: str, edition: str) -> str:
+    return f"iec61000-3-2:{check_edition(edition)}:{table}"
+
+
+def _order_table(table: str, edition: str = DEFAULT_EDITION) -> OrderTable:
+    key = _key(table, edition)
     t = load_limits(key)
     assert isinstance(t, OrderTable), key  # the per-order tables of this standard
     return t
@@ -182,18 +257,22 @@ def _needed(value: float | None, x: OrderLimit, table: OrderTable, what: str) ->
 
 
 # ---------------------------------------------------------------------------- classes
-def evaluate_class_a(s: Spectrum, *, disregard_small: bool = True) -> RuleResult:
+def evaluate_class_a(s: Spectrum, *, disregard_small: bool = True,
+                     edition: str = DEFAULT_EDITION) -> RuleResult:
     """Class A: absolute limits per order [A] (IEC 61000-3-2:2018, Table 1)."""
-    return _table_rule("class A", _order_table("iec61000-3-2:class-a"), s, 1.0, disregard_small)
+    return _table_rule("class A", _order_table("class-a", edition), s, 1.0, disregard_small)
 
 
-def evaluate_class_b(s: Spectrum, *, disregard_small: bool = True) -> RuleResult:
+def evaluate_class_b(s: Spectrum, *, disregard_small: bool = True,
+                     edition: str = DEFAULT_EDITION) -> RuleResult:
     """Class B: 1.5 times the Class A limits [A] (IEC 61000-3-2:2018, 7.2)."""
-    return _table_rule("class B", _order_table("iec61000-3-2:class-b"), s, 1.0, disregard_small)
+    return _table_rule("class B", _order_table("class-b", edition), s, 1.0, disregard_small)
 
 
-def evaluate_class_c(s: Spectrum, pf: float, *, disregard_small: bool = True) -> RuleResult:
-    """Class C above 25 W: percent of the fundamental, h3 at 30 * lambda percent.
+def evaluate_class_c(s: Spectrum, pf: float, *, disregard_small: bool = True,
+                     edition: str = DEFAULT_EDITION) -> RuleResult:
+    """Class C above 25 W: percent of the fundamental; h3 at 27 % (edition 5.1) or
+    30 * lambda % (edition 5.0).
 
     Parameters
     ----------
@@ -204,14 +283,15 @@ def evaluate_class_c(s: Spectrum, pf: float, *, disregard_small: bool = True) ->
 
     References
     ----------
-    IEC 61000-3-2:2018, Table 2.
+    IEC 61000-3-2:2018, Table 2; IEC 61000-3-2:2018+AMD1:2020 (ed. 5.1), Table 2.
     """
     pf = _check_pf(pf)
-    return _table_rule("class C (> 25 W)", _order_table("iec61000-3-2:class-c"), s, pf,
+    return _table_rule("class C (> 25 W)", _order_table("class-c", edition), s, pf,
                        disregard_small)
 
 
-def evaluate_class_d(s: Spectrum, p_w: float, *, disregard_small: bool = True) -> RuleResult:
+def evaluate_class_d(s: Spectrum, p_w: float, *, disregard_small: bool = True,
+                     edition: str = DEFAULT_EDITION) -> RuleResult:
     """Class D: ``min(per-watt limit * P, absolute limit)`` per order [A].
 
     References
@@ -219,24 +299,25 @@ def evaluate_class_d(s: Spectrum, p_w: float, *, disregard_small: bool = True) -
     IEC 61000-3-2:2018, Table 3, columns 2 and 3.
     """
     p = _check_power(p_w)
-    t = _order_table("iec61000-3-2:class-d")
+    t = _order_table("class-d", edition)
     lims = [(x.order, min(_needed(x.per_watt_a_w, x, t, "a per-watt limit [A/W]") * p,
                           _needed(x.limit, x, t, "an absolute limit [A]")))
             for x in t.limits]
     checks, notes = _order_checks(s, lims, "A", disregard_small)
-    if p <= 75.0 or p > 600.0:
-        notes += (f"Class D covers equipment above 75 W and up to 600 W (from memory); "
-                  f"{p:.4g} W is outside that range",)
+    if p <= 75.0 or p > CLASS_D_MAX_W:
+        notes += (f"Class D covers equipment up to and including 600 W (5.1) and sets no "
+                  f"limits at 75 W or less (memory); {p:.4g} W is outside that range",)
     return RuleResult("class D", t.source.citation(), checks, True, notes)
 
 
-def _small() -> SmallLightingLimits:
-    t = load_limits("iec61000-3-2:class-c:5-25w")
+def _small(edition: str = DEFAULT_EDITION) -> SmallLightingLimits:
+    t = load_limits(_key("class-c:5-25w", edition))
     assert isinstance(t, SmallLightingLimits)
     return t
 
 
-def evaluate_option_a(s: Spectrum, p_w: float, *, disregard_small: bool = True) -> RuleResult:
+def evaluate_option_a(s: Spectrum, p_w: float, *, disregard_small: bool = True,
+                      edition: str = DEFAULT_EDITION) -> RuleResult:
     """Class C, 5 W to 25 W, option (a): Class D per-watt limits times the power [A].
 
     References
@@ -244,7 +325,7 @@ def evaluate_option_a(s: Spectrum, p_w: float, *, disregard_small: bool = True) 
     IEC 61000-3-2:2018, 7.4.2 and Table 3, column 2.
     """
     p = _check_power(p_w)
-    t = _small().option_a
+    t = _small(edition).option_a
     lims = [(x.order, _needed(x.per_watt_a_w, x, t, "a per-watt limit [A/W]") * p)
             for x in t.limits]
     checks, notes = _order_checks(s, lims, "A", disregard_small)
@@ -367,7 +448,8 @@ def waveform_test(w: Waveform, limits: WaveformTestLimits | None = None) -> Wave
 
 
 def evaluate_option_b(
-    s: Spectrum, waveform: Waveform | None = None, *, disregard_small: bool = True
+    s: Spectrum, waveform: Waveform | None = None, *, disregard_small: bool = True,
+    edition: str = DEFAULT_EDITION,
 ) -> RuleResult:
     """Class C, 5 W to 25 W, option (b): h3 <= 86 %, h5 <= 61 % and the waveform test.
 
@@ -378,7 +460,7 @@ def evaluate_option_b(
     ----------
     IEC 61000-3-2:2018 + AMD1:2020, 7.4.2 b).
     """
-    t = _small()
+    t = _small(edition)
     base = _table_rule("option b", t.option_b, s, 1.0, disregard_small)
     if waveform is None or waveform.voltage_v is None:
         why = ("the waveform test needs the voltage zero crossing and the record has no "
@@ -390,14 +472,15 @@ def evaluate_option_b(
                       base.notes + ("waveform test: worse of the two half-cycles",))
 
 
-def evaluate_option_c(s: Spectrum, *, disregard_small: bool = True) -> RuleResult:
+def evaluate_option_c(s: Spectrum, *, disregard_small: bool = True,
+                      edition: str = DEFAULT_EDITION) -> RuleResult:
     """Class C, 5 W to 25 W, option (c): THD <= 70 % and limits for orders 2 to 11.
 
     References
     ----------
     IEC 61000-3-2:2018 + AMD1:2020, 7.4.2 c); THD over orders 2..40 (memory).
     """
-    t = _small()
+    t = _small(edition)
     base = _table_rule("option c", t.option_c, s, 1.0, disregard_small)
     top = min(t.thd_max_order, s.max_order)
     thd_check = Check.against(f"THD (2..{top})", None, float(thd(s, top)), t.thd_limit,
@@ -436,12 +519,13 @@ def evaluate_fixture(
     equipment_class: EquipmentClass = "C",
     *,
     fixture: str = "",
-    setting: str = "",
+    state: str = "",
     nominal_voltage_v: float | None = None,
     outside_scope: bool = False,
     disregard_small: bool = True,
+    edition: str = DEFAULT_EDITION,
 ) -> FixtureResult:
-    """IEC 61000-3-2 verdict for one fixture at one operating point.
+    """IEC 61000-3-2 verdict for one fixture in one compliance test state.
 
     Parameters
     ----------
@@ -454,73 +538,86 @@ def evaluate_fixture(
         Circuit power factor lambda [-]; default from the record's voltage channel.
     equipment_class
         ``"A"``, ``"B"``, ``"C"`` (lighting) or ``"D"``.
+    state
+        The compliance test state's label (``"full"``, a dimmed state).
     nominal_voltage_v
-        Nominal line-to-neutral supply voltage [V]; below 220 V the standard does not
-        apply and the verdict is ``pass`` with ``applicable=False`` unless
-        ``outside_scope`` asks for the evaluation anyway.
+        Nominal line-to-neutral supply voltage [V]. Below 220 V the standard sets no
+        limits (clause 1): the result is informative (``role="informative"``) and not
+        applicable, or, with ``outside_scope``, evaluated for information only.
     disregard_small
         Disregard harmonics below max(0.6 % of I_rms, 5 mA) (memory).
+    edition
+        ``"5.0"`` or ``"5.1"`` (see :func:`editions`); default :data:`DEFAULT_EDITION`.
 
     Returns
     -------
     FixtureResult
         For Class C from 5 W to 25 W, ``rules`` holds options a, b and c and ``rule``
         names the option that passed (the first in a, b, c order) or, when none did, the
-        closest one.
+        closest one. Class D above 600 W is outside Class D (``applicable=False``).
     """
     if equipment_class not in EQUIPMENT_CLASSES:
         raise InputError(
             f"equipment_class: expected one of {', '.join(EQUIPMENT_CLASSES)}, "
             f"got {equipment_class!r}"
         )
+    check_edition(edition)
     s, w = _as_spectrum(record)
     _check_fundamental(s)
     p, lam = _power_and_pf(s, p_w, pf)
     fixture = fixture or s.label
     notes: list[str] = []
+    role: Role = "verdict"
+    basis = ""
     if disregard_small:
         notes.append(_DISREGARD_NOTE)
     if s.i_rms_a > SCOPE_MAX_CURRENT_A:
         notes.append(f"input current {s.i_rms_a:.3g} A is above the 16 A per phase of the "
                      "standard's scope (IEC 61000-3-12 covers larger equipment)")
     if nominal_voltage_v is not None and nominal_voltage_v < SCOPE_MIN_VOLTAGE_V:
-        msg = (f"IEC 61000-3-2 does not apply below {SCOPE_MIN_VOLTAGE_V:g} V line-to-neutral "
-               f"(nominal {nominal_voltage_v:g} V)")
+        msg = (f"IEC 61000-3-2 sets no limits below {SCOPE_MIN_VOLTAGE_V:g} V line-to-neutral "
+               f"(clause 1; nominal {nominal_voltage_v:g} V): information only, not a verdict")
+        role, basis = "informative", msg
         if not outside_scope:
-            return FixtureResult(fixture, setting, p, lam, "pass", "not applicable: " + msg,
-                                 (), False, None, tuple(notes + [msg]))
-        notes.append(msg + "; evaluated on request, for information only")
+            return FixtureResult(fixture, state, p, lam, "pass", "not applicable: " + msg,
+                                 (), False, None, tuple(notes + [msg]), role, basis)
+        notes.append(msg + "; evaluated on request")
+
+    def na(why: str, extra: Sequence[str] = ()) -> FixtureResult:
+        return FixtureResult(fixture, state, p, lam, "pass", "not applicable: " + why, (),
+                             False, None, tuple(notes) + tuple(extra), role, basis)
 
     def done(rules: Sequence[RuleResult], rule: str | None = None,
              undetermined: str | None = None, extra: Sequence[str] = ()) -> FixtureResult:
         passed = [r for r in rules if r.verdict == "pass"]
         decider = passed[0] if passed else _closest(rules)
-        return FixtureResult(fixture, setting, p, lam, "pass" if passed else "fail",
+        return FixtureResult(fixture, state, p, lam, "pass" if passed else "fail",
                              rule or decider.rule, tuple(rules), True, undetermined,
-                             tuple(notes) + tuple(extra))
+                             tuple(notes) + tuple(extra), role, basis)
 
-    kw = {"disregard_small": disregard_small}
+    dr, ed = disregard_small, edition
     if equipment_class == "A":
-        return done([evaluate_class_a(s, **kw)])
+        return done([evaluate_class_a(s, disregard_small=dr, edition=ed)])
     if equipment_class == "B":
-        return done([evaluate_class_b(s, **kw)])
+        return done([evaluate_class_b(s, disregard_small=dr, edition=ed)])
     if equipment_class == "D":
         if p <= 75.0:
-            return FixtureResult(fixture, setting, p, lam, "pass",
-                                 "not applicable: Class D sets no limits at 75 W or less",
-                                 (), False, None,
-                                 tuple(notes + ["the 75 W lower end of Class D is recalled "
-                                                "from memory"]))
-        return done([evaluate_class_d(s, p, **kw)])
+            return na("Class D sets no limits at 75 W or less",
+                      ["the 75 W lower end of Class D is recalled from memory"])
+        if p > CLASS_D_MAX_W:
+            return na(f"Class D covers equipment up to and including {CLASS_D_MAX_W:g} W "
+                      f"(5.1); {p:.4g} W is outside it",
+                      ["equipment not in Class B, C or D is Class A (5.1): evaluate it as "
+                       "Class A"])
+        return done([evaluate_class_d(s, p, disregard_small=dr, edition=ed)])
     # Class C
     if p < NO_LIMITS_BELOW_W:
-        return FixtureResult(fixture, setting, p, lam, "pass",
-                             "not applicable: lighting below 5 W has no limits", (), False,
-                             None, tuple(notes))
+        return na("lighting below 5 W has no limits")
     if p > SMALL_LIGHTING_MAX_W:
-        return done([evaluate_class_c(s, lam, **kw)])
-    rules = [evaluate_option_a(s, p, **kw), evaluate_option_b(s, w, **kw),
-             evaluate_option_c(s, **kw)]
+        return done([evaluate_class_c(s, lam, disregard_small=dr, edition=ed)])
+    rules = [evaluate_option_a(s, p, disregard_small=dr, edition=ed),
+             evaluate_option_b(s, w, disregard_small=dr, edition=ed),
+             evaluate_option_c(s, disregard_small=dr, edition=ed)]
     extra = ["5 W to 25 W: the fixture complies when any one of options a, b, c passes"]
     undetermined = None
     if all(r.verdict == "fail" for r in rules if r.evaluated) and not rules[1].evaluated:
@@ -532,22 +629,33 @@ def evaluate_fixture(
 # ---------------------------------------------------------------------------- dimming
 @dataclass(frozen=True)
 class DimmableResult:
-    """Verdicts of a dimmable fixture: the maximum-power state and the dimmed states.
+    """Results of a dimmable fixture: the maximum-power state and the dimmed states.
 
-    ``results[0]`` is the state of maximum power (it gives the limits); the others follow
-    in the order given. ``verdict`` is ``pass`` only when every state passes.
+    ``results[0]`` is the state of maximum power (it gives the limits and the formal
+    verdict); the others follow in the order given, each with its role
+    (:attr:`FixtureResult.role`). ``verdict`` is ``fail`` only when a result that counts
+    (formal or strict) fails: an informative dimmed state never fails it.
     """
 
     fixture: str
     results: tuple[FixtureResult, ...]
     notes: tuple[str, ...]
+    dimming: str = "independent"
+    strict: bool = False
 
     @property
     def verdict(self) -> str:
-        return "pass" if all(r.verdict == "pass" for r in self.results) else "fail"
+        return "fail" if any(r.failed for r in self.results) else "pass"
+
+    @property
+    def informative(self) -> bool:
+        """True when no result counts (every one is informative)."""
+        return all(r.informative for r in self.results)
 
     def to_dict(self) -> dict:
-        return {"fixture": self.fixture, "verdict": self.verdict,
+        return {"fixture": self.fixture,
+                "verdict": "info" if self.informative else self.verdict,
+                "dimming": self.dimming, "strict_dimmed": self.strict,
                 "results": [r.to_dict() for r in self.results], "notes": list(self.notes)}
 
 
@@ -567,6 +675,13 @@ def _dimmed_rule(at_max: RuleResult, s_max: Spectrum, s: Spectrum,
                       "maximum power", checks, True, notes)
 
 
+_BUILTIN_BASIS = ("built-in dimming: measured at maximum load and at five equidistant steps "
+                  "between minimum and maximum power (IEC 61000-3-2, Annex C, lighting "
+                  "equipment); each state held to the currents [A] allowed at maximum power")
+_STRICT_BASIS = ("behind an independent phase-cut dimmer, held to the full-output limits [A] "
+                 "at the owner's request (strict mode), beyond the standard's type test")
+
+
 def evaluate_dimmable(
     states: Sequence[tuple[str, Record, float | None, float | None]],
     equipment_class: EquipmentClass = "C",
@@ -575,32 +690,51 @@ def evaluate_dimmable(
     nominal_voltage_v: float | None = None,
     outside_scope: bool = False,
     disregard_small: bool = True,
+    dimming: Dimming = "independent",
+    strict: bool = False,
+    edition: str = DEFAULT_EDITION,
 ) -> DimmableResult:
-    """IEC 61000-3-2 for dimmable lighting: at maximum power and in dimmed states.
+    """IEC 61000-3-2 for dimmable lighting: the verdict at maximum power, and the dimmed
+    states as the way the fixture is dimmed allows.
 
     Parameters
     ----------
     states
-        ``(setting label, Spectrum or Waveform, p_w [W] or None, pf [-] or None)`` per
-        dimmer setting; None takes the value from the record's voltage channel. The
-        standard asks for the maximum-power state and five equidistant settings between
-        minimum and maximum power (see :func:`dimmed_test_powers`).
+        ``(state label, Spectrum or Waveform, p_w [W] or None, pf [-] or None)`` per
+        compliance test state; None takes the value from the record's voltage channel.
+        The state of highest active power is the full-output state; Annex C asks for it
+        and five equidistant steps between minimum and maximum power (see
+        :func:`dimmed_test_powers`).
+    dimming
+        ``"independent"`` (the default): the fixture is dimmed by a separate phase-cut
+        dimmer; its dimmed states are informative (role ``"informative"``: shown against
+        the full-output limits as absolute currents, never failing the verdict), or, with
+        ``strict=True``, pass/fail (role ``"strict"``). ``"builtin"``: the equipment has
+        built-in dimming, and every state is part of its verdict.
+    strict
+        Hold the dimmed states behind an independent dimmer to pass/fail (an owner's
+        requirement beyond the standard).
+    edition
+        ``"5.0"`` or ``"5.1"`` (default :data:`DEFAULT_EDITION`).
 
     Returns
     -------
     DimmableResult
-        The state of highest active power is evaluated as a fixture
-        (:func:`evaluate_fixture`); every other state is held to the absolute harmonic
+        The state of highest active power evaluated as a fixture
+        (:func:`evaluate_fixture`); every other state against the absolute harmonic
         currents [A] allowed at maximum power, under any rule the maximum-power state
-        passed (or, when it passed none, any of its rules). That rule rests on memory,
-        and the result says so.
+        passed (or, when it passed none, any of its rules). That dimmed-state limit rests on
+        memory, and the result says so.
     """
     if not states:
-        raise InputError("states: expected at least one (setting, record, p_w, pf)")
+        raise InputError("states: expected at least one (state, record, p_w, pf)")
+    if dimming not in DIMMING_KINDS:
+        raise InputError(f"dimming: expected one of {', '.join(DIMMING_KINDS)}, got {dimming!r}")
+    check_edition(edition)
     prepared = []
     for k, st in enumerate(states):
         if len(st) != 4:
-            raise InputError(f"states[{k}]: expected (setting, record, p_w, pf)")
+            raise InputError(f"states[{k}]: expected (state, record, p_w, pf)")
         label, rec, p_w, pf = st
         s, w = _as_spectrum(rec)
         _check_fundamental(s)
@@ -610,11 +744,24 @@ def evaluate_dimmable(
     label, s_max, w_max, p_max, pf_max = prepared[kmax]
     fixture = fixture or s_max.label
     top = evaluate_fixture(w_max if w_max is not None else s_max, p_max, pf_max,
-                           equipment_class, fixture=fixture, setting=label,
+                           equipment_class, fixture=fixture, state=label,
                            nominal_voltage_v=nominal_voltage_v, outside_scope=outside_scope,
-                           disregard_small=disregard_small)
+                           disregard_small=disregard_small, edition=edition)
     results = [top]
-    notes = [DIMMED_RULE_NOTE, f"maximum power state: {label} at {p_max:.4g} W"]
+    if top.informative:
+        role: Role = "informative"
+        basis = top.basis
+    elif dimming == "builtin":
+        role, basis = "verdict", _BUILTIN_BASIS
+    elif strict:
+        role, basis = "strict", _STRICT_BASIS
+    else:
+        role, basis = "informative", INDEPENDENT_DIMMER_NOTE
+    notes = [f"maximum power state: {label} at {p_max:.4g} W"]
+    if len(prepared) > 1:
+        notes.insert(0, DIMMED_RULE_NOTE)
+        if dimming == "independent" and not strict and not top.informative:
+            notes.insert(0, INDEPENDENT_DIMMER_NOTE)
     base_rules = [r for r in top.rules if r.verdict == "pass"] or [
         r for r in top.rules if r.evaluated]
     for k, (lab, s, _w, p, lam) in enumerate(prepared):
@@ -622,7 +769,7 @@ def evaluate_dimmable(
             continue
         if not top.applicable or not base_rules:
             results.append(FixtureResult(fixture, lab, p, lam, "pass", top.rule, (), False,
-                                         None, top.notes))
+                                         None, top.notes, role, basis))
             continue
         rules = [_dimmed_rule(r, s_max, s, disregard_small) for r in base_rules]
         passed = [r for r in rules if r.verdict == "pass"]
@@ -632,8 +779,10 @@ def evaluate_dimmable(
             st_notes.append("this state draws less than 5 W; it is still held to the "
                             "maximum-power limits")
         results.append(FixtureResult(fixture, lab, p, lam, "pass" if passed else "fail",
-                                     decider.rule, tuple(rules), True, None, tuple(st_notes)))
-    return DimmableResult(fixture, tuple(results), tuple(notes) + (CAUTION,))
+                                     decider.rule, tuple(rules), True, None, tuple(st_notes),
+                                     role, basis))
+    return DimmableResult(fixture, tuple(results), tuple(notes) + (CAUTION,), dimming,
+                          bool(strict))
 
 
 def dimmed_test_powers(p_min_w: float, p_max_w: float, n: int = 5) -> np.ndarray:

@@ -2,9 +2,10 @@
 
 The numbers live in TOML files shipped as the resource package ``pqcalc.standards_limits``;
 each file names its standard, edition, table and how sure the values are (``certainty``:
-``"seen"`` in a public copy, ``"memory"`` recalled and unverified, ``"computed"`` derived
-here). :func:`load_limits` reads one table by its key, e.g. ``"iec61000-3-2:class-c"`` or
-``"ieee519:2014:current"``; :func:`known_keys` lists them all.
+``"seen"`` in a public copy, ``"secondary"`` read in public material summarising it,
+``"memory"`` recalled and unverified, ``"computed"`` derived here). :func:`load_limits`
+reads one table by its key, e.g. ``"iec61000-3-2:class-c"`` or ``"ieee519:2014:current"``;
+:func:`known_keys` lists them all.
 
 Values are stored in the unit of the published table (percent, mA/W, A) and converted here
 to SI and fractions: a limit in percent of the fundamental becomes a fraction, mA/W
@@ -44,8 +45,10 @@ __all__ = [
     "known_keys",
 ]
 
-Certainty = Literal["seen", "memory", "computed", "common practice"]
-_CERTAINTIES = ("seen", "memory", "computed", "common practice")
+Certainty = Literal["seen", "secondary", "memory", "computed", "common practice"]
+#: ``secondary``: read in public material quoting or summarising the standard (a test
+#: laboratory's list of an amendment's changes, a national adoption), not in its text.
+_CERTAINTIES = ("seen", "secondary", "memory", "computed", "common practice")
 
 #: Unit of a value in a data file -> factor to the SI value or fraction used inside.
 _UNIT_FACTOR = {"%": 0.01, "A": 1.0, "mA": 1e-3, "mA/W": 1e-3, "A/W": 1.0}
@@ -276,7 +279,10 @@ def _source(key: str, fname: str, d: dict) -> Source:
     c = s.get("certainty", "memory")
     if c not in _CERTAINTIES:
         raise InputError(f"standards_limits/{fname}: certainty {c!r} is not one of {_CERTAINTIES}")
-    return Source(key, s["standard"], s["edition"], s["table"], c, s.get("note", ""), fname)
+    # a table shared by several editions lists one key per edition; ``edition_by_key`` names
+    # the edition of the keys whose edition differs from ``edition``
+    edition = s.get("edition_by_key", {}).get(key, s["edition"])
+    return Source(key, s["standard"], edition, s["table"], c, s.get("note", ""), fname)
 
 
 def _factor(units: dict, column: str, fname: str) -> float:
@@ -428,7 +434,9 @@ def load_limits(key: str) -> LimitData:
     ----------
     key
         ``"iec61000-3-2:class-a"``, ``"...:class-b"``, ``"...:class-c"`` (above 25 W),
-        ``"iec61000-3-2:class-c:5-25w"``, ``"...:class-d"``, ``"ieee519:2014:current"``,
+        ``"iec61000-3-2:class-c:5-25w"``, ``"...:class-d"`` (the default edition, 5.1), or
+        with the edition named, ``"iec61000-3-2:5.0:class-c"``, ``"iec61000-3-2:5.1:..."``;
+        ``"ieee519:2014:current"``,
         ``"ieee519:2022:current"``, ``"ieee519:2014:voltage"``, ``"ieee519:2022:voltage"``.
 
     Raises

@@ -20,8 +20,8 @@ from collections.abc import Mapping
 from dataclasses import dataclass, field
 from typing import Any, Literal
 
-__all__ = ["Verdict", "Status", "Bound", "Check", "RuleResult", "FixtureResult", "REL_TOL",
-           "CAUTION"]
+__all__ = ["Verdict", "Status", "Bound", "Role", "Check", "RuleResult", "FixtureResult",
+           "REL_TOL", "CAUTION"]
 
 Verdict = Literal["pass", "fail"]
 #: A check's outcome: a limit met or not, a warning, or information without a limit.
@@ -135,6 +135,8 @@ class Check:
         if self.bound is not None:
             d["bound"] = self.bound
             d["margin"] = self.margin * k
+            rel = self.relative_margin
+            d["margin_pct"] = 100.0 * rel if math.isfinite(rel) else None
         if self.disregarded:
             d["disregarded"] = True
         if self.note:
@@ -167,9 +169,17 @@ class RuleResult:
 
     @property
     def worst_margin_ratio(self) -> float:
-        """Smallest margin relative to its limit [-] (for choosing the closest rule)."""
-        r = [c.margin / abs(c.limit) for c in self.checks if c.limit and not c.disregarded]
-        return min(r) if r else float("inf")
+        """Smallest relative margin [-] (:attr:`Check.relative_margin`) of the checks that
+        count (for choosing the closest rule)."""
+        c = self.closest_check
+        return c.relative_margin if c is not None else float("inf")
+
+    @property
+    def closest_check(self) -> Check | None:
+        """The check with the smallest relative margin, disregarded checks left out (None
+        when no check has a limit)."""
+        cs = [c for c in self.checks if c.limit and math.isfinite(c.limit) and not c.disregarded]
+        return min(cs, key=lambda c: c.relative_margin, default=None)
 
     def order_checks(self) -> tuple[Check, ...]:
         return tuple(c for c in self.checks if c.order is not None)
@@ -185,14 +195,21 @@ class RuleResult:
         }
 
 
+#: What a fixture result counts for: the formal verdict of the fixture type (``"verdict"``),
+#: an informative assessment kept out of the verdict (``"informative"``), or a state held
+#: to pass/fail at an owner's request beyond the standard's own test (``"strict"``).
+Role = Literal["verdict", "informative", "strict"]
+
+
 @dataclass(frozen=True)
 class FixtureResult:
-    """Verdict for one fixture at one setting.
+    """Verdict for one fixture in one compliance test state.
 
     Attributes
     ----------
-    fixture, setting
-        Labels for the table.
+    fixture, state
+        Labels for the table: the fixture and its compliance test state (full output, a
+        dimmed state).
     p_w, pf
         Active input power [W] and circuit power factor lambda [-] used.
     rule
@@ -206,10 +223,18 @@ class FixtureResult:
     undetermined
         Why the verdict could not be settled (e.g. only the waveform test could still
         pass and it needs the voltage), or None.
+    role
+        ``"verdict"``: the result decides the fixture type's verdict; ``"informative"``:
+        an emission assessment outside the standard's test or scope (a dimmed state behind
+        an independent dimmer, a supply below the standard's voltage scope), shown and never
+        the reason a verdict fails (``verdict`` then says only whether the figures meet the
+        limits); ``"strict"``: such a state held to pass/fail at the owner's request.
+    basis
+        Why the result has its role, in words ("" for the formal verdict).
     """
 
     fixture: str
-    setting: str
+    state: str
     p_w: float
     pf: float
     verdict: Verdict
@@ -218,6 +243,45 @@ class FixtureResult:
     applicable: bool = True
     undetermined: str | None = None
     notes: tuple[str, ...] = field(default=())
+    role: Role = "verdict"
+    basis: str = ""
+
+    @property
+    def informative(self) -> bool:
+        """True when the result is shown for information and kept out of every verdict."""
+        return self.role == "informative"
+
+    @property
+    def counts(self) -> bool:
+        """True when the result can fail a verdict (formal or strict)."""
+        return self.role != "informative"
+
+    @property
+    def failed(self) -> bool:
+        """True when the result fails a verdict: over a limit and not informative."""
+        return self.verdict == "fail" and self.counts
+
+    @property
+    def status(self) -> str:
+        """``"pass"``, ``"fail"``, ``"info"`` (informative) or ``"n/a"`` (no limits here)."""
+        if self.informative:
+            return "info"
+        if not self.applicable:
+            return "n/a"
+        return self.verdict
+
+    @property
+    def label(self) -> str:
+        """The status as printed: PASS, FAIL, NOT APPLICABLE, INFORMATIVE (within limits),
+        INFORMATIVE (above limits)."""
+        if self.informative:
+            if not self.rules:
+                return "INFORMATIVE (not evaluated)"
+            return "INFORMATIVE (" + ("within" if self.verdict == "pass" else "above") + \
+                " limits)"
+        if not self.applicable:
+            return "NOT APPLICABLE"
+        return self.verdict.upper() + (" (strict)" if self.role == "strict" else "")
 
     @property
     def deciding(self) -> RuleResult | None:
@@ -230,10 +294,15 @@ class FixtureResult:
         dec = self.deciding
         return {
             "fixture": self.fixture,
-            "setting": self.setting,
+            "state": self.state,
             "p_w": self.p_w,
             "pf": self.pf,
-            "verdict": self.verdict,
+            # the verdict as it counts: "info" for an informative result, whose comparison
+            # with the limits is "limits_met"
+            "verdict": "info" if self.informative else self.verdict,
+            "limits_met": self.verdict == "pass",
+            "role": self.role,
+            "basis": self.basis,
             "rule": self.rule,
             "applicable": self.applicable,
             "undetermined": self.undetermined,
