@@ -4,7 +4,10 @@ Reference: ``Engine.run_python`` of pqcalc.circuits.pwl, the loop the ngspice co
 (tests/test_circuits_ngspice.py) and the closed forms (tests/test_circuits_exact.py) were
 first established on. Both run the same arithmetic step for step, so the figures agree to
 rounding (1e-8 of I1 allows for a root placed one rounding apart), with the same flags,
-period and measured conduction.
+period and measured conduction. The cases lie away from a change of the triac's latching
+pattern: near one (the sine-following lamp behind an RC-fired triac at knob 0.7 or 0.9,
+measured) a circuit has several stable orbits and a rounding apart decides which one the
+shooting finds.
 """
 
 from __future__ import annotations
@@ -23,7 +26,7 @@ DIMMERS = [DimmerSpec("none"),
            DimmerSpec("leading-edge", conduction_deg=120.0, switch="triac"),
            DimmerSpec("leading-edge", conduction_deg=120.0, switch="transistor"),
            DimmerSpec("trailing-edge", conduction_deg=120.0),
-           DimmerSpec("leading-edge", knob=0.7, switch="triac")]
+           DimmerSpec("leading-edge", knob=0.6, switch="triac")]
 
 
 def _solve(model, power, dimmer, compiled: bool, monkeypatch):
@@ -42,7 +45,7 @@ def _solve(model, power, dimmer, compiled: bool, monkeypatch):
 @pytest.mark.skipif(not COMPILED, reason="numba is not installed: nothing compiled to compare")
 @pytest.mark.parametrize("model,power", MODELS, ids=[m for m, _ in MODELS])
 @pytest.mark.parametrize("dimmer", DIMMERS, ids=["none", "triac-120", "transistor-120",
-                                                 "trailing-120", "triac-knob-0.7"])
+                                                 "trailing-120", "triac-knob-0.6"])
 def test_compiled_loop_matches_python_loop(model, power, dimmer, monkeypatch):
     out = []
     for compiled in (True, False):

@@ -73,11 +73,18 @@ def _dropper_c(p, v, f):
 
 
 def _sine_follow_imax(p, v, f, n=3, vseg_frac=0.8):
-    """Top regulator current [A] that gives the rated input power on an ideal sine."""
-    th = np.linspace(0, np.pi, 20001)
-    vv = _vpk(v) * np.sin(th)
-    shape = _sf_shape(vv, n, vseg_frac * _vpk(v) / n, 1.0, 0.0)
-    return p / np.mean(vv * shape)
+    """Top regulator current [A] that gives the rated input power on an ideal sine.
+
+    With ``k`` of ``n`` segments lit the regulator draws ``k / n`` of it, segment ``k``
+    lighting at ``k v_seg``; over a half cycle of ``Vpk sin(theta)`` the mean power of the
+    step added at ``theta_k = asin(k v_seg / Vpk)`` is ``(1 / n) 2 Vpk cos(theta_k) / pi``
+    per ampere (closed form of ``(1 / pi) int Vpk sin(theta) d theta`` over
+    ``[theta_k, pi - theta_k]``)."""
+    vpk = _vpk(v)
+    vseg = vseg_frac * vpk / n
+    per_a = sum(2.0 * vpk * np.sqrt(1.0 - (k * vseg / vpk) ** 2) / np.pi / n
+                for k in range(1, n + 1) if k * vseg < vpk)
+    return p / per_a
 
 
 def _sf_levels(n, imax):

@@ -28,7 +28,15 @@ from dataclasses import dataclass, field, replace
 import numpy as np
 
 from ..waveform import Waveform
-from .kernels import seg_at, seg_fourier, seg_integral_to, seg_mean_product, seg_peak
+from .kernels import (
+    rows_at,
+    rows_fourier,
+    rows_integral_to,
+    seg_at,
+    seg_integral_to,
+    seg_mean_product,
+    seg_peak,
+)
 from .network import CH_ONE, CH_SOURCE
 
 __all__ = ["Expansion", "Figures", "SolvedWaveform", "expand", "figures", "MAX_ORDER"]
@@ -68,22 +76,45 @@ class Expansion:
         """``int_0^t y_r dt`` at the ascending times ``ts`` in ``[0, period]``."""
         return seg_integral_to(*self._row(r), np.ascontiguousarray(ts, dtype=float))
 
-    def cell_means(self, n: int) -> np.ndarray:
-        """Mean of each output over the ``n`` cells ``[(k - 1/2) dt, (k + 1/2) dt]`` of the
-        period (``dt = period / n``; cell 0 wraps round the period's end): (R, n)."""
+    def segment_integrals(self, r: int) -> np.ndarray:
+        """``int y_r dt`` over each segment: (S,)."""
+        a, mu, g, t0, t1 = self._row(r)
+        d = (t1 - t0)[:, None]
+        z = mu * d
+        small = np.abs(z) < 1e-8
+        ph = np.where(small, 1.0 + 0.5 * z, np.expm1(np.where(small, 1.0, z))
+                      / np.where(small, 1.0, z))
+        return np.real(np.sum(a * d * ph, axis=1)) + g * (t1 - t0)
+
+    def cell_means(self, n: int, rows: int | None = None) -> np.ndarray:
+        """Mean of outputs ``0..rows-1`` (all without ``rows``) over the ``n`` cells
+        ``[(k - 1/2) dt, (k + 1/2) dt]`` of the period (``dt = period / n``; cell 0 wraps
+        round the period's end): (rows, n)."""
         T = self.period_s
         edges = np.append((np.arange(n) + 0.5) * (T / n), T)
-        G = np.array([self.integral_to(r, edges) for r in range(self.g.shape[1])])
+        nr = self.g.shape[1] if rows is None else rows
+        G = rows_integral_to(np.ascontiguousarray(self.alpha[:, :nr, :]), self.mu,
+                             np.ascontiguousarray(self.g[:, :nr]), self.t0, self.t1, edges)
         out = np.empty((G.shape[0], n))
         out[:, 1:] = np.diff(G[:, :n], axis=1)
         out[:, 0] = G[:, 0] + G[:, n] - G[:, n - 1]
         return out * (n / T)
 
-    def fourier(self, omega: float, max_order: int = MAX_ORDER) -> np.ndarray:
+    def at_rows(self, first: int, count: int, ts: np.ndarray) -> np.ndarray:
+        """Point values of outputs ``first..first+count-1`` at the ascending times ``ts``."""
+        return rows_at(np.ascontiguousarray(self.alpha[:, first:first + count, :]), self.mu,
+                       np.ascontiguousarray(self.g[:, first:first + count]), self.t0, self.t1,
+                       np.ascontiguousarray(ts, dtype=float))
+
+    def fourier(self, omega: float, max_order: int = MAX_ORDER,
+                rows: int | None = None) -> np.ndarray:
         """``(1 / T) int_0^T y exp(-j h w t) dt`` for orders ``h = 0..max_order`` of the
-        mains frequency ``w`` [rad/s]: (R, max_order + 1) complex."""
-        return np.array([seg_fourier(*self._row(r), float(omega), int(max_order))
-                         for r in range(self.g.shape[1])]) / self.period_s
+        mains frequency ``w`` [rad/s], outputs ``0..rows-1`` (all without ``rows``):
+        (rows, max_order + 1) complex."""
+        nr = self.g.shape[1] if rows is None else rows
+        return rows_fourier(np.ascontiguousarray(self.alpha[:, :nr, :]), self.mu,
+                            np.ascontiguousarray(self.g[:, :nr]), self.t0, self.t1,
+                            float(omega), int(max_order)) / self.period_s
 
     def mean_product(self, r1: int, r2: int) -> float:
         """``(1 / T) int_0^T y_r1 y_r2 dt`` (a mean square or a mean power)."""

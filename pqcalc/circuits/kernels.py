@@ -252,7 +252,8 @@ def seg_integral_to(a, mu, g, t0, t1, ts):
         if moved:
             run = 0
         tau = t - t0[s]
-        if run % 32 == 0 or ts[n] - ts[n - 1] != ts[n - 1] - ts[n - 2] or n < 2:
+        if run % 32 == 0 or n < 2 or abs((ts[n] - ts[n - 1]) - (ts[n - 1] - ts[n - 2])) > \
+                1e-9 * (ts[n] - ts[n - 1]):
             for m in range(M):
                 e[m] = cmath.exp(mu[s, m] * tau)
                 if n >= 1:
@@ -306,12 +307,12 @@ def seg_peak(a, mu, g, t0, t1, n_even, n_geom):
                 kb, vb = k, v
         if vb > best:
             best = vb
-        if d > 0 and vb >= 0.9 * best:
+        if d > 0 and vb >= 0.98 * best:
             lo = d * u[max(kb - 1, 0)]
             hi = d * u[min(kb + 1, npt - 1)]
             x1, x2 = hi - gr * (hi - lo), lo + gr * (hi - lo)
             f1, f2 = _val(a, mu, g, s, x1), _val(a, mu, g, s, x2)
-            for _ in range(40):
+            for _ in range(32):
                 if f1 > f2:
                     hi, x2, f2 = x2, x1, f1
                     x1 = hi - gr * (hi - lo)
@@ -427,7 +428,8 @@ def seg_at(a, mu, g, t0, t1, ts):
         if moved:
             run = 0
         tau = t - t0[s]
-        if run % 32 == 0 or n < 2 or ts[n] - ts[n - 1] != ts[n - 1] - ts[n - 2]:
+        if run % 32 == 0 or n < 2 or abs((ts[n] - ts[n - 1]) - (ts[n - 1] - ts[n - 2])) > \
+                1e-9 * (ts[n] - ts[n - 1]):
             for m in range(M):
                 e[m] = cmath.exp(mu[s, m] * tau)
                 if n >= 1:
@@ -440,4 +442,132 @@ def seg_at(a, mu, g, t0, t1, ts):
         for m in range(M):
             v += (a[s, m] * e[m]).real
         out[n] = v
+    return out
+
+
+# ---------------------------------------------------------------------- several outputs
+# The same sums for outputs r of one trajectory (a[s, r, m], g[s, r]): the exponentials
+# depend on the segment and the time only, and are shared by the outputs.
+
+
+@njit(cache=True)
+def rows_integral_to(a, mu, g, t0, t1, ts):
+    """``int_0^t y_r dt`` at the ascending times ``ts`` (``t0[0] = 0``): (R, len(ts))."""
+    S, R, M = a.shape
+    out = np.empty((R, ts.size))
+    e = np.empty(M, dtype=np.complex128)
+    st = np.empty(M, dtype=np.complex128)
+    w = np.empty(M, dtype=np.complex128)
+    base = np.zeros(R)
+    s = 0
+    run = 0
+    for n in range(ts.size):
+        t = ts[n]
+        moved = False
+        while s < S - 1 and t > t1[s]:
+            d = t1[s] - t0[s]
+            for m in range(M):
+                w[m] = d * _phi1(mu[s, m] * d)
+            for r in range(R):
+                acc = g[s, r] * d
+                for m in range(M):
+                    acc += (a[s, r, m] * w[m]).real
+                base[r] += acc
+            s += 1
+            moved = True
+        if moved:
+            run = 0
+        tau = t - t0[s]
+        if run % 32 == 0 or n < 2 or abs((ts[n] - ts[n - 1]) - (ts[n - 1] - ts[n - 2])) > \
+                1e-9 * (ts[n] - ts[n - 1]):
+            for m in range(M):
+                e[m] = cmath.exp(mu[s, m] * tau)
+                if n >= 1:
+                    st[m] = cmath.exp(mu[s, m] * (ts[n] - ts[n - 1]))
+        else:
+            for m in range(M):
+                e[m] *= st[m]
+        run += 1
+        for m in range(M):  # int_0^tau exp(mu u) du
+            z = mu[s, m] * tau
+            if abs(z) < 1e-5:
+                w[m] = tau * (1.0 + z * (0.5 + z / 6.0))
+            else:
+                w[m] = (e[m] - 1.0) / mu[s, m]
+        for r in range(R):
+            acc = base[r] + g[s, r] * tau
+            for m in range(M):
+                acc += (a[s, r, m] * w[m]).real
+            out[r, n] = acc
+    return out
+
+
+@njit(cache=True)
+def rows_at(a, mu, g, t0, t1, ts):
+    """Point values at the ascending times ``ts``: (R, len(ts))."""
+    S, R, M = a.shape
+    out = np.empty((R, ts.size))
+    e = np.empty(M, dtype=np.complex128)
+    st = np.empty(M, dtype=np.complex128)
+    s = 0
+    run = 0
+    for n in range(ts.size):
+        t = ts[n]
+        moved = False
+        while s < S - 1 and t > t1[s]:
+            s += 1
+            moved = True
+        if moved:
+            run = 0
+        tau = t - t0[s]
+        if run % 32 == 0 or n < 2 or abs((ts[n] - ts[n - 1]) - (ts[n - 1] - ts[n - 2])) > \
+                1e-9 * (ts[n] - ts[n - 1]):
+            for m in range(M):
+                e[m] = cmath.exp(mu[s, m] * tau)
+                if n >= 1:
+                    st[m] = cmath.exp(mu[s, m] * (ts[n] - ts[n - 1]))
+        else:
+            for m in range(M):
+                e[m] *= st[m]
+        run += 1
+        for r in range(R):
+            v = g[s, r]
+            for m in range(M):
+                v += (a[s, r, m] * e[m]).real
+            out[r, n] = v
+    return out
+
+
+@njit(cache=True)
+def rows_fourier(a, mu, g, t0, t1, omega, max_order):
+    """``int y_r exp(-j h w t) dt`` over the segments, ``h = 0..max_order``: (R, H)."""
+    S, R, M = a.shape
+    out = np.zeros((R, max_order + 1), dtype=np.complex128)
+    pa = np.empty(M, dtype=np.complex128)
+    pc = np.empty(M, dtype=np.complex128)
+    emu = np.empty(M, dtype=np.complex128)
+    for s in range(S):
+        d = t1[s] - t0[s]
+        if not d > 0:
+            continue
+        step = cmath.exp(-1j * omega * d)
+        rstep = cmath.exp(-1j * omega * t0[s])
+        eh = 1.0 + 0j
+        rot = 1.0 + 0j
+        for m in range(M):
+            emu[m] = cmath.exp(mu[s, m] * d)
+        for h in range(max_order + 1):
+            jhw = 1j * h * omega
+            pg = d * _phi1e(-jhw * d, eh)
+            for m in range(M):
+                pa[m] = 0.5 * d * _phi1e((mu[s, m] - jhw) * d, emu[m] * eh)
+                pc[m] = 0.5 * d * _phi1e((mu[s, m].conjugate() - jhw) * d,
+                                         emu[m].conjugate() * eh)
+            for r in range(R):
+                acc = g[s, r] * pg
+                for m in range(M):
+                    acc += a[s, r, m] * pa[m] + a[s, r, m].conjugate() * pc[m]
+                out[r, h] += acc * rot
+            eh *= step
+            rot *= rstep
     return out

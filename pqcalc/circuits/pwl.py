@@ -195,6 +195,39 @@ class Trajectory:
                 np.array([ids[id(sg.md)] for sg in segs], dtype=np.int64),
                 np.array([sg.c for sg in segs], dtype=complex).reshape(len(segs), n))
 
+    def seg_times(self) -> tuple[np.ndarray, np.ndarray]:
+        """Start and end times of the segments [s]."""
+        if self._segments is None and self._lazy is not None:
+            b, k = self._lazy.buf, self._lazy.nseg
+            return b.seg_t[:k, 0], b.seg_t[:k, 1]
+        return (np.array([sg.t0 for sg in self.segments]),
+                np.array([sg.t1 for sg in self.segments]))
+
+    def switch_on(self, pos: int) -> np.ndarray:
+        """Per segment, entry ``pos`` of its mode's switch vector (diodes, then switch
+        elements' segments) [int]."""
+        if self._segments is None and self._lazy is not None:
+            b, k = self._lazy.buf, self._lazy.nseg
+            return self._lazy.fl.mon[b.seg_mode[:k], pos]
+        return np.array([int(sg.md.key[pos]) for sg in self.segments], dtype=np.int64)
+
+    def states(self, ia: int) -> list:
+        """Per segment, the state of automaton ``ia``."""
+        if self._segments is None and self._lazy is not None:
+            b, k = self._lazy.buf, self._lazy.nseg
+            a = self._lazy.fl.eng.automata[ia]
+            rows = b.seg_aut[:k, ia, :]
+            cache: dict[bytes, object] = {}
+            out = []
+            for r in rows:
+                key = r.tobytes()
+                st = cache.get(key)
+                if st is None:
+                    st = cache[key] = a.from_row(r)
+                out.append(st)
+            return out
+        return [sg.disc[1][ia] for sg in self.segments]
+
     @property
     def events(self) -> list:
         if self._events is None:
@@ -614,6 +647,7 @@ class _FastLoop:
         self.mp0 = np.zeros((cap, n))
         self.nmodes = 0
         self.mds: list[_ModeData] = []
+        self._decoded: dict[tuple, tuple] = {}
 
     _MODE_ARRAYS = ("mkeys", "mon", "mA", "mB", "mQ", "mlam", "mV", "mVinv", "mP", "mp0")
 
@@ -640,8 +674,13 @@ class _FastLoop:
         return dio, aut
 
     def decode(self, dio, aut) -> tuple:
-        return (tuple(bool(d) for d in dio),
+        key = (dio.tobytes(), aut.tobytes())
+        disc = self._decoded.get(key)
+        if disc is None:
+            disc = self._decoded[key] = (
+                tuple(bool(d) for d in dio),
                 tuple(a.from_row(aut[ia]) for ia, a in enumerate(self.eng.automata)))
+        return disc
 
     # ------------------------------------------------------------------ one run
     def run(self, t_start: float, t_end: float, x0: np.ndarray, disc0: tuple,
@@ -874,6 +913,7 @@ class _FastLoop:
         self.mp0 = np.zeros((cap, n))
         self.nmodes = 0
         self.mds: list[_ModeData] = []
+        self._decoded: dict[tuple, tuple] = {}
 
     _MODE_ARRAYS = ("mkeys", "mon", "mA", "mB", "mQ", "mlam", "mV", "mVinv", "mP", "mp0")
 
@@ -900,8 +940,13 @@ class _FastLoop:
         return dio, aut
 
     def decode(self, dio, aut) -> tuple:
-        return (tuple(bool(d) for d in dio),
+        key = (dio.tobytes(), aut.tobytes())
+        disc = self._decoded.get(key)
+        if disc is None:
+            disc = self._decoded[key] = (
+                tuple(bool(d) for d in dio),
                 tuple(a.from_row(aut[ia]) for ia, a in enumerate(self.eng.automata)))
+        return disc
 
     def _add_mode(self, disc) -> None:
         md = self.eng.mode_data(disc)
@@ -1002,11 +1047,8 @@ class _LazyRecord:
     def segments(self) -> list:
         fl, b = self.fl, self.buf
         out = []
-        last = None
         for k in range(self.nseg):
-            key = (b.seg_dio[k].tobytes(), b.seg_aut[k].tobytes())
-            if key != last:
-                disc, last = fl.decode(b.seg_dio[k], b.seg_aut[k]), key
+            disc = fl.decode(b.seg_dio[k], b.seg_aut[k])
             out.append(_Segment(float(b.seg_t[k, 0]), float(b.seg_t[k, 1]), disc,
                                 fl.mds[b.seg_mode[k]], b.seg_x0[k], c=b.seg_c[k]))
         return out

@@ -307,9 +307,12 @@ def _period_guess(eng: Engine, x0, d0, cycles: int = GUESS_CYCLES,
 
 
 def _steady(case: _Case, supply: Supply, check_stability: bool, max_period: int = 4,
-            exact_phi: bool = False, triac: bool = False):
+            exact_phi: bool = False, triac: bool = False, start=None):
+    """Periodic steady state of ``case``; ``start`` (a state and discrete state at the cycle
+    start, from a solve of a nearby circuit of the same structure) replaces the initial
+    guess: a warm start."""
     eng = case.eng
-    x0, d0 = _initial(case, supply)
+    x0, d0 = _initial(case, supply) if start is None else start
     # one cycle from the initial guess gives Newton a state near the orbit
     warm = eng.run(0.0, eng.T1, x0, d0, record=triac)
     x0, d0 = warm.xT, warm.sT
@@ -425,15 +428,15 @@ def _conduction(tr, eng: Engine, cycles: int):
     nh = 2 * cycles
     on = np.zeros(nh)
     idx = eng.net.switches.index(eng.net.index[SWITCH]) + len(eng.net.diodes)
-    for sg in tr.segments:
-        if sg.md.key[idx]:
-            t0, t1 = sg.t0, sg.t1
-            k0 = int(np.floor(t0 / H + 1e-12))
-            while t0 < t1 - 1e-15 and k0 < nh:
-                e = min(t1, (k0 + 1) * H)
-                on[k0] += e - t0
-                t0 = e
-                k0 += 1
+    ts0, ts1 = tr.seg_times()
+    for t0, t1 in zip(ts0[tr.switch_on(idx) != 0].tolist(), ts1[tr.switch_on(idx) != 0].tolist(),
+                      strict=True):
+        k0 = int(np.floor(t0 / H + 1e-12))
+        while t0 < t1 - 1e-15 and k0 < nh:
+            e = min(t1, (k0 + 1) * H)
+            on[k0] += e - t0
+            t0 = e
+            k0 += 1
     fires = np.zeros(nh, dtype=int)
     nolatch = False
     for t, tag in tr.events:
@@ -444,13 +447,16 @@ def _conduction(tr, eng: Engine, cycles: int):
             fires[int(np.floor(t / H + 1e-9)) % nh] += 1
     # a gate pulse that ends with the triac off: its current had not reached latching
     prev = None
-    for sg in tr.segments:
-        st = sg.disc[1][0]
-        if isinstance(st, tuple) and st[0] == "off" and isinstance(prev, tuple) \
-                and prev[0] == "gate":
+    for st in (tr.states(0) if dimmer_is_triac(eng) else ()):
+        if st[0] == "off" and prev is not None and prev[0] == "gate":
             nolatch = True
         prev = st
     return tuple(float(v) for v in on / H * 180.0), tuple(int(v) for v in fires), nolatch
+
+
+def dimmer_is_triac(eng: Engine) -> bool:
+    """The dimmer (automaton 0) is a triac: its states are tuples with a name first."""
+    return isinstance(eng.automata[0].initial, tuple)
 
 
 def _thermal_light(p_w: np.ndarray, rated_w: float, tau_s: float, f_hz: float,
@@ -521,6 +527,8 @@ def _solve_cached(supply, dimmer, loads, spc, extras, reference) -> Solution:
     # voltage loop sets its emulated resistance so that it draws its target power.
     cond = cond_guess
     pfc = [i for i, g in enumerate(loads) if g.model == "pfc"]
+    warm_ok = not any(g.model == "pwm-detect" for g in loads)
+    start = None
     v2 = supply.v_rms_v ** 2
     for _pass in range(6):
         levels = [dim_fraction(cond, p) if g.model in ("pfc", "pwm-detect") else 1.0
@@ -536,7 +544,11 @@ def _solve_cached(supply, dimmer, loads, spc, extras, reference) -> Solution:
             case = _build(supply, dimmer, dp, loads, gparams, levels)
             tr, period, iters, ok = _steady(case, supply, check,
                                             exact_phi=not dimmer.uses_triac,
-                                            triac=dimmer.uses_triac)
+                                            triac=dimmer.uses_triac, start=start)
+            # the next pass differs in a pfc driver's emulated resistance (and its dimming
+            # level) alone: it starts from this solution (a warm start); a pwm-detect
+            # driver's converter changes its chord cells with its level: it starts cold
+            start = (tr.x0, tr.s0) if period == 1 and ok and warm_ok else None
             again = False
             for i in pfc:
                 again |= _pfc_update(gparams[i], brackets[i],
@@ -551,6 +563,8 @@ def _solve_cached(supply, dimmer, loads, spc, extras, reference) -> Solution:
         if abs(new_cond - cond) < 0.5:
             break
         cond = new_cond
+    if reference:  # the lamp alone on its rated supply: only its mean LED power is read
+        return _reference_power(case, tr, case.builds[0])
     return _assemble(supply, dimmer, dp, loads, gparams, levels, case, tr, period, iters, ok,
                      spc, extras, measured, fires, nolatch, cond_set, reference)
 
@@ -593,13 +607,13 @@ def _detected(tr, eng: Engine, cycles: int, dimmer: DimmerSpec, on_deg) -> list[
         return list(on_deg)
     H = eng.T1 / 2
     idx = eng.net.switches.index(eng.net.index[SWITCH]) + len(eng.net.diodes)
-    first = [None] * (2 * cycles)
-    was_on = tr.segments[-1].md.key[idx] if tr.segments else 0
-    for sg in tr.segments:
-        on = sg.md.key[idx]
-        k = min(int(np.floor(sg.t0 / H + 1e-12)), 2 * cycles - 1)
+    first: list[float | None] = [None] * (2 * cycles)
+    ons = tr.switch_on(idx).tolist()
+    was_on = ons[-1] if ons else 0
+    for t0, on in zip(tr.seg_times()[0].tolist(), ons, strict=True):
+        k = min(int(np.floor(t0 / H + 1e-12)), 2 * cycles - 1)
         if on and not was_on and first[k] is None:
-            first[k] = sg.t0 - k * H
+            first[k] = t0 - k * H
         was_on = on
     return [0.0 if f is None else 180.0 * (1.0 - f / H) for f in first]
 
@@ -612,14 +626,40 @@ def _input_power(case, tr, b, period) -> float:
     return (ex.mean_product(0, 1) - ex.mean_product(0, 2)) / b.m
 
 
-def _point_samples(eng, tr, ts, outs) -> np.ndarray:
-    """Element currents ('i') or voltages ('v') at the times ``ts`` [A, V]: (outputs, ts)."""
-    if not outs:
-        return np.zeros((0, ts.size))
-    net = eng.net
-    ex = expand(eng, tr, [(net.index[name] if kind == "i" else net.n_e + net.index[name])
-                          for name, kind in outs])
-    return np.array([ex.at(r, ts) for r in range(len(outs))])
+def _light_outputs(case) -> list[tuple[str, str]]:
+    """The element currents ('i') and voltages ('v') that the groups' light is made from
+    (point samples, see :func:`_light`)."""
+    outs: list[tuple[str, str]] = []
+    for b in case.builds:
+        if b.light == "filament":
+            outs += [(b.resistors[0], "i"), (b.resistors[0], "v")]
+        elif b.light == "dc-load":
+            outs += [(b.prefix + "R_load", "i"), (b.prefix + "R_load", "v")]
+        elif b.light == "tap":
+            outs.append((b.led, "i"))
+        elif b.led and b.light not in ("converter", "pwm", "pfc"):
+            outs += [(b.led, "i"), (b.led, "v")]
+    return list(dict.fromkeys(outs))
+
+
+def _row(net, name: str, kind: str) -> int:
+    return net.index[name] if kind == "i" else net.n_e + net.index[name]
+
+
+def _reference_power(case, tr, b) -> float:
+    """Mean LED power of the one lamp of a reference solve [W], integrated exactly (the
+    light of a tapped regulator weighs each segment's LED current by its lit segments)."""
+    eng, net = case.eng, case.eng.net
+    if b.light == "tap":
+        ia = [i for i, a in enumerate(eng.automata) if isinstance(a, TapLevels)
+              and a.el == b.led][0]
+        ex = expand(eng, tr, [net.index[b.led]])
+        lit = np.array([b.extra["lit"][st] for st in tr.states(ia)], dtype=float)
+        return float(np.sum(lit * ex.segment_integrals(0)) * b.extra["vseg"]
+                     / ex.period_s) / b.m
+    name = b.prefix + "R_load" if b.light == "dc-load" else b.led
+    ex = expand(eng, tr, [net.index[name], net.n_e + net.index[name]])
+    return ex.mean_product(0, 1) / b.m
 
 
 def _assemble(supply, dimmer, dp, loads, gparams, levels, case, tr, period, iters, ok, spc,
@@ -629,26 +669,27 @@ def _assemble(supply, dimmer, dp, loads, gparams, levels, case, tr, period, iter
     f = supply.frequency_hz
     n = spc * period
     ts = np.arange(n) / (spc * f)
-    # point samples: the light and the LED current (plots of what the lamp does)
-    outs = []
+    fs = spc * f
+    # one expansion of every output read: the line current, the line voltage and each
+    # group's current (exact figures and cell means: the waveforms), the capacitor currents
+    # and resistor powers (stresses), and the light's elements (point samples)
+    rows = [net.index["A_line"], net.n_e + net.index["R_vline"]] + \
+        [net.index[b.sense] for b in case.builds]
+    nw = len(rows)
+    stress_at = []
     for b in case.builds:
-        if b.led:
-            outs.append((b.led, "i"))
-            outs.append((b.led, "v"))
-        outs += [(r, "i") for r in b.resistors]
-        outs += [(r, "v") for r in b.resistors]
-    outs = list(dict.fromkeys(outs))
-    Y = _point_samples(eng, tr, ts, outs)
+        stress_at.append(len(rows))
+        rows += [net.index[c] for c in b.caps] + [net.index[r] for r in b.resistors] + \
+            [net.n_e + net.index[r] for r in b.resistors]
+    outs = _light_outputs(case)
+    light_at = len(rows)
+    rows += [_row(net, name, kind) for name, kind in outs]
+    ex = expand(eng, tr, rows)
+    Y = ex.at_rows(light_at, len(outs), ts) if outs else np.zeros((0, n))
     col = {o: i for i, o in enumerate(outs)}
     seg_state = _segment_states(tr, ts)
-    fs = spc * f
-    # exact figures: the line current, the line voltage and each group's current, their
-    # phasors and cell means (the waveforms); capacitor currents and resistor power
-    wave_rows = [net.index["A_line"], net.n_e + net.index["R_vline"]] + \
-        [net.index[b.sense] for b in case.builds]
-    ex = expand(eng, tr, wave_rows)
-    coef = ex.fourier(eng.src.omega, MAX_ORDER)
-    means = corrected_samples(ex.cell_means(n), coef, period)
+    coef = ex.fourier(eng.src.omega, MAX_ORDER, nw)
+    means = corrected_samples(ex.cell_means(n, nw), coef, period)
     vline = means[1]
     v_peak = ex.peak(1)
     fig = figures(ex, 0, 1, coef[1], coef[0], f, v_peak)
@@ -681,15 +722,13 @@ def _assemble(supply, dimmer, dp, loads, gparams, levels, case, tr, period, iter
         # read, except when the glow-when-off flag needs it now
         led, light = _light(case, b, g, p, Y, col, seg_state, ts, supply, period, levels[k],
                             reference, deferred=not extras and not dimmer_off)
-        srows = [net.index[c] for c in b.caps] + [net.index[r] for r in b.resistors] + \
-            [net.n_e + net.index[r] for r in b.resistors]
-        sx = expand(eng, tr, srows) if srows else None
-        nc, nr = len(b.caps), len(b.resistors)
+        s0, nc, nr = stress_at[k], len(b.caps), len(b.resistors)
         caps = tuple((c.removeprefix(b.prefix),
-                      float(np.sqrt(max(sx.mean_product(j, j), 0.0))) / m)
-                     for j, c in enumerate(b.caps)) if sx else ()
-        res = tuple((r.removeprefix(b.prefix), sx.mean_product(nc + j, nc + nr + j) / m)
-                    for j, r in enumerate(b.resistors)) if sx else ()
+                      float(np.sqrt(max(ex.mean_product(s0 + j, s0 + j), 0.0))) / m)
+                     for j, c in enumerate(b.caps))
+        res = tuple((r.removeprefix(b.prefix),
+                     ex.mean_product(s0 + nc + j, s0 + nc + nr + j) / m)
+                    for j, r in enumerate(b.resistors))
         inrush = _inrush(supply, dimmer, dp, loads, gparams, levels, k) if extras else None
         st = Stresses(gfig.i_peak_a, inrush, caps, res)
         if "conv" in b.extra:
@@ -718,13 +757,13 @@ class _SegmentStates:
     discrete state cost one evaluation per segment."""
 
     def __init__(self, tr, ts) -> None:
-        self.discs = [sg.disc for sg in tr.segments]
-        ends = np.array([sg.t1 for sg in tr.segments[:-1]])
+        self.tr = tr
+        ends = tr.seg_times()[1][:-1]
         self.idx = np.searchsorted(ends, ts, side="right")
 
     def automaton(self, ia: int, fn=lambda s: s, dtype=float) -> np.ndarray:
         """``fn`` of automaton ``ia``'s state at every sample."""
-        per_seg = np.array([fn(d[1][ia]) for d in self.discs], dtype=dtype)
+        per_seg = np.array([fn(st) for st in self.tr.states(ia)], dtype=dtype)
         return per_seg[self.idx]
 
 
@@ -791,9 +830,8 @@ def _light(case, b, g, p, Y, col, seg_state, ts, supply, period, level, referenc
 @functools.lru_cache(maxsize=128)
 def _reference_led_power(v, f, model, power_w, params) -> float:
     """Mean LED power of the lamp alone on its rated sinusoidal supply, undimmed [W]."""
-    sol = _solve_cached(Supply(v, f, 0.0, 0.0), DimmerSpec("none"),
+    ref = _solve_cached(Supply(v, f, 0.0, 0.0), DimmerSpec("none"),
                         (LoadGroup(model, power_w, 1, params),), 1024, False, True)
-    ref = float(np.mean(sol.groups[0].light))
     if not ref > 0:
         raise ConvergenceError(f"{model}: the lamp gives no light on its rated supply; check "
                                "its parameters")
