@@ -73,6 +73,7 @@ class Network:
     def __init__(self, n_channels: int = 2) -> None:
         self.node_index: dict[str, int] = {"0": 0}
         self.elements: list[Element] = []
+        self._names: set[str] = set()
         self.n_channels = n_channels
         self._final = False
         self._cache: dict[tuple, ModeSystem] = {}
@@ -84,8 +85,9 @@ class Network:
         return self.node_index[name]
 
     def _add(self, kind: str, name: str, a: str, b: str, **kw) -> None:
-        if any(e.name == name for e in self.elements):
+        if name in self._names:
             raise ValueError(f"internal: element {name!r} defined twice")
+        self._names.add(name)
         self.elements.append(Element(kind, name, self.node(a), self.node(b), **kw))
 
     def R(self, name: str, a: str, b: str, r_ohm: float) -> None:
