@@ -177,7 +177,7 @@ class DimmingCurve:
         grp = {"light": (self.light, "1"), "percent_flicker": (self.percent_flicker, "1"),
                "flicker_index": (self.flicker_index, "1"),
                "modulation_frequency_hz": (self.modulation_frequency_hz, "Hz")}
-        data = {k: ("setting", v, {"units": u}) for k, (v, u) in per.items()}
+        data: dict[str, tuple] = {k: ("setting", v, {"units": u}) for k, (v, u) in per.items()}
         data.update({k: (("group", "setting"), v, {"units": u}) for k, (v, u) in grp.items()})
         data["ieee1789"] = (("group", "setting"), np.array(self.ieee1789, dtype=str))
         data["flags"] = ("setting", np.array([",".join(f) for f in self.flags], dtype=str))
@@ -438,8 +438,8 @@ def dimming_curve(supply: Supply, dimmer_kind: str, load_groups, steps: int = 21
             continue
         w = sol.waveform
         cond[k] = float(np.mean(sol.conduction_deg)) if len(sol.conduction_deg) else np.nan
-        p_w[k] = float(w.p_w)
-        i_rms[k] = float(w.i_rms_a)
+        p_w[k] = sol.p_w  # exact figures of the solution (pqcalc.circuits.exact)
+        i_rms[k] = sol.i_rms_a
         try:
             s = analyze(w, 40).summary
             thd_i[k] = s.thd_i
@@ -459,10 +459,11 @@ def dimming_curve(supply: Supply, dimmer_kind: str, load_groups, steps: int = 21
         period[k] = sol.period_cycles
     if len(failures) == n:
         raise ConvergenceError("dimming curve: no setting converged; " + "; ".join(failures[:3]))
-    all_flags, notes = [], []
+    all_flags: list[str] = []
+    notes: list[str] = []
     for g in range(G):
-        fl, nt = curve_flags(settings, light[g], flags, unit)
-        all_flags += fl
+        cf, nt = curve_flags(settings, light[g], flags, unit)
+        all_flags += cf
         prefix = f"group {g} ({groups[g].model}): " if G > 1 else ""
         notes += [prefix + t for t in nt]
     notes += [f"{NO_SOLUTION} at {f}" for f in failures]

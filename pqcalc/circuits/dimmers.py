@@ -148,7 +148,7 @@ class WindowSwitch(Automaton):
         if self.always is not None:
             return np.inf, None
         k = np.floor(t / self.H)
-        best = np.inf, None
+        best: tuple[float, int | None] = (np.inf, None)
         for kk in (k, k + 1):
             for te, st in self.edges:
                 tt = kk * self.H + te
@@ -314,7 +314,9 @@ def build_dimmer(net: Network, spec: DimmerSpec, p: dict, supply: Supply, din: s
         net.G(SWITCH, din, dout, [(goff, 0.0), (1.0 / ron, 0.0)])
     if p.get("r_supply_ohm", 0.0) > 0:
         net.R("dim.R_supply", din, dout, p["r_supply_ohm"])
-    cond = conduction_from_knob(spec, p)
+    cond_set = conduction_from_knob(spec, p)
+    # a triac on its knob has no set angle (its RC network fires it)
+    cond = 0.0 if cond_set is None else cond_set
     if spec.kind == "trailing-edge":
         b = cond / 180.0 * half
         ramp = p["turn_off_s"]
@@ -326,7 +328,7 @@ def build_dimmer(net: Network, spec: DimmerSpec, p: dict, supply: Supply, din: s
     if p["c_snubber_f"] > 0:
         net.R("dim.R_snubber", din, "dim.sn", p["r_snubber_ohm"])
         net.C("dim.C_snubber", "dim.sn", dout, p["c_snubber_f"])
-    fire_s = None
+    fire_s: float | None = None
     if spec.knob is not None:
         r_t = p["r_min_ohm"] + (1.0 - spec.knob) * p["r_pot_ohm"]
         net.R("dim.R_timing", din, "dim.gt", r_t)

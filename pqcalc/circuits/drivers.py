@@ -441,7 +441,10 @@ def build_group(net: Network, k: int, model: str, power_w: float, m: int, p: dic
     nd = {s: pre + s for s in ("in", "a", "b", "p", "n", "c")}
     sense = pre + "A"
     net.V(sense, node_in, nd["in"], 1, 0.0)
-    caps, res, aut, extra = [], [], [], {}
+    caps: list[str] = []
+    res: list[str] = []
+    aut: list[tuple] = []
+    extra: dict = {}
     led = None
     if model == "resistive":
         r = p["r_cold_ohm"] if inrush else p["r_ohm"]
@@ -520,7 +523,7 @@ def build_group(net: Network, k: int, model: str, power_w: float, m: int, p: dic
             v_lo = v_flat
         del v_lo
         # the next ramp starts where its segment lights, above the flat's end
-        fixed = []
+        fixed: list[float] = []
         for b in breaks:
             fixed.append(max(b, fixed[-1] + 1e-3) if fixed else b)
         net.G(pre + "G_reg", nd["p"], nd["n"], table)

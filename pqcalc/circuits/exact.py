@@ -70,11 +70,13 @@ class Expansion:
 
     def at(self, r: int, ts: np.ndarray) -> np.ndarray:
         """Point values of output ``r`` at the ascending times ``ts``."""
-        return seg_at(*self._row(r), np.ascontiguousarray(ts, dtype=float))
+        a, mu, g, t0, t1 = self._row(r)
+        return seg_at(a, mu, g, t0, t1, np.ascontiguousarray(ts, dtype=float))
 
     def integral_to(self, r: int, ts: np.ndarray) -> np.ndarray:
         """``int_0^t y_r dt`` at the ascending times ``ts`` in ``[0, period]``."""
-        return seg_integral_to(*self._row(r), np.ascontiguousarray(ts, dtype=float))
+        a, mu, g, t0, t1 = self._row(r)
+        return seg_integral_to(a, mu, g, t0, t1, np.ascontiguousarray(ts, dtype=float))
 
     def segment_integrals(self, r: int) -> np.ndarray:
         """``int y_r dt`` over each segment: (S,)."""
@@ -124,7 +126,8 @@ class Expansion:
 
     def peak(self, r: int) -> float:
         """Largest ``|y_r|`` over the period."""
-        return float(seg_peak(*self._row(r), PEAK_EVEN, PEAK_GEOM))
+        a, mu, g, t0, t1 = self._row(r)
+        return float(seg_peak(a, mu, g, t0, t1, PEAK_EVEN, PEAK_GEOM))
 
 
 def expand(eng, tr, rows: list[int]) -> Expansion:

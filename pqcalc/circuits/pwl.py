@@ -118,10 +118,12 @@ class Automaton:
         """React to an event; ``value(row)`` evaluates a row over ``[x, u]`` at ``t``."""
         return s, x
 
-    #: the compiled loop's encoding (:mod:`pqcalc.circuits.loop`): a controller that
-    #: defines it returns ``(type, switch element name or None, f, b, b2)`` from
-    #: ``compiled_spec(net)`` and maps its states to and from a row of three floats
-    compiled_spec = None
+    def compiled_spec(self, net: Network) -> tuple | None:
+        """The compiled loop's encoding of this controller (:mod:`pqcalc.circuits.loop`):
+        ``(type, switch element name or None, f, b, b2)``, its states mapped to and from a
+        row of three floats by :meth:`to_row` and :meth:`from_row`; None where it has none
+        (the engine then runs in Python)."""
+        return None
 
     def to_row(self, s) -> tuple[float, float, float]:
         return (float(s), 0.0, 0.0)
@@ -180,7 +182,7 @@ class Trajectory:
             return self._lazy.table()
         segs = self.segments
         ids: dict[int, int] = {}
-        mds = []
+        mds: list[_ModeData] = []
         for sg in segs:
             if id(sg.md) not in ids:
                 ids[id(sg.md)] = len(mds)
@@ -343,7 +345,7 @@ class Engine:
     # ------------------------------------------------------------------ guards
     def guards(self, disc: tuple, md: _ModeData) -> list:
         net = self.net
-        out = []
+        out: list[tuple] = []
         diodes, autos = disc
         ms = net.mode(md.key)
         for j, k in enumerate(net.diodes):
@@ -438,7 +440,7 @@ class Engine:
         guard_count = 0
         while t < t_end - 1e-15:
             md = self.mode_data(disc)
-            t_time, ttag, tia = np.inf, None, None
+            t_time, ttag, tia = np.inf, None, -1
             for ia, (a, s) in enumerate(zip(self.automata, disc[1], strict=True)):
                 tt, tg = a.next_time(s, t)
                 if tt < t_time:
@@ -546,7 +548,7 @@ class Engine:
             disc = tr.sT
         return self.run(0.0, T, x, disc, record=True), max_iter, False
 
-    _floor = None  # per-state absolute scale, set by the caller
+    _floor: np.ndarray = np.zeros(0)  # per-state absolute scale, set by the caller
 
     def sample(self, tr: Trajectory, ts: np.ndarray, outputs: list[tuple[str, str]]):
         """Element currents ('i') or voltages ('v') at the ascending times ``ts`` [A, V]."""
@@ -590,11 +592,13 @@ class _FastLoop:
         net = eng.net
         if not COMPILED or net.n_x == 0 or net.n_u != 2:
             return None
-        if any(a.compiled_spec is None or a.constants(a.initial) for a in eng.automata):
+        specs = [a.compiled_spec(net) for a in eng.automata]
+        if any(sp is None or a.constants(a.initial) for a, sp in zip(eng.automata, specs,
+                                                                       strict=True)):
             return None
-        return cls(eng, loop)
+        return cls(eng, loop, specs)
 
-    def __init__(self, eng: Engine, loop) -> None:
+    def __init__(self, eng: Engine, loop, specs: list) -> None:
         self.eng, self.loop = eng, loop
         net = eng.net
         self.nd = len(net.diodes)
@@ -608,7 +612,6 @@ class _FastLoop:
         if acc * (1 << self.nd) >= 2 ** 62:
             raise ValueError("internal: too many switch states for the compiled loop")
         self.sw_mult = np.array(mult, dtype=np.int64)
-        specs = [a.compiled_spec(net) for a in eng.automata]
         na = len(specs)
         nf = max([len(sp[2]) for sp in specs] + [1])
         nb = max([len(sp[3]) for sp in specs] + [1])
@@ -727,6 +730,7 @@ class _FastLoop:
                 s0 = self.decode(dio, aut)
         eng.n_events += int(istate[L.I_NEV])
         sT = self.decode(dio, aut)
+        assert s0 is not None
         lazy = _LazyRecord(self, buf, int(istate[L.I_NSEG]), int(istate[L.I_NEV]))
         return Trajectory(xin, x, s0, sT, phi, None, None, lazy)
 
@@ -774,7 +778,7 @@ class _LazyRecord:
 
     def events(self) -> list:
         fl, b = self.fl, self.buf
-        out = []
+        out: list[tuple] = []
         for k in range(self.nev):
             kind, who, code = (int(v) for v in b.ev_tag[k])
             t = float(b.ev_t[k])

@@ -97,8 +97,10 @@ class GroupResult:
     params: tuple[tuple[str, float | None], ...]
     waveform: SolvedWaveform  # current of ONE lamp and the line voltage (see its figures)
     led_current_a: np.ndarray  # LED current of one lamp [A]
-    light: np.ndarray = _Deferred()  # relative light output, 1.0 = rated full output [-]
-    stresses: Stresses
+    # relative light output, 1.0 = rated full output [-]; a descriptor without a class
+    # default (the field stays required), which the type checker cannot see
+    light: np.ndarray = _Deferred()  # type: ignore[assignment]
+    stresses: Stresses  # type: ignore[misc]
 
     def __getstate__(self):
         self.light  # noqa: B018  (a deferred light is computed before pickling)
@@ -276,7 +278,7 @@ def _stable(eng: Engine, tr, cycles: int, scale: np.ndarray, exact_phi: bool) ->
     return bool(e1 <= 1.05e-3 and a.sT == tr.s0)  # the perturbation has not grown
 
 
-def _pattern_period(pat: list[bool]) -> int | None:
+def _pattern_period(pat: list) -> int | None:
     """The smallest period [half cycles] in which ``pat`` repeats at least twice."""
     for p in range(1, len(pat) // 2 + 1):
         if all(pat[i] == pat[i + p] for i in range(len(pat) - p)):
@@ -508,11 +510,14 @@ def solve_circuit(supply: Supply, dimmer: DimmerSpec, loads, samples_per_cycle: 
             raise InputError(f"loads: expected LoadGroup items, got {type(g).__name__}")
     if int(samples_per_cycle) < 64:
         raise InputError("samples_per_cycle: expected at least 64")
-    return _solve_cached(supply, dimmer, loads, int(samples_per_cycle), bool(extras), False)
+    sol = _solve_cached(supply, dimmer, loads, int(samples_per_cycle), bool(extras), False)
+    assert isinstance(sol, Solution)
+    return sol
 
 
 @functools.lru_cache(maxsize=256)
-def _solve_cached(supply, dimmer, loads, spc, extras, reference) -> Solution:
+def _solve_cached(supply, dimmer, loads, spc, extras, reference) -> Solution | float:
+    """One solve (memoised); with ``reference`` the mean LED power [W] of its one lamp."""
     dp = resolve_dimmer(dimmer, supply)
     gparams = [resolve_params(g.model, g.power_w, supply.v_rms_v, supply.frequency_hz,
                               g.param_dict()) for g in loads]
@@ -832,6 +837,7 @@ def _reference_led_power(v, f, model, power_w, params) -> float:
     """Mean LED power of the lamp alone on its rated sinusoidal supply, undimmed [W]."""
     ref = _solve_cached(Supply(v, f, 0.0, 0.0), DimmerSpec("none"),
                         (LoadGroup(model, power_w, 1, params),), 1024, False, True)
+    assert isinstance(ref, float)
     if not ref > 0:
         raise ConvergenceError(f"{model}: the lamp gives no light on its rated supply; check "
                                "its parameters")

@@ -2,8 +2,9 @@
 
 from __future__ import annotations
 
+from collections.abc import Iterable, Mapping
 from dataclasses import dataclass, field
-from typing import Literal, get_args
+from typing import Any, Literal, cast, get_args
 
 import numpy as np
 
@@ -90,7 +91,8 @@ class Supply:
             object.__setattr__(self, "voltage_harmonics", tuple(float(v) for v in arr))
             return
         terms = []
-        for k, t in enumerate(vh):
+        items = cast("Iterable[Any]", vh)
+        for k, t in enumerate(items):
             try:
                 h, frac, ph = (float(t[0]), float(t[1]), float(t[2]))
             except (TypeError, ValueError, IndexError):
@@ -108,7 +110,7 @@ class Supply:
     def source_terms(self) -> tuple[list[tuple[int, float, float]], float]:
         """``(order, peak_v, phase_rad)`` sine terms of the open-circuit voltage, and its DC."""
         vpk = np.sqrt(2) * self.v_rms_v
-        vh = self.voltage_harmonics
+        vh: Any = self.voltage_harmonics
         if vh is None:
             return [(1, vpk, 0.0)], 0.0
         if isinstance(vh[0], float):
@@ -158,7 +160,7 @@ class DimmerSpec:
     conduction_deg: float | None = None
     knob: float | None = None
     switch: str = "triac"
-    params: tuple = field(default=())
+    params: tuple | Mapping[str, float] = field(default=())  # frozen to a tuple
 
     def __post_init__(self) -> None:
         if self.kind not in DIMMER_KINDS:
@@ -213,7 +215,7 @@ class LoadGroup:
     model: str
     power_w: float
     count: int = 1
-    params: tuple = field(default=())
+    params: tuple | Mapping[str, float] = field(default=())  # frozen to a tuple
 
     def __post_init__(self) -> None:
         from .drivers import MODELS
