@@ -327,22 +327,36 @@ def seg_peak(a, mu, g, t0, t1, n_even, n_geom):
 
 # ---------------------------------------------------------------------- modes
 @njit(cache=True)
+def _norm1(M):
+    """Largest column sum of absolute values."""
+    best = 0.0
+    for j in range(M.shape[1]):
+        acc = 0.0
+        for i in range(M.shape[0]):
+            acc += abs(M[i, j])
+        best = max(best, acc)
+    return best
+
+
+@njit(cache=True)
 def modal(A, b_src, amps, orders, omega):
     """Eigen-decomposition ``A = V diag(lam) V^-1`` (a (nearly) defective ``A``, whose
-    eigenvector matrix has a condition number above 1e9, has its eigenvalues nudged apart
-    by 1e-9 of its largest diagonal entry) and the particular-solution phasors
+    eigenvector matrix has a condition number above 1e9 (1-norm), has its eigenvalues
+    nudged apart by 1e-9 of its largest diagonal entry) and the particular-solution phasors
     ``P[:, k] = (j h_k w I - A)^-1 b_src amps[k]`` of the source harmonics."""
     n = A.shape[0]
     Ac = A.astype(np.complex128)
     lam, V = np.linalg.eig(Ac)
-    if np.linalg.cond(V) > 1e9:
+    Vinv = np.linalg.inv(V)
+    # condition number in the 1-norm, ||V|| ||V^-1|| (within a factor n of the 2-norm's)
+    if _norm1(V) * _norm1(Vinv) > 1e9:
         big = 0.0
         for i in range(n):
             big = max(big, abs(A[i, i]))
         for i in range(n):
             Ac[i, i] += 1e-9 * big * (i + 1)
         lam, V = np.linalg.eig(Ac)
-    Vinv = np.linalg.inv(V)
+        Vinv = np.linalg.inv(V)
     P = np.empty((n, orders.size), dtype=np.complex128)
     for k in range(orders.size):
         M = -A.astype(np.complex128)
