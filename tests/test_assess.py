@@ -175,3 +175,23 @@ def test_summation_neutral_respects_sequence(tmp_path):
     # 1..50 (its time-domain rms also holds the orders above 50)
     mn = a.design.panels[0].neutral.magnitudes_a
     assert np.sqrt(np.sum(mn[1:] ** 2)) == pytest.approx(i_n, rel=1e-6)
+
+
+def test_workers_give_the_in_process_results(tmp_path):
+    # Distinct cases solved in two local worker processes: every number equals the
+    # in-process run (the same code on the same inputs, whatever order the cases are met
+    # in). Only the count of distinct solves may differ (a worker cannot share a solve with
+    # a case another worker met).
+    import json
+
+    from pqcalc.installation.assess import workers
+    from pqcalc.io.jsonsafe import json_safe
+
+    inst = build(tmp_path, [("L1", "leading-edge", 90, 2), ("L2", "leading-edge", 120, 3),
+                            ("L3", "leading-edge", 150, 4)],
+                 impedance="source_r_ohm = 0.05\nsource_l_h = 1e-4", interaction="true")
+    here = json.loads(json.dumps(json_safe(assess(inst).to_dict())))
+    with workers(2) as ex:
+        there = json.loads(json.dumps(json_safe(assess(inst, executor=ex).to_dict())))
+    here.pop("distinct_solves"), there.pop("distinct_solves")
+    assert there == here

@@ -16,6 +16,7 @@ import sys
 import tempfile
 import traceback
 import warnings
+from typing import Any
 
 import click
 
@@ -312,3 +313,16 @@ class Progress:
     def close(self) -> None:
         if self.bar is not None:
             self.bar.__exit__(None, None, None)
+
+
+def worker_options(f: Any) -> Any:
+    """``--workers N`` and ``--scheduler ADDRESS``: where the distinct circuit cases are
+    solved (pqcalc.installation.assess.workers)."""
+    f = click.option("--scheduler", metavar="ADDRESS", default=None,
+                     help="Solve on the workers of a dask.distributed scheduler (e.g. "
+                          "tcp://10.0.0.5:8786); needs pqcalc[distributed].")(f)
+    f = click.option("--workers", "n_workers", type=click.IntRange(min=0), default=0,
+                     show_default=True,
+                     help="Local worker processes for the distinct circuit cases (0: this "
+                          "process). Results equal the in-process run.")(f)
+    return f

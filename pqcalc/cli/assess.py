@@ -7,8 +7,9 @@ import sys
 import click
 
 from ..installation import assess, load_installation
+from ..installation.assess import workers
 from ..installation.results import CAUTION
-from ._common import Progress, echo_json, fmt, main, user_errors
+from ._common import Progress, echo_json, fmt, main, user_errors, worker_options
 
 
 @main.command("assess")
@@ -19,8 +20,9 @@ from ._common import Progress, echo_json, fmt, main, user_errors
                    "'all', or a scenario name.")
 @click.option("--no-interaction", is_flag=True,
               help="Ideal stiff supply: skip re-solving under the distorted panel voltage.")
+@worker_options
 @user_errors
-def assess_cmd(installation, as_json, which, no_interaction):
+def assess_cmd(installation, as_json, which, no_interaction, n_workers, scheduler):
     """Branch, panel, feeder and neutral currents, THDv and checks of an INSTALLATION file.
 
     Without --scenario, the design scenario (the one with the highest panel currents) is
@@ -45,7 +47,8 @@ def assess_cmd(installation, as_json, which, no_interaction):
         prog(min(done[0], total), total)
 
     try:
-        a = assess(inst, progress=step)
+        with workers(n_workers, scheduler) as ex:
+            a = assess(inst, progress=step, executor=ex)
     finally:
         prog.close()
     if as_json:

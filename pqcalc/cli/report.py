@@ -8,10 +8,11 @@ from pathlib import Path
 import click
 
 from ..errors import InputError
+from ..installation.assess import workers
 from ..installation.export import CSV_TABLES
 from ..io.atomic import is_stdout, write_stdout
 from ..io.export import EXPORT_FORMATS, check_output_path, write_bytes_atomic
-from ._common import main, refuse_binary_terminal, user_errors
+from ._common import main, refuse_binary_terminal, user_errors, worker_options
 
 #: Output suffix -> format, when --format is not given.
 _BY_SUFFIX = {".pdf": "pdf", ".json": "json", ".nc": "netcdf", ".zip": "csv", "": "csv"}
@@ -63,8 +64,9 @@ def _format_of(fmt: str | None, out: Path, table: str | None = None) -> str:
                    "each after a line '# table: NAME' and followed by an empty line.")
 @click.option("--no-interaction", is_flag=True,
               help="Ideal stiff supply: skip re-solving under the distorted panel voltage.")
+@worker_options
 @user_errors
-def report_cmd(installation, output, fmt, table, no_interaction):
+def report_cmd(installation, output, fmt, table, no_interaction, n_workers, scheduler):
     """Assess an INSTALLATION file and write the submittal or a data export.
 
     The PDF has a cover, a one-page summary of findings, the fixture-lineup compliance
@@ -106,7 +108,8 @@ def report_cmd(installation, output, fmt, table, no_interaction):
         inst = replace(inst, analysis=replace(inst.analysis, supply_interaction=False))
     if kind == "pdf" and not to_stdout and out.suffix.lower() != ".pdf":
         raise InputError(f"-o {out}: expected a file name ending in .pdf")
-    a = assess(inst)
+    with workers(n_workers, scheduler) as ex:
+        a = assess(inst, executor=ex)
     extra = ""
     if kind in ("pdf", "json"):
         from ..installation import evaluate_lineup

@@ -16,6 +16,7 @@ when the panel voltage sags or distorts.
 from __future__ import annotations
 
 import math
+from concurrent.futures import Executor
 from dataclasses import dataclass, replace
 from typing import Any
 
@@ -82,9 +83,7 @@ class GroupStress:
     fixture: str
     count: int
     i_rms_one_a: float
-    inrush_peak_one_a: float
     p_one_w: float
-    light_rel: float | None
 
 
 @dataclass(frozen=True)
@@ -125,11 +124,39 @@ def _sum_cases(parts: list[CaseResult], notes: tuple[str, ...] = ()) -> CaseResu
 class CaseSolver:
     """Solves and caches the circuit cases of one installation."""
 
-    def __init__(self, inst: Installation):
+    def __init__(self, inst: Installation, executor: Executor | None = None):
         self.inst = inst
         self.cache: dict[Any, Any] = {}
         self.captures: dict[str, tuple[np.ndarray, float, tuple[str, ...]]] = {}
         self.solves = 0
+        #: where distinct cases are solved: None in this process; any
+        #: :class:`concurrent.futures.Executor` (local processes, or a dask cluster's
+        #: ``client.get_executor()``) otherwise
+        self.executor = executor
+
+    def prefetch(self, wanted: list[tuple[Circuit, int, PanelVoltage | None]]) -> None:
+        """Solve the distinct cases of ``wanted`` that are not cached yet, on the executor.
+
+        The results are the same objects :meth:`case` would make in this process (the same
+        code on the same inputs); only where they are computed differs.
+        """
+        if self.executor is None:
+            return
+        todo: dict[CaseConditions, str] = {}
+        for c, scenario, v in wanted:
+            key = CaseConditions.of(c, scenario, v)
+            if key not in self.cache and key not in todo:
+                todo[key] = c.id
+        if len(todo) < 2:
+            return
+        items = list(todo.items())
+        size = max(1, math.ceil(len(items) / BATCHES))  # a few tasks per worker, not one each
+        futures = [self.executor.submit(_solve_remote, self.inst, items[i:i + size])
+                   for i in range(0, len(items), size)]
+        for fut in futures:
+            results, solves = fut.result()
+            self.cache.update(results)
+            self.solves += solves
 
     def case(self, c: Circuit, scenario: int, voltage: PanelVoltage | None = None) -> CaseResult:
         """The circuit's current at a scenario under ``voltage`` (None: the ideal supply).
@@ -141,12 +168,15 @@ class CaseSolver:
         key = CaseConditions.of(c, scenario, voltage)
         hit = self.cache.get(key)
         if hit is None:
-            try:
-                hit = self._case(key, c.id)
-            except ConvergenceError as e:
-                hit = CaseResult(np.zeros(GRID_SAMPLES), 1, 0.0, ("no-solution",), (), (f"{e}",))
+            hit = self._case_or_missing(key, c.id)
             self.cache[key] = hit
         return hit
+
+    def _case_or_missing(self, k: CaseConditions, cid: str) -> CaseResult:
+        try:
+            return self._case(k, cid)
+        except ConvergenceError as e:
+            return CaseResult(np.zeros(GRID_SAMPLES), 1, 0.0, ("no-solution",), (), (f"{e}",))
 
     def _case(self, k: CaseConditions, cid: str) -> CaseResult:
         extra_notes: tuple[str, ...] = ()
@@ -205,7 +235,7 @@ class CaseSolver:
             self.captures[fid] = (x, p1, tuple(notes))
         x, p1, got = self.captures[fid]
         # a steady-state record holds no switch-on inrush: unknown (NaN), not its peak
-        g = GroupStress(fid, count, float(np.sqrt(np.mean(x**2))), float("nan"), p1, None)
+        g = GroupStress(fid, count, float(np.sqrt(np.mean(x**2))), p1)
         return CaseResult(x * count, 1, p1 * count, (), (g,),
                           got + (f"fixture {fid}: measured record used at its recorded "
                                    "conditions (dimmer setting not applied)",))
@@ -218,8 +248,11 @@ class CaseSolver:
             (v.v1_rms_v, v.harmonics, v.delta_rad)
         r_src = k.branch_r_ohm + (0.0 if v is None else v.loop_r_ohm)
         l_src = k.branch_l_h + (0.0 if v is None else v.loop_l_h)
+        # solved at the key's own values (1 mV on the fundamental), so that which case is
+        # met first never changes a result (workers meet them in another order)
+        v1 = round(v1, 3)
         key = ("model", k.dimmer, k.dimmer_switch, k.conduction_deg, k.knob, k.dimmer_params,
-               r_src, l_src, groups, round(v1, 3), harm)
+               r_src, l_src, groups, v1, harm)
         hit = self.cache.get(key)
         if hit is None:
             hit = self._solve(k, groups, v1, harm, r_src, l_src, cid)
@@ -263,7 +296,9 @@ class CaseSolver:
                            count=n, params=tuple(sorted(self.rated_params(f).items())))
                  for f, n in groups]
         try:
-            sol = solve_circuit(supply, dimmer_spec(k), loads)
+            # the switch-on inrush is the installation's own transient (inrush()), so the
+            # solver's extras are not needed
+            sol = solve_circuit(supply, dimmer_spec(k), loads, extras=False)
         except (ConvergenceError, InputError) as e:
             what = ", ".join(f"{n} x {f}" for f, n in groups)
             setting = "" if k.dimmer == "none" else (
@@ -272,11 +307,7 @@ class CaseSolver:
                           f"{v1:.1f} V): {e}") from None
         w = sol.waveform
         x = to_grid(w, w.cycles)
-        gs = tuple(GroupStress(f, n, float(g.waveform.i_rms_a),
-                               float("nan") if g.stresses.inrush_peak_a is None
-                               else float(g.stresses.inrush_peak_a),
-                               float(g.p_w or 0.0), None if g.light_mean is None
-                               else float(g.light_mean))
+        gs = tuple(GroupStress(f, n, float(g.waveform.i_rms_a), float(g.p_w or 0.0))
                    for (f, n), g in zip(groups, sol.groups, strict=True))
         p = float(w.p_w) if w.p_w is not None else float("nan")
         if not np.isfinite(p):
@@ -320,6 +351,17 @@ class CaseSolver:
                 raise InputError(f"circuit {c.id}: the switch-on transient: {e}") from None
             self.cache[key] = hit
         return hit, tuple(f for f, _ in groups)
+
+
+#: Tasks a pass's distinct cases are split into for the workers.
+BATCHES = 16
+
+
+def _solve_remote(inst: Installation, items: list[tuple[CaseConditions, str]]
+                  ) -> tuple[dict[CaseConditions, CaseResult], int]:
+    """Distinct cases solved in a worker: the results by key and the solves they took."""
+    solver = CaseSolver(inst)
+    return {key: solver._case_or_missing(key, cid) for key, cid in items}, solver.solves
 
 
 def _worst_light(sol: Any, frequency_hz: float) -> dict[str, float] | None:

@@ -174,6 +174,21 @@ def node_voltages(inst: Installation, sums: InstallationSums
     return out
 
 
+#: Quantisation of a solve's source harmonics: fraction of V1 and angle [deg]. Circuits
+#: whose sources differ by less share one solve (identical circuits on the three lines of a
+#: balanced panel see the same voltage in their own frames).
+HARMONIC_STEP = 1e-5
+ANGLE_STEP_DEG = 0.1
+#: Damping of the fixed-point step (1 = undamped) and the number of earlier steps
+#: Anderson's method combines (0 = plain damped substitution).
+RELAX = 0.8
+MEMORY = 3
+
+
+def _quantise(x: float, step: float) -> float:
+    return round(round(x / step) * step, 12)
+
+
 def own_frame(inst: Installation, line: str, v: np.ndarray,
               loop: tuple[float, float] = (0.0, 0.0)) -> PanelVoltage:
     """A line's voltage phasors (L1 frame) as the source of a solve in the line's own frame.
@@ -186,8 +201,9 @@ def own_frame(inst: Installation, line: str, v: np.ndarray,
     for h in range(2, MAX_ORDER + 1):
         r = abs(own[h]) / v1
         if r > 1e-4:
-            harm.append((h, round(float(r), 5),
-                         round(float(np.degrees(np.angle(own[h]) - h * delta)), 1)))
+            harm.append((h, _quantise(float(r), HARMONIC_STEP),
+                         _quantise(float(np.degrees(np.angle(own[h]) - h * delta)) % 360.0,
+                                   ANGLE_STEP_DEG)))
     return PanelVoltage(float(v1), tuple(harm), delta, loop[0], loop[1])
 
 
@@ -205,27 +221,65 @@ def fixed_point(inst: Installation,
                 solve_pass: Callable[[dict[str, PanelVoltage]],
                                      tuple[dict[str, CaseResult], InstallationSums]],
                 cases: dict[str, CaseResult], sums: InstallationSums,
-                relax: float = 0.8) -> Interaction:
-    """Fixed point on the circuits' source voltages, under-relaxed:
-    ``E <- E + r (E(I(E)) - E)``, starting from the ideal-supply currents.
+                relax: float | None = None, memory: int | None = None) -> Interaction:
+    """Fixed point on the circuits' source EMFs ``E = G(E)``, starting from the
+    ideal-supply currents, with Anderson acceleration.
 
-    The circuits are solved again under each new voltage; it stops when the update is below
+    ``G`` solves every circuit under its EMF and returns the EMFs the new currents make.
+    Plain substitution converges slowly or not at all where dimmed circuits respond
+    strongly to the distortion; Anderson's method (type II, the last ``memory`` steps,
+    damped by ``relax``) takes the combination of recent steps that minimises the
+    residual: ``E_{k+1} = E_k + b f_k - (dE + b dF) gamma`` with ``gamma`` the least-squares
+    solution of ``dF gamma = f_k``, ``f = G(E) - E``. It stops when the update is below
     ``analysis.tolerance`` [fraction of V1] on every circuit, or after
     ``analysis.max_iterations``.
+
+    References
+    ----------
+    D. G. Anderson, "Iterative procedures for nonlinear integral equations", J. ACM 12(4),
+    547-560, 1965; H. F. Walker and P. Ni, "Anderson acceleration for fixed-point
+    iterations", SIAM J. Numer. Anal. 49(4), 1715-1735, 2011.
     """
     opts = inst.analysis
+    beta = RELAX if relax is None else relax
+    m = MEMORY if memory is None else memory
     line_of = {c.id: c.line for c in inst.circuits}
     loops = {c.id: _loop(inst, p.feeder) for p in inst.panels for c in p.circuits}
     src = circuit_sources(inst, cases, sums)
+    ids = list(src)
+    scale = np.array([abs(src[cid][1]) for cid in ids])
+
+    def pack(d: dict[str, np.ndarray]) -> np.ndarray:
+        z = np.stack([d[cid] / s for cid, s in zip(ids, scale, strict=True)])
+        return np.concatenate([z.real.ravel(), z.imag.ravel()])
+
+    def unpack(x: np.ndarray) -> dict[str, np.ndarray]:
+        n = x.size // 2
+        z = (x[:n] + 1j * x[n:]).reshape(len(ids), -1)
+        return {cid: z[k] * scale[k] for k, cid in enumerate(ids)}
+
+    x = pack(src)
+    xs: list[np.ndarray] = []
+    fs: list[np.ndarray] = []
     change = float("inf")
     it = 0
     for it in range(1, opts.max_iterations + 1):  # noqa: B007 (reported after the loop)
-        at = {cid: own_frame(inst, line_of[cid], v, loops[cid]) for cid, v in src.items()}
+        cur = unpack(x)
+        at = {cid: own_frame(inst, line_of[cid], v, loops[cid]) for cid, v in cur.items()}
         cases, sums = solve_pass(at)
-        new = circuit_sources(inst, cases, sums)
-        change = max(float(np.max(np.abs(new[cid] - src[cid]))) / abs(src[cid][1])
-                     for cid in src)
+        g = pack(circuit_sources(inst, cases, sums))
+        f = g - x
+        change = float(np.max(np.abs(f[: f.size // 2] + 1j * f[f.size // 2:])))
         if change < opts.tolerance:
             break
-        src = {cid: src[cid] + relax * (new[cid] - src[cid]) for cid in src}
+        xs.append(x)
+        fs.append(f)
+        xs, fs = xs[-(m + 1):], fs[-(m + 1):]
+        if len(fs) > 1:
+            dF = np.stack([fs[k + 1] - fs[k] for k in range(len(fs) - 1)], axis=1)
+            dX = np.stack([xs[k + 1] - xs[k] for k in range(len(xs) - 1)], axis=1)
+            gamma = np.linalg.lstsq(dF, f, rcond=None)[0]
+            x = x + beta * f - (dX + beta * dF) @ gamma
+        else:
+            x = x + beta * f
     return Interaction(cases, sums, it, change)

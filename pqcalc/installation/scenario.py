@@ -30,6 +30,8 @@ def solve_pass(inst: Installation, solver: CaseSolver, scenario: int,
                ) -> tuple[dict[str, CaseResult], InstallationSums]:
     """Every circuit's case at a scenario (under ``voltages`` per circuit id, or the ideal
     supply) and the sums they make."""
+    solver.prefetch([(c, scenario, None if voltages is None else voltages[c.id])
+                     for c in inst.circuits])
     cases = {}
     for c in inst.circuits:
         cases[c.id] = solver.case(c, scenario, None if voltages is None else voltages[c.id])
