@@ -301,9 +301,10 @@ def chord_table(power_w: float, v_lo: float, v_hi: float,
     ``i0_k = P / b_{k-1} + P / b_k`` [A]; the interpolant is continuous and exact on the
     grid. A last cell above ``b_n`` (to ``inf``) holds ``P / b_n``."""
     n = max(1, int(np.ceil(np.log(v_hi / v_lo) / np.log(ratio))))
-    b = list(v_lo * ratio ** np.arange(n + 1))
-    cells = [(-power_w / (b[k - 1] * b[k]), power_w / b[k - 1] + power_w / b[k])
-             for k in range(1, n + 1)]
+    bb = v_lo * ratio ** np.arange(n + 1)
+    cells = list(zip((-power_w / (bb[:-1] * bb[1:])).tolist(),
+                     (power_w / bb[:-1] + power_w / bb[1:]).tolist(), strict=True))
+    b = bb.tolist()
     # above the grid a constant current: the chord continued would fall to zero at
     # b_{n-1} + b_n and give a false equilibrium there
     b.append(np.inf)

@@ -45,7 +45,7 @@ __all__ = ["Expansion", "Figures", "SolvedWaveform", "expand", "figures", "MAX_O
 MAX_ORDER = 50
 #: points per segment of the peak search before refinement: an even spread and a geometric
 #: one from the segment's start (a transient decays from the event that starts a segment)
-PEAK_EVEN, PEAK_GEOM = 16, 24
+PEAK_EVEN, PEAK_GEOM = 12, 16
 
 
 @dataclass(frozen=True)

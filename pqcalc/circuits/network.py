@@ -115,7 +115,8 @@ class Network:
     def G(self, name: str, a: str, b: str, table) -> None:
         """Piecewise-affine element ``i = g_k v + i0_k``, the segment ``k`` set by a
         controller; ``table`` is a sequence of ``(g_k [S], i0_k [A])``."""
-        tab = tuple((float(g), float(i0)) for g, i0 in table)
+        arr = np.asarray(table, dtype=float).reshape(-1, 2)
+        tab = tuple(map(tuple, arr.tolist()))
         self._add("G", name, a, b, table=tab)
 
     def V(self, name: str, a: str, b: str, channel: int, gain: float = 1.0) -> None:
@@ -184,8 +185,9 @@ class Network:
             gs_g = np.zeros((len(gs), width))
             gs_i0 = np.zeros((len(gs), width))
             for q, (*_, table) in enumerate(gs):
-                gs_g[q, :len(table)] = [g for g, _ in table]
-                gs_i0[q, :len(table)] = [i0 for _, i0 in table]
+                arr = np.asarray(table, dtype=float).reshape(-1, 2)
+                gs_g[q, :len(table)] = arr[:, 0]
+                gs_i0[q, :len(table)] = arr[:, 1]
             ka = st["_kargs"] = (
                 st["M"], st["Rhs"], st["g_cond"], np.ascontiguousarray(st["inc"]),
                 st["ds_on"], st["ds_pos"], st["ds_g_on"], st["ds_g_off"], st["ds_v_on"],
