@@ -160,7 +160,7 @@ def _installation_figure(figure, source, unit, log, max_order, cycles, title, pa
         with_n = [p for p in sc.panels if p.neutral is not None]
         if not with_n:
             raise InputError(f"{source}: a single-phase supply has no separate neutral figure")
-        panel_id = max(with_n, key=lambda p: p.neutral.ratio_to_max_line).id
+        panel_id = max(with_n, key=lambda p: p.neutral.ratio_to_max_line if p.neutral else 0.0).id
     if panel_id not in panels:
         raise InputError(f"--panel: no panel {panel_id!r}; known: {', '.join(panels)}")
     p = panels[panel_id]

@@ -287,9 +287,8 @@ def dimmer_compatibility(flags: tuple[str, ...], light: Mapping[str, Any] | None
     if "no-solution" in flags:
         return [Check("dimmer compatibility", "fail", "the circuit model found no steady "
                       "state: " + FLAG_TEXT["no-solution"], src, details={"flag": "no-solution"})]
-    visible = pst is not None and pst > 1.0
     firing = [f for f in flags if f in ("misfire", "subharmonic", "no-latch", "re-fire")]
-    if visible:
+    if pst is not None and pst > 1.0:  # visible flicker
         why = (", ".join(f"'{f}'" for f in firing) + " in the firing, and ") if firing else ""
         out.append(Check("dimmer compatibility", "fail",
                          f"{why}the light flickers visibly ({seen}): add load, a bleeder, or "
