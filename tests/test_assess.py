@@ -197,3 +197,17 @@ def test_workers_give_the_in_process_results(tmp_path):
         there = json.loads(json.dumps(json_safe(assess(inst, executor=ex).to_dict())))
     here.pop("distinct_solves"), there.pop("distinct_solves")
     assert there == here
+
+
+def test_a_dimmer_conducts_at_most_its_own_top(tmp_path):
+    # A transistor dimmer's knob ends short of the full wave (its max_conduction_deg, 170 deg
+    # by default, common practice): set to 180 deg it conducts 170 deg, and says so. The
+    # closed form of a resistive load behind a cut at conduction c (REFERENCES: ideal
+    # phase cut): I_rms = I_full sqrt(c/pi - sin(2 (pi - c))/(2 pi)) at 170 deg = 0.99946.
+    inst = build(tmp_path, [("L1", "trailing-edge", 180, 1)])
+    c = assess(inst).design.circuits[0]
+    assert any("conducts at most 170 deg" in n for n in c.notes)
+    full = 230.0 / 529.0
+    a = np.radians(10.0)  # the cut
+    ratio = np.sqrt(1 - a / np.pi + np.sin(2 * a) / (2 * np.pi))
+    assert c.i_rms_a == pytest.approx(full * ratio, rel=2e-3)  # the switch's 0.05 ohm

@@ -180,12 +180,19 @@ class CaseSolver:
 
     def _case(self, k: CaseConditions, cid: str) -> CaseResult:
         extra_notes: tuple[str, ...] = ()
+        top = self.max_conduction_deg(k)
+        if k.conduction_deg is not None and top is not None and k.conduction_deg > top:
+            # the dimmer's own top: a firing network cannot fire at the zero crossing, a
+            # transistor dimmer's knob ends short of the full wave
+            extra_notes = (f"{k.dimmer} dimmer set to {k.conduction_deg:g} deg conducts at most "
+                           f"{top:g} deg (its max_conduction_deg)",)
+            k = replace(k, conduction_deg=top)
         if k.dimmer != "none" and k.conduction_deg is not None and \
                 k.conduction_deg >= FULL_CONDUCTION_DEG:
             # a dimmer at full conduction passes the whole wave: solved as the uncut supply
             # (a single gate pulse at the zero crossing would find no current to latch on)
-            extra_notes = (f"{k.dimmer} dimmer at {k.conduction_deg:g} deg: the whole wave "
-                           "passes; solved as the uncut supply",)
+            extra_notes += (f"{k.dimmer} dimmer at {k.conduction_deg:g} deg: the whole wave "
+                            "passes; solved as the uncut supply",)
             k = replace(k, dimmer="none", conduction_deg=180.0, knob=None)
         fx = self.inst.fixtures
         measured = [(f, n) for f, n in k.groups if fx[f].measured]
@@ -260,6 +267,20 @@ class CaseSolver:
         if delta:
             return replace(hit, current_a=shift_periodic(hit.current_a, -delta, hit.cycles))
         return hit
+
+    def max_conduction_deg(self, k: CaseConditions) -> float | None:
+        """The dimmer's largest conduction angle [deg] (its ``max_conduction_deg``
+        parameter, given or the model's default), or None where it has none."""
+        if k.dimmer == "none":
+            return None
+        from ..circuits import Supply
+        from ..circuits.dimmers import resolve_dimmer
+
+        sup = self.inst.supply
+        p = resolve_dimmer(dimmer_spec(replace(k, conduction_deg=90.0, knob=None)),
+                           Supply(v_rms_v=sup.voltage_ln_v, frequency_hz=sup.frequency_hz))
+        top = p.get("max_conduction_deg")
+        return None if top is None else float(top)
 
     def rated_params(self, fid: str) -> dict[str, float]:
         """A fixture type's component values fixed at the nominal supply voltage.

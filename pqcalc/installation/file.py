@@ -6,7 +6,9 @@ repeated here: a field left out takes the default declared on its dataclass in
 
 File layout (see ``demo_installations/harbour_school.toml`` for a commented example)::
 
-    [project]      name, site, engineer, date, notes
+    [project]      name, site, client, document_number, revision, status, date,
+                   prepared_by (or engineer), checked_by, approved_by, notes,
+                   revisions = [{rev, date, description, by}, ...]
     [supply]       system, voltage_ln_v, frequency_hz, rules ("IEC" | "US"; default from the
                    supply), and one of: source_r_ohm/source_l_h,
                    [supply.transformer] kva/impedance_pct/x_over_r, short_circuit_a/x_over_r
@@ -25,6 +27,7 @@ File layout (see ``demo_installations/harbour_school.toml`` for a commented exam
                    step_deg, seed
     [pcc]          demand_current_a, short_circuit_a, voltage_kv, ieee519_edition
     [compliance]   strict_dimmed (dimmed states behind independent dimmers pass/fail)
+    [report]       paper ("A4" | "Letter"; default from the rule set: A4 IEC, Letter US)
 
 A fixture type's ``builtin_dimming = true`` says the equipment dims itself: its dimmed
 states are then part of its IEC 61000-3-2 verdict.
@@ -57,6 +60,8 @@ from .model import (
     Panel,
     PccSpec,
     Project,
+    ReportOptions,
+    Revision,
     SourceImpedance,
     SupplySpec,
     default_of,
@@ -65,7 +70,7 @@ from .model import (
 __all__ = ["load_installation"]
 
 _TOP = {"project", "supply", "fixtures", "panels", "feeders", "analysis", "diversity", "pcc",
-        "compliance"}
+        "compliance", "report"}
 
 
 def _params(fld: Fields, d: dict, field_: str) -> tuple[tuple[str, float], ...]:
@@ -471,18 +476,65 @@ def _compliance(fld: Fields, data: dict) -> ComplianceOptions:
     return ComplianceOptions(strict)
 
 
+_PROJECT_TEXT = ("name", "site", "client", "document_number", "revision", "status", "date",
+                 "prepared_by", "checked_by", "approved_by", "engineer", "notes")
+
+
+def _text(fld: Fields, d: dict, key: str, field_: str) -> str:
+    """A text field; a number or a TOML date is taken as written (revision = 2)."""
+    v = d.get(key, "")
+    if isinstance(v, bool) or isinstance(v, (dict, list)):
+        raise fld.error(field_, "text", v)
+    return str(v)
+
+
+def _project(fld: Fields, data: dict) -> Project:
+    pj = fld.table(data, "project", "project", required=False)
+    fld.unknown(pj, set(_PROJECT_TEXT) | {"revisions"}, "project")
+    revs = pj.get("revisions", [])
+    if not isinstance(revs, list):
+        raise fld.error("project.revisions", "a list of revisions, e.g. revisions = "
+                        "[{rev = \"A\", date = \"2026-01-05\", description = \"first issue\", "
+                        "by = \"J. Doe\"}] or [[project.revisions]] tables", revs)
+    rows = []
+    for k, r in enumerate(revs):
+        f = f"project.revisions[{k}]"
+        if not isinstance(r, dict):
+            raise fld.error(f, "a table {rev, date, description, by}", r)
+        fld.unknown(r, {"rev", "date", "description", "by"}, f)
+        if "rev" not in r:
+            raise fld.error(f"{f}.rev", "the revision's mark, e.g. \"A\" or 1 (required)")
+        rows.append(Revision(*(_text(fld, r, x, f"{f}.{x}")
+                               for x in ("rev", "date", "description", "by"))))
+    return Project(**{k: _text(fld, pj, k, f"project.{k}") for k in _PROJECT_TEXT if k in pj},
+                   revisions=tuple(rows))
+
+
+def _report(fld: Fields, data: dict) -> ReportOptions:
+    from ..standards.regions import PAPER_SIZES
+
+    rp = fld.table(data, "report", "report", required=False)
+    fld.unknown(rp, {"paper"}, "report")
+    if "paper" not in rp:
+        return ReportOptions()
+    v = rp["paper"]
+    known = {s.lower(): s for s in PAPER_SIZES}
+    if not isinstance(v, str) or v.strip().lower() not in known:
+        raise fld.error("report.paper", "one of " + ", ".join(PAPER_SIZES), v)
+    return ReportOptions(known[v.strip().lower()])
+
+
 def load_installation(path: str | Path) -> Installation:
     """Read and validate an installation file; every error names file, line and field."""
     p = Path(path)
     data, fld = read_toml(p)
     fld.unknown(data, _TOP, "")
-    pj = fld.table(data, "project", "project", required=False)
-    fld.unknown(pj, {"name", "site", "engineer", "date", "notes"}, "project")
-    project = Project(**{k: str(v) for k, v in pj.items()})
+    project = _project(fld, data)
     supply = _supply(fld, data)
     fixtures = _fixtures(fld, data, p.parent)
     feeders = _feeders(fld, data)
     panels = _panels(fld, data, supply, fixtures, feeders)
     analysis = _analysis(fld, data, _n_scenarios(p, panels))
     return Installation(project, supply, fixtures, panels, feeders, _diversity(fld, data),
-                        analysis, _pcc(fld, data), str(p), compliance=_compliance(fld, data))
+                        analysis, _pcc(fld, data), str(p), compliance=_compliance(fld, data),
+                        report=_report(fld, data))

@@ -24,7 +24,8 @@ from ..standards.ieee519 import Edition
 __all__ = [
     "System", "SYSTEMS", "LINE_ANGLES_DEG", "DimmerKind", "DIMMER_KINDS", "SwitchKind",
     "SWITCH_KINDS", "DiversityMode", "DIVERSITY_MODES",
-    "Project", "SourceImpedance", "SupplySpec", "ModelledFixture", "MeasuredFixture",
+    "Project", "Revision", "ReportOptions", "SourceImpedance", "SupplySpec",
+    "ModelledFixture", "MeasuredFixture",
     "FixtureType", "FixtureGroup", "Circuit", "Panel", "Feeder", "Diversity",
     "AnalysisOptions", "PccSpec", "ComplianceOptions", "Installation", "default_of",
 ]
@@ -57,14 +58,51 @@ def default_of(cls: type, name: str) -> Any:
 
 
 @dataclass(frozen=True)
+class Revision:
+    """One row of the document's revision table."""
+
+    rev: str
+    date: str = ""
+    description: str = ""
+    by: str = ""
+
+
+@dataclass(frozen=True)
 class Project:
-    """What a reviewer files the study by."""
+    """What a reviewer files the study by: the title block and the revision table of the
+    report. ``engineer`` is the older name of ``prepared_by`` (used when that is blank)."""
 
     name: str = ""
     site: str = ""
     engineer: str = ""
     date: str = ""
     notes: str = ""
+    client: str = ""
+    document_number: str = ""
+    revision: str = ""
+    status: str = ""
+    prepared_by: str = ""
+    checked_by: str = ""
+    approved_by: str = ""
+    revisions: tuple[Revision, ...] = ()
+
+    @property
+    def preparer(self) -> str:
+        return self.prepared_by or self.engineer
+
+    def to_dict(self) -> dict[str, Any]:
+        """The JSON form: every field, the revisions as a list of objects."""
+        d = {f.name: getattr(self, f.name) for f in fields(self)}
+        d["revisions"] = [vars(r) for r in self.revisions]
+        return d
+
+
+@dataclass(frozen=True)
+class ReportOptions:
+    """The PDF submittal: ``paper`` "A4" or "Letter"; None: the rule set's (A4 for IEC,
+    Letter for US)."""
+
+    paper: str | None = None
 
 
 @dataclass(frozen=True)
@@ -328,6 +366,7 @@ class Installation:
     pcc: PccSpec = PccSpec()
     path: str = ""
     compliance: ComplianceOptions = field(default=ComplianceOptions(), kw_only=True)
+    report: ReportOptions = field(default=ReportOptions(), kw_only=True)
 
     @property
     def circuits(self) -> tuple[Circuit, ...]:

@@ -229,7 +229,7 @@ class Assessment:
         d = self.design.to_dict()
         sup = inst.supply
         return {
-            "project": vars(inst.project),
+            "project": inst.project.to_dict(),
             "installation": inst.path,
             "supply": {"system": sup.system, "voltage_ln_v": sup.voltage_ln_v,
                        "frequency_hz": sup.frequency_hz,

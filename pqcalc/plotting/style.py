@@ -9,10 +9,13 @@ importing pqcalc (or its command line) stays fast for work that draws nothing.
 
 from __future__ import annotations
 
+import contextlib
+import contextvars
 import functools
 import io
 import os
 import textwrap
+from collections.abc import Iterator
 from pathlib import Path
 from types import SimpleNamespace
 from typing import TYPE_CHECKING, Any, Literal
@@ -124,7 +127,26 @@ def _legend_below(fig: Figure, handles) -> None:
     fig.legend(handles=handles, loc="outside lower center", ncols=ncols)
 
 
+#: False while a document that carries the caution itself (the PDF submittal) draws its
+#: figures: :func:`_caution` then leaves them without it.
+_CAUTION_ON_FIGURES: contextvars.ContextVar[bool] = contextvars.ContextVar(
+    "pqcalc_caution_on_figures", default=True)
+
+
+@contextlib.contextmanager
+def figures_without_caution() -> Iterator[None]:
+    """Figures made inside this block carry no caution line (the document that holds them
+    prints it in its own section and footer)."""
+    token = _CAUTION_ON_FIGURES.set(False)
+    try:
+        yield
+    finally:
+        _CAUTION_ON_FIGURES.reset(token)
+
+
 def _caution(fig: Figure) -> None:
+    if not _CAUTION_ON_FIGURES.get():
+        return
     from matplotlib.layout_engine import ConstrainedLayoutEngine
 
     engine = fig.get_layout_engine()
