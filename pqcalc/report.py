@@ -1,80 +1,74 @@
-"""The PDF submittal of an assessed installation, laid out page by page with matplotlib.
+"""The PDF submittal of an assessed installation, typeset with reportlab.
 
-:func:`write_report` writes an A4 portrait PDF (matplotlib's PDF backend; no other
-dependency) through a temporary file and a rename. Its sections:
+:func:`write_report` writes the document atomically (a temporary file, then a rename);
+:func:`report_pdf_bytes` returns it. What it contains is described in
+:mod:`pqcalc.reporting.story`: a title page with the title block and the revision table
+(from the installation file's ``[project]`` table), the contents, the summary of findings,
+the fixture lineup with the spectrum of each fixture type's deciding state, the panel
+results with the neutral spectrum, the diversity results, the assumptions in numbers, the
+standards applied, the caution, and an appendix with the per-order table of every state.
 
-1. cover: project, site, engineer, date, tool version, installation file, contents;
-2. summary of findings (one page): verdicts, the highest panel and neutral currents, the
-   worst voltage distortion, the failed and warned checks;
-3. fixture lineup: the IEC 61000-3-2 table per fixture type and state, and a spectrum
-   against the limits per fixture type;
-4. per panel (then feeders and the service): phase and neutral currents, THDv, K-factor,
-   the circuits, checks and flags, the panel figure;
-5. assumptions and model parameters: supply, analysis options, fixture types, notes;
-6. standards and editions applied: every rule source the checks and the lineup cite;
-7. cautions.
-
-Long tables continue on the next page with their header repeated; a table row is never
-split across pages. The text is real text (TrueType fonts embedded), so the report can be
-searched and its text extracted; the figures are embedded as 200 dpi images.
+The paper is the rule set's (A4 for IEC, Letter for US projects), or the installation
+file's ``[report] paper``, or the ``paper`` argument. The text is real text in an embedded
+TrueType font (searchable, extractable); figures are vector drawings; the headings form the
+PDF outline (bookmarks) and the contents. reportlab's open-source edition does not write
+PDF/A, so the file is plain PDF 1.4.
 
 The lineup is a list of :class:`~pqcalc.installation.lineup.LineupEntry`; when none is
 given, :func:`pqcalc.installation.evaluate_lineup` evaluates the installation's.
 
 The report supports, and never replaces, the local electrical code and the design of a
-licensed professional; every page says so in its footer and the last section in full.
+licensed professional: its caution section says so in full, and every page's footer.
 """
 
 from __future__ import annotations
 
 import datetime as _dt
-import io
 import os
 from collections.abc import Sequence
 from pathlib import Path
 from typing import TYPE_CHECKING
 
 from .errors import InputError
-from .reporting.layout import Doc
-from .reporting.sections import (
-    SECTION_TITLES,
-    assumptions,
-    cautions,
-    cover,
-    lineup_section,
-    panels_section,
-    standards_section,
-    summary,
-)
+from .reporting.story import APPENDIX_TITLE, SECTION_TITLES
 
 if TYPE_CHECKING:  # pragma: no cover
-    from matplotlib.figure import Figure
-
     from .installation import Assessment, LineupEntry
+    from .standards.regions import Paper
 
-__all__ = [
-    "SECTION_TITLES",
-    "report_pages",
-    "report_pdf_bytes",
-    "write_report",
-]
+__all__ = ["SECTION_TITLES", "APPENDIX_TITLE", "report_paper", "report_pdf_bytes",
+           "write_report"]
 
 
 def _now() -> str:
     return _dt.datetime.now().astimezone().strftime("%Y-%m-%d %H:%M %Z").strip()
 
 
-def report_pages(assessment: Assessment, lineup: Sequence[LineupEntry] | None = None,
-                 lineup_notes: Sequence[str] = (), generated: str | None = None
-                 ) -> list[Figure]:
-    """The report's pages as A4 :class:`~matplotlib.figure.Figure` objects, numbered.
+def report_paper(assessment: Assessment, paper: str | None = None) -> Paper:
+    """The paper of the report: ``paper`` ("A4" or "Letter"), else the installation file's
+    ``[report] paper``, else the rule set's (A4 for IEC, Letter for US)."""
+    from .standards.regions import paper as region_paper
+    from .standards.regions import rule_set
 
-    ``lineup``: the fixture lineup; None evaluates it with
-    :func:`pqcalc.installation.evaluate_lineup`.
+    inst = assessment.installation
+    return region_paper(rule_set(inst.supply.rules),
+                        paper if paper is not None else inst.report.paper)
+
+
+def report_pdf_bytes(assessment: Assessment, lineup: Sequence[LineupEntry] | None = None,
+                     lineup_notes: Sequence[str] = (), generated: str | None = None,
+                     paper: str | None = None) -> bytes:
+    """The PDF document as bytes.
+
+    ``lineup``: the fixture lineup (None evaluates it); ``generated``: the time stamp
+    printed on the title page (default: now); ``paper``: "A4" or "Letter" (see
+    :func:`report_paper`); an unknown paper size raises :class:`~pqcalc.errors.InputError`.
     """
     from . import __version__
-    from .plotting.style import STYLE, _mpl
+    from .reporting.pdf import build_pdf
+    from .reporting.story import build_story
 
+    pap = report_paper(assessment, paper)
     if lineup is None:
         from .installation import evaluate_lineup
 
@@ -82,45 +76,30 @@ def report_pages(assessment: Assessment, lineup: Sequence[LineupEntry] | None = 
     else:
         entries = list(lineup)
     generated = generated or _now()
-    pj = assessment.installation.project
-    doc = Doc(f"{pj.name or assessment.installation.path}  |  pqcalc {__version__}")
-    with _mpl().rc_context(STYLE):
-        cover(doc, assessment, __version__, generated, len(entries))
-        summary(doc, assessment, entries, lineup_notes)
-        lineup_section(doc, entries, lineup_notes)
-        panels_section(doc, assessment)
-        assumptions(doc, assessment, __version__)
-        standards_section(doc, assessment, entries)
-        cautions(doc, assessment, entries)
-        doc.finish(generated)
-    return doc.pages
-
-
-def report_pdf_bytes(assessment: Assessment, lineup: Sequence | None = None,
-                     lineup_notes: Sequence[str] = (), generated: str | None = None) -> bytes:
-    """The PDF document as bytes (see :func:`report_pages`)."""
-    from matplotlib.backends.backend_pdf import PdfPages
-
-    from . import __version__
-
-    pages = report_pages(assessment, lineup, lineup_notes, generated)
-    pj = assessment.installation.project
-    buf = io.BytesIO()
-    meta = {"Title": f"Power-quality assessment: {pj.name or assessment.installation.path}",
-            "Author": pj.engineer or "", "Subject": "Dimmed LED lighting: harmonics, neutral "
-            "currents, IEC 61000-3-2 lineup", "Creator": f"pqcalc {__version__}"}
-    with PdfPages(buf, metadata=meta) as pdf:
-        for fig in pages:
-            pdf.savefig(fig)
-    return buf.getvalue()
+    inst = assessment.installation
+    pj = inst.project
+    name = pj.name or inst.path
+    doc = " ".join(x for x in (pj.document_number, f"rev {pj.revision}" if pj.revision else "",
+                               pj.status) if x)
+    meta = {"Title": f"Power-quality assessment: {name}", "Author": pj.preparer,
+            "Subject": "Dimmed LED lighting: harmonics, neutral currents, IEC 61000-3-2 "
+                       "lineup", "Creator": f"pqcalc {__version__}",
+            "Keywords": ", ".join(x for x in (pj.document_number, pj.revision) if x)}
+    story = build_story(assessment, entries, lineup_notes, __version__, generated)
+    w_in, h_in = pap.size_in
+    return build_pdf(story, (w_in * 72.0, h_in * 72.0),
+                     footer_left=" | ".join(x for x in (name, doc, f"pqcalc {__version__}") if x),
+                     footer_caution=assessment.caution,
+                     header=f"Power-quality assessment - {name}" + (f" - {doc}" if doc else ""),
+                     meta=meta)
 
 
 def write_report(assessment: Assessment, path: str | os.PathLike,
-                 lineup: Sequence | None = None, lineup_notes: Sequence[str] = (),
-                 generated: str | None = None) -> Path:
+                 lineup: Sequence[LineupEntry] | None = None, lineup_notes: Sequence[str] = (),
+                 generated: str | None = None, paper: str | None = None) -> Path:
     """Write the PDF submittal to ``path`` atomically (temporary file, then rename).
 
-    The whole document is rendered in memory first; a missing or read-only folder raises
+    The whole document is typeset in memory first; a missing or read-only folder raises
     :class:`~pqcalc.errors.InputError` before any work, and a failure leaves no file.
     """
     from .io.export import check_output_path, write_bytes_atomic
@@ -128,4 +107,5 @@ def write_report(assessment: Assessment, path: str | os.PathLike,
     p = check_output_path(path)
     if p.suffix.lower() != ".pdf":
         raise InputError(f"{p}: expected a file name ending in .pdf")
-    return write_bytes_atomic(p, report_pdf_bytes(assessment, lineup, lineup_notes, generated))
+    return write_bytes_atomic(p, report_pdf_bytes(assessment, lineup, lineup_notes, generated,
+                                                  paper))

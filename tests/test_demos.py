@@ -84,15 +84,29 @@ def test_every_figure_renders_for_the_demo(demo, tmp_path):
         assert Path(out).read_bytes()[:8] == PNG
 
 
-def test_submittal_of_the_school(tmp_path):
+def test_submittal_of_each_demo(demo, tmp_path):
+    """The PDF of each demo as a reviewer reads it: every fixture-type, circuit and panel id
+    in the extracted text unbroken (pypdf, an independent reader), each fixture type's
+    deciding state named, the paper of the region (IEC: A4, 595 x 842 pt by ISO 216; US:
+    letter, 612 x 792 pt), the standards and the caution."""
     pypdf = pytest.importorskip("pypdf")
     from pqcalc.report import write_report
+    from pqcalc.reporting.story import deciding_state
 
-    inst = load_installation(DEMO / "harbour_school.toml")
-    a = assess(inst)
-    out = write_report(a, tmp_path / "school.pdf", evaluate_lineup(inst))
-    text = " ".join(pg.extract_text() for pg in pypdf.PdfReader(out).pages)
-    text = " ".join(text.split())
-    for needle in ("Harbour Lane", "IEC 61000-3-2", "IEEE", "licensed professional",
-                   "DB-CLASS", "classroom-downlight"):
+    inst, a = demo
+    lineup = evaluate_lineup(inst)
+    out = write_report(a, tmp_path / "demo.pdf", lineup)
+    pages = pypdf.PdfReader(out).pages
+    text = " ".join(" ".join((pg.extract_text() or "").split()) for pg in pages)
+    ids = list(inst.fixtures) + [c.id for c in inst.circuits] + [p.id for p in inst.panels]
+    for x in ids:
+        assert x in text, x
+    for e in lineup:
+        assert f"Deciding state: {deciding_state(e).state}" in text, e.fixture
+    size = {"IEC": (595, 842), "US": (612, 792)}[inst.supply.rules]
+    assert {(round(float(p.mediabox.width)), round(float(p.mediabox.height)))
+            for p in pages} == {size}
+    for needle in ("IEC 61000-3-2", "IEEE", "licensed professional", "Assumptions in numbers",
+                   "Appendix A"):
         assert needle in text, needle
+    assert "more: see" not in text  # every finding is listed, none cut

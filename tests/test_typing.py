@@ -43,8 +43,10 @@ CLEAN_MODULES = (
     "pqcalc.plotting.curves",
     "pqcalc.plots",
     "pqcalc.report",
-    "pqcalc.reporting.layout",
-    "pqcalc.reporting.sections",
+    "pqcalc.reporting.pdf",
+    "pqcalc.reporting.story",
+    "pqcalc.reporting.assumptions",
+    "pqcalc.reporting.sources",
 )
 
 

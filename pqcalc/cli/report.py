@@ -62,16 +62,22 @@ def _format_of(fmt: str | None, out: Path, table: str | None = None) -> str:
               help="csv: write this one table only, as a plain CSV file (-o NAME.csv) or to "
                    "standard output (-o -). Without it, -o - --format csv prints every table, "
                    "each after a line '# table: NAME' and followed by an empty line.")
+@click.option("--paper", metavar="A4|Letter",
+              help="pdf: the paper size. Default: the installation file's [report] paper, "
+                   "else the rule set's (A4 for IEC, Letter for US projects).")
 @click.option("--no-interaction", is_flag=True,
               help="Ideal stiff supply: skip re-solving under the distorted panel voltage.")
 @worker_options
 @user_errors
-def report_cmd(installation, output, fmt, table, no_interaction, n_workers, scheduler):
+def report_cmd(installation, output, fmt, table, paper, no_interaction, n_workers, scheduler):
     """Assess an INSTALLATION file and write the submittal or a data export.
 
-    The PDF has a cover, a one-page summary of findings, the fixture-lineup compliance
-    table with a spectrum against the limits per fixture type, per-panel results, the
-    assumptions and model parameters, the standards and editions applied, and the cautions.
+    The PDF has a title block and revision table (from the file's [project] table), the
+    contents, the summary of findings, the fixture-lineup compliance table with the
+    spectrum of each fixture type's deciding state, per-panel line and neutral currents
+    with the neutral spectrum, the diversity results, the assumptions in numbers (every
+    component value and impedance used, with its origin), the standards and editions
+    applied, the caution, and the per-order results of every state in an appendix.
     Every output is written atomically: on any error nothing is left behind.
 
     With -o - the output goes to standard output, whole once complete (a binary format only
@@ -108,6 +114,16 @@ def report_cmd(installation, output, fmt, table, no_interaction, n_workers, sche
         inst = replace(inst, analysis=replace(inst.analysis, supply_interaction=False))
     if kind == "pdf" and not to_stdout and out.suffix.lower() != ".pdf":
         raise InputError(f"-o {out}: expected a file name ending in .pdf")
+    if paper is not None:
+        if kind != "pdf":
+            raise InputError(f"--paper: goes with the pdf format, not {kind}")
+        from ..standards.regions import paper as region_paper
+        from ..standards.regions import rule_set
+
+        try:
+            region_paper(rule_set(inst.supply.rules), paper)
+        except InputError as e:
+            raise InputError(f"--{e}") from None
     with workers(n_workers, scheduler) as ex:
         a = assess(inst, executor=ex)
     extra = ""
@@ -117,7 +133,7 @@ def report_cmd(installation, output, fmt, table, no_interaction, n_workers, sche
 
         lineup = evaluate_lineup(inst)
         if kind == "pdf":
-            data = report_pdf_bytes(a, lineup)
+            data = report_pdf_bytes(a, lineup, paper=paper)
         else:
             data = export.to_json(a, lineup).encode()
         write_bytes_atomic(out, data)
