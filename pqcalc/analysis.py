@@ -7,15 +7,34 @@ form printed by ``pqcalc analyze --json``.
 
 from __future__ import annotations
 
+import math
+import warnings
 from dataclasses import dataclass, replace
 
 import numpy as np
 
+from .errors import InputError, PqcalcWarning
 from .metrics import Summary, summarize
 from .spectrum import Spectrum, spectrum
 from .waveform import Waveform
 
-__all__ = ["Analysis", "analyze", "harmonic_table"]
+__all__ = ["Analysis", "analyze", "harmonic_table", "resolved_order", "OrderLimitWarning"]
+
+
+class OrderLimitWarning(PqcalcWarning):
+    """The record's sample rate does not resolve the orders asked for: the analysis stops
+    at the highest order it resolves."""
+
+
+def resolved_order(samples_per_cycle: float) -> int:
+    """The highest harmonic order a record sampled ``samples_per_cycle`` times per cycle
+    resolves: order h needs ``h * f < fs / 2`` (the sampling theorem), so
+    ``h < samples_per_cycle / 2``.
+
+    >>> resolved_order(4.0), resolved_order(200.0), resolved_order(201.0)
+    (1, 99, 100)
+    """
+    return max(0, math.ceil(samples_per_cycle / 2.0) - 1)
 
 
 @dataclass(frozen=True)
@@ -93,17 +112,36 @@ def analyze(waveform: Waveform, max_order: int = 40) -> Analysis:
 
     For a capture resampled onto whole cycles the peak and the crest factor are those of
     the recorded samples (:attr:`Waveform.recorded`), never of the interpolated record; the
-    other figures come from the resampled record.
+    other figures come from the resampled record. The recorded sample rate is held against
+    ``max_order``: orders it does not resolve (``h * f >= fs / 2``) are left out with an
+    :class:`OrderLimitWarning`, and a record that resolves no harmonic at all is refused.
     """
-    s = spectrum(waveform, max(50, max_order))
+    rec = waveform.recorded
     notes = []
+    if rec is not None:
+        top = resolved_order(rec.samples_per_cycle)
+        label = waveform.label or "record"
+        if top < 2:
+            raise InputError(
+                f"{label}: {rec.samples_per_cycle:.3g} samples per cycle resolve no harmonic "
+                f"(order h needs more than 2h samples per cycle); expected a record sampled "
+                f"at more than {2 * max_order * waveform.frequency_hz:.4g} Hz for orders up "
+                f"to {max_order}")
+        if top < max_order:
+            warnings.warn(
+                f"{label}: {rec.samples_per_cycle:.3g} samples per cycle resolve orders up to "
+                f"{top}; THD and the table stop there (orders up to {max_order} need more "
+                f"than {2 * max_order * waveform.frequency_hz:.4g} samples per second)",
+                OrderLimitWarning, stacklevel=2)
+            notes.append(f"orders above {top} not resolved by the sample rate; THD sums 2..{top}")
+            max_order = top
+    s = spectrum(waveform, max(50, max_order))
     if not waveform.has_voltage:
         notes.append(
             "no voltage channel: phases refer to the current fundamental; pf, dpf and power "
             "need the voltage"
         )
     summary = summarize(s, max_order)
-    rec = waveform.recorded
     if rec is not None:
         summary = replace(summary, crest_factor=waveform.crest_factor)
         notes.append(

@@ -341,6 +341,10 @@ def estimate_frequency(
     x = np.asarray(x, dtype=float)
     n = x.size
     fs = float(sample_rate_hz)
+    peak = float(np.max(np.abs(x))) if n else 0.0
+    if not (np.isfinite(peak) and peak > 0):
+        raise InputError("the record is zero throughout; no mains fundamental to find")
+    x = x / peak  # the fit is scale-free; unit peak keeps its normal equations from underflow
     if n / fs * 40.0 < 1.0:
         raise InputError(
             f"the record lasts {n / fs * 1e3:.3g} ms, less than one mains cycle; "
@@ -367,8 +371,15 @@ def estimate_frequency(
     t = np.arange(n) / fs
     t = t - t.mean()
     h_max = int(min(25, (fs / 2) / (1.1 * f0) - 1, max(1, 8e6 // (2 * n + 2))))
-    for orders in (1, max(1, h_max)):
-        f0 = _fit_frequency(x, t, f0, orders)
+    try:
+        for orders in (1, max(1, h_max)):
+            f0 = _fit_frequency(x, t, f0, orders)
+    except np.linalg.LinAlgError:
+        raise InputError("no mains fundamental could be fitted to the record (it holds no "
+                         f"sinusoid near {f0:.4g} Hz)") from None
+    if not (np.isfinite(f0) and lo / 2 < f0 < 2 * hi):
+        raise InputError(f"no mains fundamental found between {lo:g} and {hi:g} Hz (the fit "
+                         "wandered off)")
     return f0
 
 

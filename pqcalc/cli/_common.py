@@ -153,7 +153,7 @@ def tool_failed(e: BaseException, where: str) -> None:
 
 
 def _show_warning(message, category, filename, lineno, file=None, line=None):
-    click.echo(f"warning: {message}", err=True)
+    click.echo(f"warning: {one_line(str(message))}", err=True)
 
 
 def user_errors(func):
@@ -180,7 +180,7 @@ def user_errors(func):
         except (FileNotFoundError, IsADirectoryError, PermissionError) as e:
             if e.filename is None:  # not a user's file: an internal failure
                 tool_failed(e, where)
-            click.echo(f"error: {e.filename}: {e.strerror}", err=True)
+            click.echo(f"error: {one_line(f'{e.filename}: {e.strerror}')}", err=True)
             sys.exit(EXIT_BAD_INPUT)
         except BrokenPipeError:
             _closed_stdout()
@@ -276,8 +276,18 @@ def save_figure_to(fig, output, fmt: str | None = None, dpi: float | None = None
     write_stdout(data)
 
 
-def one_line(e: BaseException) -> str:
-    return " ".join(str(e).split())
+#: The longest message printed on stderr [characters]: a message quotes user text, cut to
+#: size where it is quoted; this bounds what is left (a long list of known fields, say).
+MESSAGE_CHARS = 600
+
+
+def one_line(e: BaseException | str) -> str:
+    """A message on one line: whitespace runs (line breaks) become one space, control
+    characters are shown escaped (never acted on by the terminal), cut to
+    :data:`MESSAGE_CHARS`."""
+    from ..io.text import printable
+
+    return printable(" ".join(str(e).split()), MESSAGE_CHARS)
 
 
 _clean = json_safe  # one JSON-safe converter, in pqcalc.io

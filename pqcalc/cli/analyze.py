@@ -14,7 +14,8 @@ import click
 
 from ..analysis import analyze as analyze_waveform
 from ..errors import InputError
-from ..io.capture import UNIT_SCALE, CsvOptions, load_capture, record_to_waveform
+from ..io.capture import SAMPLE_RATE_HZ, SCALE, UNIT_SCALE, CsvOptions, load_capture, record_to_waveform
+from ..io.installation_file import Bounds
 from ..io.windows import analyze_windows
 from ._common import STDIO, deprecated_alias, echo_json, fmt, main, user_errors
 
@@ -80,7 +81,7 @@ def capture_options(f=None, *, frequency_help: str = _FREQUENCY_HELP):
         click.option("--delimiter", type=click.Choice([",", ";", "tab"]),
                      help="Column delimiter (default: guessed)."),
         click.option("--decimal-comma", is_flag=True, help="Numbers are written 0,5 not 0.5."),
-        click.option("--skip-rows", type=int, default=0, show_default=True,
+        click.option("--skip-rows", type=click.IntRange(0, 10**9), default=0, show_default=True,
                      help="Lines to skip before the header."),
         click.option("--frequency", "frequency", type=float, help=frequency_help),
         deprecated_alias("--nominal-frequency", "--frequency", "frequency", type=float),
@@ -90,14 +91,38 @@ def capture_options(f=None, *, frequency_help: str = _FREQUENCY_HELP):
     return f
 
 
+#: The numeric capture options and their sensible ranges (declared once, with the reason).
+OPTION_BOUNDS: dict[str, Bounds] = {
+    "--current-scale": SCALE,  # the magnitude; a negative scale turns a reversed probe round
+    "--voltage-scale": SCALE,
+    "--shunt-ohm": Bounds(1e-6, 1e6, "a current shunt"),
+    "--sample-rate": SAMPLE_RATE_HZ,
+    "--frequency": Bounds(40.0, 70.0, "mains: the band the frequency estimate searches"),
+}
+
+
+def check_option(name: str, value: float | None, magnitude: bool = False) -> float | None:
+    """``value`` of option ``name`` held to :data:`OPTION_BOUNDS` (its magnitude when
+    ``magnitude``); a one-line error naming the option otherwise."""
+    if value is None:
+        return None
+    b = OPTION_BOUNDS[name]
+    v = abs(value) if magnitude else value
+    if not (v == v and b.contains(v)):
+        what = ("a number whose magnitude is " + b.expected()[len("a number "):]
+                if magnitude else b.expected())
+        raise InputError(f"{name}: expected {what}, got {value:g}")
+    return value
+
+
 def csv_options_from(kw: dict) -> CsvOptions:
+    check_option("--current-scale", kw["current_scale"], magnitude=True)
+    check_option("--voltage-scale", kw["voltage_scale"], magnitude=True)
+    check_option("--frequency", kw.get("frequency"))
     scale = kw["current_scale"] * UNIT_SCALE[kw["current_unit"]]
     if kw.get("shunt_ohm") is not None:
-        if not kw["shunt_ohm"] > 0:
-            raise InputError(f"--shunt-ohm: expected a positive resistance, got {kw['shunt_ohm']}")
-        scale /= kw["shunt_ohm"]
-    if kw.get("sample_rate") is not None and not kw["sample_rate"] > 0:
-        raise InputError(f"--sample-rate: expected a positive rate, got {kw['sample_rate']}")
+        scale /= check_option("--shunt-ohm", kw["shunt_ohm"])
+    check_option("--sample-rate", kw.get("sample_rate"))
     delim = {"tab": "\t"}.get(kw.get("delimiter"), kw.get("delimiter"))
     return CsvOptions(
         current_col=kw.get("current_col"),

@@ -21,7 +21,7 @@ from ..standards import (
 from ..standards.iec61000_3_2 import SCOPE_MIN_VOLTAGE_V
 from ..standards.results import FixtureResult
 from ._common import STDIO, deprecated_alias, echo_json, main, user_errors
-from .analyze import capture_options, csv_options_from, read_capture
+from .analyze import capture_options, check_option, csv_options_from, read_capture
 
 #: Nominal line-to-neutral voltages a record is matched to when none is given [V]
 #: (common nominal values, IEC 60038 and North American practice; common practice).
@@ -239,6 +239,8 @@ def comply_cmd(captures, installation, equipment_class, settings_of, power_w, pf
             lineup_notes.extend(f"{e.fixture} ({e.source}, {e.dimmer}): {n}" for n in e.notes
                                 if n != CAUTION)
     opts = csv_options_from(kw)
+    if captures:  # with --model the frequency is the supply's, checked by the model
+        check_option("--frequency", frequency)
     waves = []
     for c in captures:
         rec = read_capture(c, opts)

@@ -88,6 +88,8 @@ def atomic_output(path: str | os.PathLike) -> Iterator[Path]:
         finally:
             shutil.rmtree(folder, ignore_errors=True)
         return
+    if p.is_dir():
+        raise InputError(f"{p}: is a folder; expected a file name")
     try:
         fd, tmp_name = tempfile.mkstemp(dir=p.parent if str(p.parent) else ".",
                                         prefix=f".{p.name}.", suffix=".tmp")

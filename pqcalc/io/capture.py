@@ -12,6 +12,7 @@ from __future__ import annotations
 
 import csv
 import os
+import re
 import warnings
 from collections.abc import Iterator
 from dataclasses import dataclass
@@ -22,7 +23,9 @@ import numpy as np
 from ..errors import ClippingWarning, InputError
 from ..waveform import Waveform, estimate_frequency, resample_whole_cycles
 from .comtrade import open_comtrade, read_comtrade
-from .record import RawRecord
+from .installation_file import Bounds
+from .record import SAMPLE_LIMITS, SAMPLE_RATE_HZ, RawRecord, check_floor, check_samples
+from .text import printable, quote_cell
 
 __all__ = [
     "RawRecord",
@@ -34,10 +37,33 @@ __all__ = [
     "load_capture",
     "record_to_waveform",
     "UNIT_SCALE",
+    "SAMPLE_RATE_HZ",
+    "SAMPLE_LIMITS",
+    "SCALE",
 ]
 
 #: Multipliers from a current unit to amperes.
 UNIT_SCALE = {"A": 1.0, "mA": 1e-3, "kA": 1e3, "uA": 1e-6}
+
+#: A scale factor's magnitude (probe ratio, shunt conversion, unit): 1e-9 to 1e9.
+SCALE = Bounds(1e-9, 1e9, "a probe, transformer or unit ratio")
+
+#: The largest time stamp read [s]: seconds since 1970 fit, and differences of stamps this
+#: large still resolve 1 us in double precision.
+MAX_TIME_S = 1e11
+
+#: The longest CSV cell read [characters]: a number or a column name, never a page.
+MAX_CELL_CHARS = 4096
+
+_COLUMN_NAME = re.compile(r"[\w .()\[\]%/+\-]{1,40}")
+
+
+def _column_names(header: list[str]) -> str:
+    """The header's names for a message (names only when they look like column names)."""
+    names = [h.strip() for h in header]
+    if all(_COLUMN_NAME.fullmatch(n) for n in names):
+        return ", ".join(names)
+    return f"{len(names)} columns (give an index 0..{len(names) - 1})"
 
 
 @dataclass(frozen=True)
@@ -123,7 +149,8 @@ def _resolve(col, header: list[str] | None, ncols: int, what: str, path: Path,
             )
         return idx
     if header is None:
-        raise InputError(f"{path}: {what} column {col!r} given by name but the file has no header")
+        raise InputError(f"{path}: {what} column {printable(repr(col), 60)} given by name but "
+                         "the file has no header")
     names = [h.strip() for h in header]
     if col in names:
         return names.index(col)
@@ -131,7 +158,8 @@ def _resolve(col, header: list[str] | None, ncols: int, what: str, path: Path,
     if col.lower() in low:
         return low.index(col.lower())
     raise InputError(
-        f"{path}: no column named {col!r} for the {what}; available: {', '.join(names)}"
+        f"{path}: no column named {printable(repr(col), 60)} for the {what}; available: "
+        f"{_column_names(header)}"
     )
 
 
@@ -181,7 +209,7 @@ class CsvStream:
         if o.decimal == "," and delim == ",":
             raise InputError(f"{p}: a decimal comma needs another delimiter (';' or tab)")
         self.delimiter = delim
-        cells0 = next(csv.reader([first_rows[0][1]], delimiter=delim))
+        cells0 = self._cells(first_rows[0][0], first_rows[0][1])
         header = None
         try:
             [_parse_float(c, o.decimal) for c in cells0 if c.strip()]
@@ -191,7 +219,7 @@ class CsvStream:
         self.header = header
         self._pending_rows = first_rows
         ncols = len(header) if header is not None else (
-            len(next(csv.reader([first_rows[0][1]], delimiter=delim))) if first_rows else 0)
+            len(self._cells(*first_rows[0])) if first_rows else 0)
         if ncols == 0:
             raise InputError(f"{p}: no numeric rows; expected samples after the header")
         self.ncols = ncols
@@ -208,7 +236,7 @@ class CsvStream:
             else:
                 raise InputError(
                     f"{p}: no current column found; name one with --current-col; available: "
-                    + ", ".join(h.strip() for h in header)
+                    + _column_names(header)
                 )
         self._cols = [c for c in (ti, ii, vi) if c is not None]
         self._ti, self._ii, self._vi = ti, ii, vi
@@ -218,9 +246,9 @@ class CsvStream:
         self._rows_read = 0
         self.meta = {"format": "csv", "delimiter": delim}
         if header is not None:
-            self.meta["current_channel"] = header[ii].strip()
+            self.meta["current_channel"] = printable(header[ii].strip(), 60)
             if vi is not None:
-                self.meta["voltage_channel"] = header[vi].strip()
+                self.meta["voltage_channel"] = printable(header[vi].strip(), 60)
         # the first block fixes the sample rate
         self._first = self._read_block(first_block)
         if self._first is None:
@@ -232,6 +260,9 @@ class CsvStream:
             if t0.size < 2:
                 raise InputError(f"{p}: one sample only; expected a record of several cycles")
             fs = (t0.size - 1) / float(t0[-1] - t0[0])
+            if not SAMPLE_RATE_HZ.contains(fs):
+                raise InputError(f"{p}: the time column gives {fs:.6g} samples per second; "
+                                 f"expected {SAMPLE_RATE_HZ.expected()}")
             if o.sample_rate_hz is not None and abs(fs - o.sample_rate_hz) > 1e-3 * fs:
                 raise InputError(f"{p}: time column gives {fs:.6g} Hz but --sample-rate says "
                                  f"{o.sample_rate_hz:g} Hz")
@@ -239,9 +270,25 @@ class CsvStream:
             fs = float(o.sample_rate_hz)
         else:
             raise InputError(f"{p}: no time column; give the sample rate (--sample-rate)")
-        if not fs > 0:
-            raise InputError(f"{p}: sample rate must be positive, got {fs}")
+        if not SAMPLE_RATE_HZ.contains(fs):
+            raise InputError(f"{p}: sample rate {fs:.6g} Hz; expected {SAMPLE_RATE_HZ.expected()}")
         self.sample_rate_hz = float(fs)
+
+    def _cells(self, line_no: int, text: str) -> list[str]:
+        """The cells of one line (quotes handled); a cell past :data:`MAX_CELL_CHARS` or a
+        line the CSV reader cannot split is a one-line error naming the line."""
+        if len(text) > MAX_CELL_CHARS * max(getattr(self, "ncols", 1), 8):
+            raise InputError(f"{self.path}:{line_no}: a line of {len(text)} characters; "
+                             "expected a row of numbers (or a header of column names)")
+        try:
+            cells = next(csv.reader([text], delimiter=self.delimiter))
+        except (csv.Error, StopIteration) as e:
+            raise InputError(f"{self.path}:{line_no}: cannot split the line into cells "
+                             f"({printable(str(e), 80)}); expected delimited text") from None
+        if any(len(c) > MAX_CELL_CHARS for c in cells):
+            raise InputError(f"{self.path}:{line_no}: a cell of more than {MAX_CELL_CHARS} "
+                             "characters; expected numbers (or column names)")
+        return cells
 
     # -- line handling
     def _numbered_lines(self):
@@ -290,6 +337,11 @@ class CsvStream:
             self._check_time(t, rows)
         current = arr[:, j] * o.current_scale
         voltage = arr[:, j + 1] * o.voltage_scale if self._vi is not None else None
+        for name, x in (("current", current), ("voltage", voltage)):
+            if x is not None:
+                bad = check_samples(x, name)
+                if bad is not None:
+                    raise InputError(f"{self.path}:{rows[bad[0]][0]}: {name}: {bad[1]}")
         self._first_t = t
         self._rows_read += len(rows)
         return current, voltage, t
@@ -298,7 +350,7 @@ class CsvStream:
         p, o = self.path, self.options
         out = np.empty((len(rows), len(self._cols)))
         for k, (ln, text) in enumerate(rows):
-            r = next(csv.reader([text], delimiter=self.delimiter))
+            r = self._cells(ln, text)
             if len(r) != self.ncols and not (len(r) > self.ncols
                                              and not any(c.strip() for c in r[self.ncols:])):
                 raise InputError(
@@ -310,11 +362,11 @@ class CsvStream:
                     val = _parse_float(cell, o.decimal)
                 except ValueError:
                     raise InputError(
-                        f"{p}:{ln}: column {c + 1}: expected a number, found {cell.strip()!r}"
-                    ) from None
+                        f"{p}:{ln}: column {c + 1}: expected a number, found "
+                        f"{quote_cell(cell)}") from None
                 if not np.isfinite(val):
                     raise InputError(f"{p}:{ln}: column {c + 1}: expected a finite number, "
-                                     f"found {cell.strip()!r}")
+                                     f"found {quote_cell(cell)}")
                 out[k, jj] = val
         return out
 
@@ -322,6 +374,11 @@ class CsvStream:
         p = self.path
         tt = t if self._t_last is None else np.concatenate([[self._t_last], t])
         off = 0 if self._t_last is None else 1
+        if np.any(np.abs(t) > MAX_TIME_S):
+            bad = int(np.flatnonzero(np.abs(t) > MAX_TIME_S)[0])
+            raise InputError(f"{p}:{rows[bad][0]}: time {t[bad]:.3g} s; expected a time "
+                             f"stamp within {MAX_TIME_S:g} s of zero (seconds since 1970 "
+                             "included)")
         dt = np.diff(tt)
         if dt.size and np.any(dt <= 0):
             bad = int(np.flatnonzero(dt <= 0)[0])
@@ -501,8 +558,13 @@ def record_to_waveform(
                 ClippingWarning,
                 stacklevel=2,
             )
-    if np.all(record.current_a == record.current_a[0]) and record.voltage_v is None:
-        raise InputError(f"{record.source}: the current is constant; nothing to analyse")
+    check_floor(float(np.max(np.abs(record.current_a))), "current", record.source)
+    if record.voltage_v is not None:
+        check_floor(float(np.max(np.abs(record.voltage_v))), "voltage", record.source)
+    if np.all(record.current_a == record.current_a[0]):
+        raise InputError(f"{record.source}: the current is constant "
+                         f"({record.current_a[0]:g} A) throughout; nothing to analyse "
+                         "(expected an alternating current)")
     f = frequency_hz
     if f is None:
         ref = record.voltage_v if record.voltage_v is not None else record.current_a

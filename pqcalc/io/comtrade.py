@@ -39,7 +39,9 @@ from pathlib import Path
 import numpy as np
 
 from ..errors import InputError
-from .record import RawRecord
+from .installation_file import Bounds
+from .record import SAMPLE_RATE_HZ, RawRecord, check_samples
+from .text import printable, quote_cell
 
 __all__ = [
     "AnalogChannel",
@@ -58,6 +60,10 @@ _VALUE_DTYPE = {"BINARY": "<i2", "BINARY32": "<i4", "FLOAT32": "<f4"}
 # "missing data" markers of the binary formats (C37.111-1999 6.4.1; -2013 8.4)
 _MISSING = {"BINARY": -32768, "BINARY32": -(2**31)}
 _TS_MISSING = 0xFFFFFFFF
+
+#: An instrument transformer's ratio term (``primary``, ``secondary``): a current
+#: transformer's 1 A to 100 kA, a voltage transformer's 100 V to 1 MV, with a margin.
+RATIO_TERM = Bounds(1e-3, 1e7, "an instrument transformer's primary or secondary rating")
 
 #: Multipliers from the unit written in a channel's ``uu`` field to SI.
 _UNIT_TO_SI = {
@@ -147,9 +153,17 @@ def _num(s: str, where: str, what: str, default: float | None = None) -> float:
     try:
         v = float(s)
     except ValueError:
-        raise InputError(f"{where}: {what}: expected a number, found {s.strip()!r}") from None
+        raise InputError(f"{where}: {what}: expected a number, found {quote_cell(s)}") from None
     if not np.isfinite(v):
-        raise InputError(f"{where}: {what}: expected a finite number, found {s.strip()!r}")
+        raise InputError(f"{where}: {what}: expected a finite number, found {quote_cell(s)}")
+    return v
+
+
+def _ratio_term(s: str, where: str, what: str) -> float:
+    v = _num(s, where, what, 1.0)
+    if not RATIO_TERM.contains(v):
+        raise InputError(f"{where}: {what}: expected {RATIO_TERM.expected()}, found "
+                         f"{quote_cell(s)}")
     return v
 
 
@@ -177,13 +191,13 @@ def parse_config(text: str, source: str = "<cfg>") -> ComtradeConfig:
         rev = int(_num(f[2], f"{source}:{ln}", "rev_year"))
         if rev not in (1991, 1999, 2013):
             raise InputError(f"{source}:{ln}: rev_year: expected 1991, 1999 or 2013, got {rev}")
-    station, device = f[0], f[1]
+    station, device = printable(f[0], 64), printable(f[1], 64)
 
     ln, f = nxt("channel count")
     m = [re.fullmatch(r"(\d+)([AaDd])", x) for x in f[1:3]]
     if len(f) < 3 or not all(m):
         raise InputError(f"{source}:{ln}: expected 'TT,##A,##D' (channel counts), found "
-                         f"{lines[ln - 1].strip()!r}")
+                         f"{quote_cell(lines[ln - 1])}")
     total = int(_num(f[0], f"{source}:{ln}", "TT"))
     counts = {mm.group(2).upper(): int(mm.group(1)) for mm in m if mm is not None}
     na, nd = counts.get("A", 0), counts.get("D", 0)
@@ -200,12 +214,13 @@ def parse_config(text: str, source: str = "<cfg>") -> ComtradeConfig:
                              f"{'' if rev == 1991 else ',primary,secondary,PS'}), found {len(f)}")
         w = f"{source}:{ln}"
         analog.append(AnalogChannel(
-            index=int(_num(f[0], w, "An")), name=f[1], phase=f[2], circuit=f[3], unit=f[4],
+            index=int(_num(f[0], w, "An")), name=printable(f[1], 64), phase=printable(f[2], 16),
+            circuit=printable(f[3], 64), unit=printable(f[4], 16),
             a=_num(f[5], w, "a"), b=_num(f[6], w, "b", 0.0),
             skew_s=_num(f[7], w, "skew", 0.0) * 1e-6,
             min_value=_num(f[8], w, "min", -32767), max_value=_num(f[9], w, "max", 32767),
-            primary=_num(f[10], w, "primary", 1.0) if need == 13 else 1.0,
-            secondary=_num(f[11], w, "secondary", 1.0) if need == 13 else 1.0,
+            primary=_ratio_term(f[10], w, "primary") if need == 13 else 1.0,
+            secondary=_ratio_term(f[11], w, "secondary") if need == 13 else 1.0,
             ps=(f[12] or "P") if need == 13 else "P",
         ))
     for k in range(nd):
@@ -228,7 +243,7 @@ def parse_config(text: str, source: str = "<cfg>") -> ComtradeConfig:
     ft = f[0].upper()
     if ft not in DATA_FORMATS:
         raise InputError(f"{source}:{ln}: data file type: expected one of "
-                         f"{', '.join(DATA_FORMATS)}, found {f[0]!r}")
+                         f"{', '.join(DATA_FORMATS)}, found {quote_cell(f[0])}")
     if rev < 2013 and ft in ("BINARY32", "FLOAT32"):
         pass  # accepted: some 1999 writers use the 2013 formats
     tmult = 1.0
@@ -314,6 +329,9 @@ class ComtradeFile:
             if t.size < 2 or np.any(dt <= 0):
                 raise InputError(f"{dat}: time stamps do not increase; expected uniform sampling")
             self.sample_rate_hz = float((t.size - 1) / (t[-1] - t[0]))
+        if not SAMPLE_RATE_HZ.contains(self.sample_rate_hz):
+            raise InputError(f"{self.cfg_path}: sample rate {self.sample_rate_hz:.6g} Hz; "
+                             f"expected {SAMPLE_RATE_HZ.expected()}")
         seq = head["n"].astype(np.int64)
         if seq.size > 1 and np.any(np.diff(seq) != 1):
             bad = int(np.flatnonzero(np.diff(seq) != 1)[0]) + 1
@@ -446,7 +464,8 @@ class ComtradeFile:
                 if ch.index == int(s):
                     return k
         names = ", ".join(f"{ch.index}:{ch.name}" for ch in chans)
-        raise InputError(f"{self.cfg_path}: no analog channel {s!r}; available: {names}")
+        raise InputError(f"{self.cfg_path}: no analog channel {printable(repr(s), 60)}; "
+                         f"available: {printable(names, 200)}")
 
     def chunks(self, channels: list[int], chunk: int = 1 << 16,
                scale: list[float] | None = None) -> Iterator[np.ndarray]:
@@ -469,14 +488,21 @@ class ComtradeFile:
                     raise InputError(
                         f"{self.dat_path}: sample {blk['first'] + r + 1}, channel "
                         f"{chans[j].name!r}: missing or invalid value; expected a sample")
-                np.multiply(x, gain[j], out=out[j])
-                if off[j]:
-                    out[j] += off[j]
+                with np.errstate(over="ignore", invalid="ignore"):
+                    np.multiply(x, gain[j], out=out[j])
+                    if off[j]:
+                        out[j] += off[j]
+                role = "voltage" if chans[j].si_unit == "V" else "current"
+                wrong = check_samples(out[j], role)
+                if wrong is not None:
+                    raise InputError(f"{self.dat_path}: sample {blk['first'] + wrong[0] + 1}, "
+                                     f"channel {chans[j].name!r}: {wrong[1]}")
             yield out.T
 
-    def read(self, channels: list[int]) -> np.ndarray:
-        """All samples of the given channels [primary SI], shape (samples, channels)."""
-        return np.concatenate(list(self.chunks(channels)), axis=0)
+    def read(self, channels: list[int], scale: list[float] | None = None) -> np.ndarray:
+        """All samples of the given channels [primary SI] (times ``scale``), shape
+        (samples, channels)."""
+        return np.concatenate(list(self.chunks(channels, scale=scale)), axis=0)
 
 
 def _split_cff(path: Path) -> tuple[str, int, int]:
@@ -548,15 +574,15 @@ def read_comtrade(path: str | os.PathLike[str], current_channel: str | int | Non
                          f"--current-col; available: {names}")
     vi = f.channel_index(voltage_channel, "V")
     cols = [ii] if vi is None else [ii, vi]
-    x = f.read(cols)
+    x = f.read(cols, [current_scale] if vi is None else [current_scale, voltage_scale])
     meta = {"format": f"comtrade {f.config.rev_year} {f.config.data_format}",
             "station": f.config.station, "device": f.config.device,
             "current_channel": f.config.analog[ii].name,
             "line_frequency_hz": f.config.line_frequency_hz, "start": f.config.start}
     if vi is not None:
         meta["voltage_channel"] = f.config.analog[vi].name
-    return RawRecord(x[:, 0] * current_scale, f.sample_rate_hz,
-                     None if vi is None else x[:, 1] * voltage_scale, str(f.cfg_path), meta)
+    return RawRecord(x[:, 0], f.sample_rate_hz, None if vi is None else x[:, 1],
+                     str(f.cfg_path), meta)
 
 
 # ---------------------------------------------------------------------------- writing

@@ -9,6 +9,8 @@ missing or read-only folder raises :class:`~pqcalc.errors.InputError`.
 from __future__ import annotations
 
 import csv
+import ctypes
+import errno
 import io
 import os
 import shutil
@@ -61,6 +63,12 @@ def csv_text(rows: Sequence[Mapping[str, Any]], header: Sequence[str] | None = N
     return buf.getvalue()
 
 
+#: First characters that make a spreadsheet read a cell as a formula (``=HYPERLINK(...)``,
+#: ``+cmd``, ``-2+3``, ``@SUM``) or shift it (tab, carriage return): a text cell starting
+#: with one gets a leading apostrophe, the usual escape, so it stays text.
+FORMULA_STARTS = ("=", "+", "-", "@", "\t", "\r")
+
+
 def _cell(v):
     if v is None:
         return ""
@@ -69,7 +77,26 @@ def _cell(v):
         if not np.isfinite(f):
             raise InputError("internal: a non-finite number reached the CSV export")
         return repr(f)
+    if isinstance(v, str):
+        return escape_formula(v)
     return v
+
+
+def escape_formula(s: str) -> str:
+    """``s`` as a CSV text cell a spreadsheet will not execute: a leading ``=``, ``+``,
+    ``-``, ``@``, tab or carriage return is escaped with an apostrophe, unless the cell is
+    a plain number or a lone dash.
+
+    >>> escape_formula('=HYPERLINK("http://x")'), escape_formula("-2.5"), escape_formula("-")
+    ('\'=HYPERLINK("http://x")', '-2.5', '-')
+    """
+    if not s.startswith(FORMULA_STARTS) or s == "-":
+        return s
+    try:
+        float(s)
+        return s
+    except ValueError:
+        return "'" + s
 
 
 def write_csv_tables(tables: Mapping[str, str], folder: str | os.PathLike) -> Path:
@@ -95,6 +122,12 @@ def write_csv_tables(tables: Mapping[str, str], folder: str | os.PathLike) -> Pa
         if extra:
             raise InputError(f"{p}: the folder holds other files ({', '.join(extra[:3])}); "
                              "give a new or empty folder for the CSV tables")
+        real, here = p.resolve(), Path.cwd().resolve()
+        if real == here or real in here.parents or real.parent == real:
+            raise InputError(f"{p}: the current folder (or one above it) cannot be replaced "
+                             "by the export; give a new folder name, such as ./tables, or a "
+                             ".zip file")
+    # the folder is built beside its target and swapped in whole: never half an export
     tmp = Path(tempfile.mkdtemp(dir=p.parent, prefix=f".{p.name}.", suffix=".tmp"))
     old = None
     try:
@@ -102,17 +135,43 @@ def write_csv_tables(tables: Mapping[str, str], folder: str | os.PathLike) -> Pa
         for name, text in tables.items():
             (tmp / name).write_text(text)
         if p.exists():
-            old = p.parent / f"{tmp.name}.old"
-            os.replace(p, old)
-        os.replace(tmp, p)
+            if _exchange(tmp, p):  # one atomic step: tmp now holds the earlier export
+                old = tmp
+            else:  # no atomic exchange here: two renames, the earlier export put back on error
+                old = p.parent / f"{tmp.name}.old"
+                os.replace(p, old)
+                os.replace(tmp, p)
+        else:
+            os.replace(tmp, p)
     except BaseException:
-        shutil.rmtree(tmp, ignore_errors=True)
+        if old is not tmp:
+            shutil.rmtree(tmp, ignore_errors=True)
         if old is not None and old.exists() and not p.exists():
             os.replace(old, p)
         raise
     if old is not None:
         shutil.rmtree(old, ignore_errors=True)
     return p
+
+
+_RENAME_EXCHANGE = 2  # renameat2 flag (Linux 3.15+, glibc 2.28+)
+_AT_FDCWD = -100
+
+
+def _exchange(a: Path, b: Path) -> bool:
+    """Swap two paths in one atomic step (Linux ``renameat2(RENAME_EXCHANGE)``); False when
+    the system or the file system cannot, so the caller falls back to two renames."""
+    try:
+        fn = ctypes.CDLL(None, use_errno=True).renameat2
+    except (OSError, AttributeError):
+        return False
+    fn.argtypes = [ctypes.c_int, ctypes.c_char_p, ctypes.c_int, ctypes.c_char_p, ctypes.c_uint]
+    if fn(_AT_FDCWD, os.fsencode(a), _AT_FDCWD, os.fsencode(b), _RENAME_EXCHANGE) == 0:
+        return True
+    err = ctypes.get_errno()
+    if err in (errno.ENOSYS, errno.EINVAL, errno.ENOTSUP, errno.EXDEV):
+        return False
+    raise OSError(err, os.strerror(err), str(b))
 
 
 def write_netcdf(ds: Any, path: str | os.PathLike) -> Path:

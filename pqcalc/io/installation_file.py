@@ -14,24 +14,67 @@ from __future__ import annotations
 import re
 import sys
 from collections.abc import Collection
+from dataclasses import dataclass
 from pathlib import Path
 from typing import Any
 
 from ..errors import InputError
+from .text import has_control, printable, shown
 
 if sys.version_info >= (3, 11):
     import tomllib
 else:  # pragma: no cover
     import tomli as tomllib
 
-__all__ = ["read_toml", "Fields"]
+__all__ = ["read_toml", "Fields", "Bounds", "MAX_FILE_BYTES"]
 
-_HEADER = re.compile(r"^\s*(\[\[?)\s*([^\]]+?)\s*\]\]?\s*(#.*)?$")
-_KEY = re.compile(r"^\s*([A-Za-z0-9_\-\"'.]+)\s*=")
+#: The largest installation file read [bytes]: written by hand, a large campus is well
+#: under 1 MB; past this the file is not an installation file.
+MAX_FILE_BYTES = 16 * 1024 * 1024
+
+# a key: bare (A-Za-z0-9_-) or quoted ("..." with escapes, '...' literal), dotted
+_KEYPART = r"""(?:[A-Za-z0-9_\-]+|"(?:[^"\\]|\\.)*"|'[^']*')"""
+_DOTTED = rf"{_KEYPART}(?:[ \t]*\.[ \t]*{_KEYPART})*"
+_HEADER = re.compile(rf"^\s*(\[\[?)\s*({_DOTTED})\s*\]\]?\s*(#.*)?$")
+_KEY = re.compile(rf"^\s*({_DOTTED})\s*=")
+_PART = re.compile(_KEYPART)
+# the last step of a field path: ".name", ".\"quoted.name\"" or "[index]"
+_LAST_STEP = re.compile(r"(\.[^.\[\]]+|\[\d+\])$")
 
 
 def _split_key(k: str) -> list[str]:
-    return [p.strip().strip("\"'") for p in k.split(".")]
+    """The parts of a dotted key, quotes removed (``a."b.c"`` -> ``a``, ``b.c``)."""
+    parts = []
+    for m in _PART.finditer(k):
+        p = m.group(0)
+        if p[:1] in "\"'":
+            p = p[1:-1]
+        parts.append(p)
+    return parts or [k.strip()]
+
+
+@dataclass(frozen=True)
+class Bounds:
+    """The physically sensible range of a numeric field, declared once beside the field
+    (``field(metadata={"bounds": Bounds(...)})`` or a reader's table) with its reason.
+
+    ``lo_open``: the lower end is excluded (``> lo``); ``whole``: a whole number.
+    """
+
+    lo: float
+    hi: float
+    why: str
+    lo_open: bool = False
+    whole: bool = False
+
+    def contains(self, v: float) -> bool:
+        above = v > self.lo if self.lo_open else v >= self.lo
+        return above and v <= self.hi and (not self.whole or v == int(v))
+
+    def expected(self) -> str:
+        kind = "a whole number" if self.whole else "a number"
+        lo = f"above {self.lo:g}" if self.lo_open else f"from {self.lo:g}"
+        return f"{kind} {lo} to {self.hi:g} ({self.why})"
 
 
 def _line_index(text: str) -> dict[str, int]:
@@ -100,24 +143,63 @@ def _line_index(text: str) -> dict[str, int]:
 
 
 def read_toml(path: str | Path) -> tuple[dict, Fields]:
-    """Parse a TOML file; return the data and a :class:`Fields` helper for validation."""
+    """Parse a TOML file; return the data and a :class:`Fields` helper for validation.
+
+    UTF-8 with or without a byte-order mark; nesting deeper than the reader can follow,
+    and files past :data:`MAX_FILE_BYTES`, are refused with a one-line message.
+    """
     p = Path(path)
     if not p.exists():
         raise InputError(f"{p}: no such file")
     if p.is_dir():
         raise InputError(f"{p}: is a directory; expected an installation file (.toml)")
+    if p.stat().st_size > MAX_FILE_BYTES:
+        raise InputError(f"{p}: {p.stat().st_size} bytes; expected an installation file "
+                         f"under {MAX_FILE_BYTES // (1024 * 1024)} MB")
     raw = p.read_bytes()
     try:
-        text = raw.decode("utf-8")
-    except UnicodeDecodeError:
-        raise InputError(f"{p}: not UTF-8 text; expected a TOML installation file") from None
+        text = raw.decode("utf-8-sig")
+    except UnicodeDecodeError as e:
+        line = raw[: e.start].count(b"\n") + 1
+        raise InputError(f"{p}:{line}: not UTF-8 text; expected a TOML installation file "
+                         "(save it as UTF-8)") from None
     try:
         data = tomllib.loads(text)
     except tomllib.TOMLDecodeError as e:
-        raise InputError(f"{p}: not valid TOML: {e}") from None
+        raise InputError(f"{p}: not valid TOML: {printable(str(e), 200)}") from None
+    except RecursionError:
+        raise InputError(f"{p}: arrays or tables nested too deep for a TOML reader; expected "
+                         "an installation file (a few levels of nesting)") from None
     if not data:
         raise InputError(f"{p}: the file is empty; expected [supply], [fixtures] and [[panels]]")
-    return data, Fields(p, _line_index(text))
+    fields = Fields(p, _line_index(text))
+    _check_text(data, "", fields)
+    return data, fields
+
+
+#: The longest text a field may hold [characters] (notes included): past it, the value is
+#: not something a person wrote for a report.
+MAX_TEXT_CHARS = 10_000
+#: The longest key [characters].
+MAX_KEY_CHARS = 200
+
+
+def _check_text(node: Any, path: str, fld: Fields) -> None:
+    """Every key and text value of the document: no control characters (a line break or a
+    tab in a text value is fine), nothing longer than a person writes. Text is shown on a
+    terminal and in reports; it must never act on them."""
+    if isinstance(node, dict):
+        for k, v in node.items():
+            f = f"{path}.{k}" if path else str(k)
+            if len(k) > MAX_KEY_CHARS or has_control(k):
+                raise fld.error(printable(f, 120), f"a field name of at most {MAX_KEY_CHARS} "
+                                "printable characters")
+            _check_text(v, f, fld)
+    elif isinstance(node, list):
+        for i, v in enumerate(node):
+            _check_text(v, f"{path}[{i}]", fld)
+    elif isinstance(node, str):
+        fld.check_text(node, path, MAX_TEXT_CHARS, allow="\t\n\r")
 
 
 class Fields:
@@ -134,14 +216,17 @@ class Fields:
                 return self.index[f]
             if "." not in f and "[" not in f:
                 return None
-            f = re.sub(r"(\.[^.\[\]]+|\[\d+\])$", "", f)
+            shorter = _LAST_STEP.sub("", f)
+            if shorter == f:  # a name this scan cannot take apart: no line rather than a loop
+                return None
+            f = shorter
         return None
 
     def error(self, field: str, expected: str, got: Any = ...) -> InputError:
         ln = self.line(field)
         loc = f"{self.path}:{ln}" if ln else f"{self.path}"
-        tail = "" if got is ... else f", got {got!r}"
-        return InputError(f"{loc}: {field}: expected {expected}{tail}")
+        tail = "" if got is ... else f", got {shown(got)}"
+        return InputError(f"{loc}: {printable(field, 120)}: expected {expected}{tail}")
 
     # --- typed getters -------------------------------------------------------------------
     def table(self, d: dict, key: str, field: str, required: bool = True) -> dict:
@@ -155,7 +240,9 @@ class Fields:
         return v
 
     def str_(self, d: dict, key: str, field: str, default: Any = ...,
-             choices: Collection[str] | None = None) -> Any:
+             choices: Collection[str] | None = None, max_chars: int = 200) -> Any:
+        """A text field: one of ``choices``, or free text of at most ``max_chars``
+        characters without control characters (never a terminal escape sequence)."""
         if key not in d:
             if default is ...:
                 raise self.error(field, "a value (required)" if not choices else
@@ -166,34 +253,56 @@ class Fields:
             raise self.error(field, "text" if not choices else "one of " + ", ".join(choices), v)
         if choices is not None and v not in choices:
             raise self.error(field, "one of " + ", ".join(choices), v)
+        return self.check_text(v, field, max_chars)
+
+    def check_text(self, v: str, field: str, max_chars: int = 200, allow: str = "") -> str:
+        """``v`` when it is free text pqcalc can show: at most ``max_chars`` characters, no
+        control characters but those in ``allow`` (such as a line break in notes)."""
+        if len(v) > max_chars:
+            raise self.error(field, f"text of at most {max_chars} characters", v)
+        if has_control(v, allow):
+            raise self.error(field, "text without control characters (escape sequences, "
+                             "NUL)", v)
         return v
 
     def num(self, d: dict, key: str, field: str, default: Any = ..., positive: bool = False,
-            nonneg: bool = False, lo: float | None = None, hi: float | None = None) -> Any:
+            nonneg: bool = False, lo: float | None = None, hi: float | None = None,
+            bounds: Bounds | None = None) -> Any:
+        """A finite number within ``bounds`` (or the older ``positive``/``nonneg``/``lo``,
+        ``hi``); ``default`` when the key is absent (``...``: required)."""
         if key not in d:
             if default is ...:
-                raise self.error(field, "a number (required)")
+                what = bounds.expected() if bounds is not None else "a number"
+                raise self.error(field, f"{what} (required)")
             return default
         v = d[key]
         if isinstance(v, bool) or not isinstance(v, (int, float)):
-            raise self.error(field, "a number", v)
-        v = float(v)
-        if v != v or v in (float("inf"), float("-inf")):
-            raise self.error(field, "a finite number", v)
-        if positive and not v > 0:
+            raise self.error(field, bounds.expected() if bounds is not None else "a number", v)
+        try:
+            x = float(v)
+        except OverflowError:  # an integer past the float range
+            x = float("inf") if v > 0 else float("-inf")
+        if x != x or x in (float("inf"), float("-inf")):
+            raise self.error(field, bounds.expected() if bounds is not None
+                             else "a finite number", v)
+        if bounds is not None and not bounds.contains(x):
+            raise self.error(field, bounds.expected(), v)
+        if positive and not x > 0:
             raise self.error(field, "a positive number", v)
-        if nonneg and v < 0:
+        if nonneg and x < 0:
             raise self.error(field, "a number >= 0", v)
-        if lo is not None and v < lo or hi is not None and v > hi:
+        if lo is not None and x < lo or hi is not None and x > hi:
             raise self.error(field, f"a number from {lo:g} to {hi:g}", v)
-        return v
+        return int(x) if bounds is not None and bounds.whole else x
 
-    def count(self, d: dict, key: str, field: str) -> int:
+    def count(self, d: dict, key: str, field: str, bounds: Bounds | None = None) -> int:
+        what = "a whole number of fixtures >= 1" if bounds is None else bounds.expected()
         if key not in d:
-            raise self.error(field, "a whole number of fixtures >= 1 (required)")
+            raise self.error(field, f"{what} (required)")
         v = d[key]
-        if isinstance(v, bool) or not isinstance(v, int) or v < 1:
-            raise self.error(field, "a whole number of fixtures >= 1", v)
+        if (isinstance(v, bool) or not isinstance(v, int) or v < 1
+                or bounds is not None and not bounds.contains(v)):
+            raise self.error(field, what, v)
         return int(v)
 
     def list_(self, d: dict, key: str, field: str, default: Any = ...) -> list:
@@ -210,4 +319,5 @@ class Fields:
         for k in d:
             if k not in allowed:
                 f = f"{field}.{k}" if field else k
-                raise self.error(f, "no such field here; known fields: " + ", ".join(sorted(allowed)))
+                raise self.error(f, "no such field here; known fields: "
+                                 + ", ".join(sorted(allowed)))

@@ -14,7 +14,52 @@ from typing import Any, Protocol
 
 import numpy as np
 
-__all__ = ["RawRecord", "CaptureStream"]
+from .installation_file import Bounds
+
+__all__ = ["RawRecord", "CaptureStream", "SAMPLE_RATE_HZ", "SAMPLE_LIMITS", "check_samples",
+           "SIGNAL_FLOORS", "check_floor"]
+
+#: A capture's sample rate [Hz]: below 100 Hz no mains harmonic is left (and the study
+#: refuses what its orders need, :func:`pqcalc.analysis.analyze`), above 100 MHz no
+#: power-quality recorder samples.
+SAMPLE_RATE_HZ = Bounds(100.0, 1e8, "a power-quality recorder's sample rate")
+
+#: The largest magnitude of a recorded sample after scaling, by channel: past any fault
+#: current a building sees, past any distribution voltage. Beyond them the scale or the file
+#: is wrong, and squares of such values overflow.
+SAMPLE_LIMITS: dict[str, tuple[float, str]] = {"current": (1e6, "A"), "voltage": (1e7, "V")}
+
+
+#: The smallest peak a channel may have to be analysed, by channel: below any recorder's
+#: resolution the record is empty (or mis-scaled), and ratios of such values are noise.
+SIGNAL_FLOORS: dict[str, tuple[float, str]] = {"current": (1e-9, "A"), "voltage": (1e-6, "V")}
+
+
+def check_floor(peak: float, channel: str, source: str) -> None:
+    """Refuse a channel whose largest magnitude ``peak`` is below :data:`SIGNAL_FLOORS`."""
+    from ..errors import InputError
+
+    floor, unit = SIGNAL_FLOORS[channel]
+    if not peak >= floor:
+        raise InputError(f"{source}: the {channel} peaks at {peak:.3g} {unit}, below "
+                         f"{floor:g} {unit}; expected a recorded {channel} (check the channel, "
+                         "the scale and the unit)")
+
+
+def check_samples(x: np.ndarray, channel: str) -> tuple[int, str] | None:
+    """None when every sample of ``x`` is finite and within :data:`SAMPLE_LIMITS`; else the
+    index of the first bad sample and what is wrong with it."""
+    lim, unit = SAMPLE_LIMITS[channel]
+    with np.errstate(invalid="ignore"):
+        ok = np.abs(x) <= lim
+    if ok.all():
+        return None
+    k = int(np.flatnonzero(~ok)[0])
+    v = float(x[k])
+    if not np.isfinite(v):
+        return k, "not a finite number after scaling; expected a sample"
+    return k, (f"{v:.3g} {unit} after scaling; expected at most {lim:g} {unit} in magnitude "
+               "(check the scale factor and the unit)")
 
 
 @dataclass(frozen=True)

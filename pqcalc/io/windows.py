@@ -30,6 +30,7 @@ with a 1.5 s time constant). Subgroup and smoothing details recalled from memory
 from __future__ import annotations
 
 import os
+import warnings
 from collections.abc import Iterator
 from dataclasses import dataclass, field
 from typing import TYPE_CHECKING, Any
@@ -37,9 +38,9 @@ from typing import TYPE_CHECKING, Any
 import numpy as np
 from numpy.lib.stride_tricks import sliding_window_view
 
-from ..errors import InputError
+from ..errors import InputError, PqcalcWarning
 from ..waveform import estimate_frequency
-from .record import CaptureStream
+from .record import CaptureStream, check_floor
 
 if TYPE_CHECKING:
     from .capture import CsvOptions
@@ -278,9 +279,11 @@ def iter_windows(
     buf_v = np.empty(0)  # stays empty without a voltage channel
     offset = 0  # absolute index of buf[0]
     exhausted = False
+    i_lo, i_hi = np.inf, -np.inf  # extremes of the current over the whole record
+    v_peak = 0.0
 
     def refill(need: int) -> bool:
-        nonlocal buf_i, buf_v, exhausted
+        nonlocal buf_i, buf_v, exhausted, i_lo, i_hi, v_peak
         parts_i, parts_v, have = [buf_i], [buf_v], buf_i.size
         while have < need and not exhausted:
             try:
@@ -289,8 +292,12 @@ def iter_windows(
                 exhausted = True
                 break
             parts_i.append(np.asarray(c, float))
+            if c.size:
+                i_lo, i_hi = min(i_lo, float(np.min(c))), max(i_hi, float(np.max(c)))
             if has_v:
                 parts_v.append(np.asarray(v, float))
+                if v is not None and v.size:
+                    v_peak = max(v_peak, float(np.max(np.abs(v))))
             have += c.size
         if len(parts_i) > 1:
             buf_i = np.concatenate(parts_i)
@@ -318,8 +325,15 @@ def iter_windows(
             f"{src}: {ref0.size} samples at {fs:g} Hz hold {ref0.size * f_est / fs:.3g} cycles; "
             f"expected at least one {cycles}-cycle window ({n_win} samples)")
     top = int(min(max_order, (n_win // 2 - cycles // 2 - 1) // cycles))
-    if top < 1:
-        raise InputError(f"{src}: {fs:g} Hz is too slow a sample rate for harmonic groups")
+    if top < 2:
+        raise InputError(f"{src}: {fs:g} Hz is too slow a sample rate for harmonic groups "
+                         f"(they need more than {2 * 2 * f_est + f_est:.4g} samples per second "
+                         "for order 2)")
+    if top < thd_max_order:
+        warnings.warn(f"{src}: {fs:g} samples per second resolve harmonic groups up to order "
+                      f"{top}; THD and groups stop there (order {thd_max_order} needs more than "
+                      f"{(2 * thd_max_order + 1) * f_est:.4g} samples per second)",
+                      PqcalcWarning, stacklevel=2)
     thd_top = min(thd_max_order, top)
     pos = 0.0  # exact start of the next window, absolute samples
     last_phase: tuple[float, int] | None = None  # (fundamental phase, start) of last window
@@ -420,6 +434,12 @@ def iter_windows(
         raise InputError(
             f"{src}: the record is shorter than one {cycles}-cycle window "
             f"({n_win} samples at {fs:g} Hz)")
+    check_floor(max(abs(i_lo), abs(i_hi)), "current", src)
+    if has_v:
+        check_floor(v_peak, "voltage", src)
+    if i_lo == i_hi:
+        raise InputError(f"{src}: the current is constant ({i_lo:g} A) throughout; nothing to "
+                         "analyse (expected an alternating current)")
 
 
 # --------------------------------------------------------------------------- summaries
