@@ -35,16 +35,19 @@ states are then part of its IEC 61000-3-2 verdict.
 
 from __future__ import annotations
 
+import os
 from pathlib import Path
 from typing import Any, cast
 
 from ..errors import InputError
-from ..io.capture import CsvOptions
-from ..io.installation_file import Fields, read_toml
+from ..io.capture import SAMPLE_RATE_HZ, SCALE, CsvOptions
+from ..io.installation_file import Bounds, Fields, read_toml
 from .interaction import from_short_circuit, from_transformer
 from .model import (
     DIMMER_KINDS,
     DIVERSITY_MODES,
+    MAX_SCENARIOS,
+    PARAM_BOUNDS,
     SWITCH_KINDS,
     SYSTEMS,
     AnalysisOptions,
@@ -64,6 +67,7 @@ from .model import (
     Revision,
     SourceImpedance,
     SupplySpec,
+    bounds_of,
     default_of,
 )
 
@@ -73,12 +77,46 @@ _TOP = {"project", "supply", "fixtures", "panels", "feeders", "analysis", "diver
         "compliance", "report"}
 
 
-def _params(fld: Fields, d: dict, field_: str) -> tuple[tuple[str, float], ...]:
+#: Values the file gives that are not fields of the model (they are turned into one), with
+#: their physically sensible ranges; the model's own fields carry theirs (``bounds_of``).
+_INPUT_BOUNDS: dict[str, Bounds] = {
+    "impedance_pct": Bounds(0.5, 20.0, "a distribution transformer's impedance voltage"),
+    "x_over_r": Bounds(0.0, 100.0, "X/R of a supply or transformer"),
+    "short_circuit_a": Bounds(10.0, 1e6, "a building service's prospective short-circuit "
+                              "current"),
+    "length_m": Bounds(0.1, 10_000.0, "a branch cable's length"),
+    "size_mm2": Bounds(0.5, 1000.0, "a conductor's cross-section"),
+    "temperature_c": Bounds(-40.0, 250.0, "a conductor's temperature"),
+    "sample_rate_hz": SAMPLE_RATE_HZ,  # as every capture reader (pqcalc.io.record)
+    "scale": SCALE,  # a positive ratio here (pqcalc.io.capture)
+}
+
+#: Environment variable that lets capture files lie outside the installation's folder.
+CAPTURES_OUTSIDE_ENV = "PQCALC_CAPTURES_OUTSIDE"
+
+
+def _num(fld: Fields, d: dict, key: str, path: str, cls: type, default: Any = ...,
+         name: str | None = None) -> Any:
+    """A number held to the range declared beside ``cls``'s field (``name``, or ``key``)."""
+    return fld.num(d, key, path, default, bounds=bounds_of(cls, name or key))
+
+
+def _params(fld: Fields, d: dict, field_: str, units: dict[str, str] | None = None
+            ) -> tuple[tuple[str, float], ...]:
+    """Component values: known names (``units``: name -> unit of the model), numbers within
+    the range of real parts of their unit (:data:`~pqcalc.installation.model.PARAM_BOUNDS`)."""
     out = []
     for k, v in d.items():
+        f = f"{field_}.{k}"
+        if units is not None and k not in units:
+            raise fld.error(f, "a component of this model: " + ", ".join(units))
+        b = PARAM_BOUNDS.get(units[k]) if units is not None else None
         if isinstance(v, bool) or not isinstance(v, (int, float)):
-            raise fld.error(f"{field_}.{k}", "a number (SI units, as the name says)", v)
-        out.append((k, float(v)))
+            raise fld.error(f, "a number (SI units, as the name says)", v)
+        x = fld.num(d, k, f)
+        if b is not None and x != 0 and not b.contains(x):
+            raise fld.error(f, f"{b.expected()} [{units[k]}]", v)  # type: ignore[index]
+        out.append((k, x))
     return tuple(sorted(out))
 
 
@@ -88,8 +126,8 @@ def _supply(fld: Fields, data: dict) -> SupplySpec:
                     "short_circuit_a", "x_over_r", "transformer", "neutral_r_ohm",
                     "neutral_l_h", "rules"}, "supply")
     system = fld.str_(d, "system", "supply.system", choices=SYSTEMS)
-    v = fld.num(d, "voltage_ln_v", "supply.voltage_ln_v", lo=90.0, hi=300.0)
-    f = fld.num(d, "frequency_hz", "supply.frequency_hz", lo=45.0, hi=65.0)
+    v = _num(fld, d, "voltage_ln_v", "supply.voltage_ln_v", SupplySpec)
+    f = _num(fld, d, "frequency_hz", "supply.frequency_hz", SupplySpec)
     lines = 3 if system == "three-phase-wye" else 2 if system == "split-phase" else 1
     kva = None
     eddy = default_of(SupplySpec, "eddy_loss_pu")
@@ -101,24 +139,29 @@ def _supply(fld: Fields, data: dict) -> SupplySpec:
     if "transformer" in d:
         t = fld.table(d, "transformer", "supply.transformer")
         fld.unknown(t, {"kva", "impedance_pct", "x_over_r", "eddy_loss_pu"}, "supply.transformer")
-        kva = fld.num(t, "kva", "supply.transformer.kva", positive=True)
+        kva = _num(fld, t, "kva", "supply.transformer.kva", SupplySpec, name="transformer_kva")
         z = from_transformer(kva, fld.num(t, "impedance_pct", "supply.transformer.impedance_pct",
-                                          lo=0.5, hi=20.0),
-                             fld.num(t, "x_over_r", "supply.transformer.x_over_r", 5.0, nonneg=True),
+                                          bounds=_INPUT_BOUNDS["impedance_pct"]),
+                             fld.num(t, "x_over_r", "supply.transformer.x_over_r", 5.0,
+                                     bounds=_INPUT_BOUNDS["x_over_r"]),
                              v, f, lines)
-        eddy = fld.num(t, "eddy_loss_pu", "supply.transformer.eddy_loss_pu", eddy, nonneg=True)
+        eddy = _num(fld, t, "eddy_loss_pu", "supply.transformer.eddy_loss_pu", SupplySpec, eddy)
         basis = "transformer"
     elif "short_circuit_a" in d:
-        z = from_short_circuit(fld.num(d, "short_circuit_a", "supply.short_circuit_a", positive=True),
-                               fld.num(d, "x_over_r", "supply.x_over_r", 3.0, nonneg=True), v, f)
+        z = from_short_circuit(fld.num(d, "short_circuit_a", "supply.short_circuit_a",
+                                       bounds=_INPUT_BOUNDS["short_circuit_a"]),
+                               fld.num(d, "x_over_r", "supply.x_over_r", 3.0,
+                                       bounds=_INPUT_BOUNDS["x_over_r"]), v, f)
         basis = "short-circuit current"
     else:
-        z = SourceImpedance(fld.num(d, "source_r_ohm", "supply.source_r_ohm", 0.0, nonneg=True),
-                            fld.num(d, "source_l_h", "supply.source_l_h", 0.0, nonneg=True))
+        z = SourceImpedance(
+            _num(fld, d, "source_r_ohm", "supply.source_r_ohm", SourceImpedance, 0.0, "r_ohm"),
+            _num(fld, d, "source_l_h", "supply.source_l_h", SourceImpedance, 0.0, "l_h"))
         basis = "direct"
     z = SourceImpedance(z.r_ohm, z.l_h,
-                        fld.num(d, "neutral_r_ohm", "supply.neutral_r_ohm", 0.0, nonneg=True),
-                        fld.num(d, "neutral_l_h", "supply.neutral_l_h", 0.0, nonneg=True))
+                        _num(fld, d, "neutral_r_ohm", "supply.neutral_r_ohm", SourceImpedance,
+                             0.0),
+                        _num(fld, d, "neutral_l_h", "supply.neutral_l_h", SourceImpedance, 0.0))
     return SupplySpec(system, v, f, z, kva, eddy, basis, _rules(fld, d, system, v, f))
 
 
@@ -149,51 +192,121 @@ _FIXTURE_FIELDS = {"model", "power_w", "params", "capture", "current_col", "volt
                    "min_conduction_deg", "max_conduction_deg", "description", "builtin_dimming"}
 
 
-def _fixtures(fld: Fields, data: dict, base: Path) -> dict[str, FixtureType]:
+def _fixtures(fld: Fields, data: dict, base: Path, supply: SupplySpec,
+              captures_outside: bool = False) -> dict[str, FixtureType]:
+    from ..circuits.drivers import model_params, resolve_params
+
     d = fld.table(data, "fixtures", "fixtures")
     if not d:
         raise fld.error("fixtures", "at least one fixture type [fixtures.NAME]")
     out: dict[str, FixtureType] = {}
     for fid, t in d.items():
         path = f"fixtures.{fid}"
+        fld.check_text(fid, path, 100)
         if not isinstance(t, dict):
             raise fld.error(path, "a table of the fixture type's fields", t)
         fld.unknown(t, _FIXTURE_FIELDS, path)
         if ("model" in t) == ("capture" in t):
             raise fld.error(path, "either model = \"...\" or capture = \"file\" (one of them)")
-        lo = fld.num(t, "min_conduction_deg", f"{path}.min_conduction_deg",
-                     default_of(ModelledFixture, "min_conduction_deg"), lo=0.0, hi=180.0)
-        hi = fld.num(t, "max_conduction_deg", f"{path}.max_conduction_deg",
-                     default_of(ModelledFixture, "max_conduction_deg"), lo=0.0, hi=180.0)
+        lo = _num(fld, t, "min_conduction_deg", f"{path}.min_conduction_deg", ModelledFixture,
+                  default_of(ModelledFixture, "min_conduction_deg"))
+        hi = _num(fld, t, "max_conduction_deg", f"{path}.max_conduction_deg", ModelledFixture,
+                  default_of(ModelledFixture, "max_conduction_deg"))
         if lo >= hi:
             raise fld.error(f"{path}.min_conduction_deg", f"less than max_conduction_deg ({hi:g})", lo)
-        desc = fld.str_(t, "description", f"{path}.description", "")
+        desc = fld.str_(t, "description", f"{path}.description", "", max_chars=1000)
         builtin = t.get("builtin_dimming", default_of(ModelledFixture, "builtin_dimming"))
         if not isinstance(builtin, bool):
             raise fld.error(f"{path}.builtin_dimming", "true or false", builtin)
         if "model" in t:
-            power = fld.num(t, "power_w", f"{path}.power_w", positive=True)
+            power = _num(fld, t, "power_w", f"{path}.power_w", ModelledFixture)
             model = fld.str_(t, "model", f"{path}.model", choices=_model_ids())
+            units = {r["name"]: r["unit"] for r in model_params(model)}
             params = _params(fld, fld.table(t, "params", f"{path}.params", required=False),
-                             f"{path}.params")
+                             f"{path}.params", units)
+            try:  # the model's own rules (its power range, parts that depend on each other)
+                resolve_params(model, power, supply.voltage_ln_v, supply.frequency_hz,
+                               dict(params))
+            except InputError as e:
+                raise fld.error(f"{path}.params" if params else f"{path}.power_w",
+                                f"values the {model} model accepts ({e})") from None
             out[fid] = ModelledFixture(fid, power, lo, hi, desc, model, params,
                                        builtin_dimming=builtin)
         else:
-            power = fld.num(t, "power_w", f"{path}.power_w", 0.0, nonneg=True)
-            cap = fld.str_(t, "capture", f"{path}.capture")
-            cp = (base / cap) if not Path(cap).is_absolute() else Path(cap)
-            if not cp.is_file():
-                raise fld.error(f"{path}.capture", "an existing capture file", str(cp))
+            power = _num(fld, t, "power_w", f"{path}.power_w", MeasuredFixture, 0.0)
+            cap = fld.str_(t, "capture", f"{path}.capture", max_chars=1000)
+            cp = _capture_path(fld, f"{path}.capture", cap, base, captures_outside)
+            cols: dict[str, Any] = {}
+            for key in ("current_col", "voltage_col", "time_col"):
+                c = t.get(key)
+                if c is not None and (isinstance(c, bool) or not isinstance(c, (str, int))):
+                    raise fld.error(f"{path}.{key}", "a column: its header name or its 0-based "
+                                    "index", c)
+                if isinstance(c, str):
+                    fld.check_text(c, f"{path}.{key}", 200)
+                cols[key] = c
             opts = CsvOptions(
-                current_col=t.get("current_col"), voltage_col=t.get("voltage_col"),
-                time_col=t.get("time_col"),
-                sample_rate_hz=fld.num(t, "sample_rate_hz", f"{path}.sample_rate_hz", None, positive=True),
-                current_scale=fld.num(t, "current_scale", f"{path}.current_scale", 1.0, positive=True),
-                voltage_scale=fld.num(t, "voltage_scale", f"{path}.voltage_scale", 1.0, positive=True),
+                current_col=cols["current_col"], voltage_col=cols["voltage_col"],
+                time_col=cols["time_col"],
+                sample_rate_hz=fld.num(t, "sample_rate_hz", f"{path}.sample_rate_hz", None,
+                                       bounds=_INPUT_BOUNDS["sample_rate_hz"]),
+                current_scale=fld.num(t, "current_scale", f"{path}.current_scale", 1.0,
+                                      bounds=_INPUT_BOUNDS["scale"]),
+                voltage_scale=fld.num(t, "voltage_scale", f"{path}.voltage_scale", 1.0,
+                                      bounds=_INPUT_BOUNDS["scale"]),
             )
+            _check_capture(fld, f"{path}.capture", cp, opts)
             out[fid] = MeasuredFixture(fid, power, lo, hi, desc, str(cp), opts,
                                        builtin_dimming=builtin)
     return out
+
+
+def _capture_path(fld: Fields, field_: str, cap: str, base: Path, outside: bool) -> Path:
+    """A capture's path, relative to the installation file's folder; one that leaves the
+    folder is refused unless allowed (``captures_outside``, or the environment variable
+    ``PQCALC_CAPTURES_OUTSIDE=1``), so an installation file cannot make pqcalc read any
+    file on the machine."""
+    if not cap.strip() or "\x00" in cap:
+        raise fld.error(field_, "the name of a capture file", cap)
+    cp = Path(cap) if Path(cap).is_absolute() else base / cap
+    root = base.resolve()
+    try:
+        real = cp.resolve()
+    except (OSError, RuntimeError):
+        raise fld.error(field_, "a capture file that can be found", cap) from None
+    if not outside and not real.is_relative_to(root):
+        raise fld.error(field_, "a capture file in the installation's folder or below it "
+                        f"(to read captures elsewhere, set {CAPTURES_OUTSIDE_ENV}=1)", cap)
+    if not cp.is_file():
+        raise fld.error(field_, "an existing capture file", cap)
+    return cp
+
+
+#: The highest harmonic order a fixture's capture must resolve: IEC 61000-3-2 limits
+#: orders up to 40.
+CAPTURE_MIN_ORDER = 40
+
+
+def _check_capture(fld: Fields, field_: str, cp: Path, opts: CsvOptions) -> None:
+    """Read the capture now, so that a bad one is named by the installation file's line
+    and field (not discovered mid-study), and check that its sample rate resolves the
+    orders the study sums."""
+    import warnings
+
+    from ..io.capture import load_capture, record_to_waveform
+
+    try:
+        with warnings.catch_warnings():
+            warnings.simplefilter("ignore")  # the study warns when it uses the capture
+            w = record_to_waveform(load_capture(cp, opts))
+    except InputError as e:
+        ln = fld.line(field_)
+        raise InputError(f"{fld.path}{f':{ln}' if ln else ''}: {field_}: {e}") from None
+    rec = w.recorded
+    if rec is not None and rec.samples_per_cycle <= 2 * CAPTURE_MIN_ORDER:
+        raise fld.error(field_, f"a capture resolving harmonic order {CAPTURE_MIN_ORDER} (more "
+                        f"than {2 * CAPTURE_MIN_ORDER} samples per cycle; this one has "
+                        f"{rec.samples_per_cycle:.3g})", str(cp.name))
 
 
 def _angles(fld: Fields, c: dict, key: str, path: str, lo: float, hi: float
@@ -204,6 +317,9 @@ def _angles(fld: Fields, c: dict, key: str, path: str, lo: float, hi: float
     vals = v if isinstance(v, list) else [v]
     if not vals:
         raise fld.error(f"{path}.{key}", "a number or a non-empty list of numbers", v)
+    if len(vals) > MAX_SCENARIOS:
+        raise fld.error(f"{path}.{key}", f"at most {MAX_SCENARIOS} settings (one per "
+                        "scenario)", f"{len(vals)} settings")
     out = []
     for i, x in enumerate(vals):
         if isinstance(x, bool) or not isinstance(x, (int, float)) or not lo <= x <= hi:
@@ -230,17 +346,18 @@ def _cable(fld: Fields, c: dict, path: str) -> tuple[float, float, str]:
         return 0.0, 0.0, ""
     cp = f"{path}.cable"
     fld.unknown(t, {"length_m", "size_mm2", "awg", "material", "temperature_c"}, cp)
-    length = fld.num(t, "length_m", f"{cp}.length_m", lo=0.1, hi=10_000.0)
+    length = fld.num(t, "length_m", f"{cp}.length_m", bounds=_INPUT_BOUNDS["length_m"])
     if ("size_mm2" in t) == ("awg" in t):
         raise fld.error(cp, "one conductor size: size_mm2 = ... or awg = ...")
-    size = fld.num(t, "size_mm2", f"{cp}.size_mm2", None, lo=0.5, hi=1000.0)
+    size = fld.num(t, "size_mm2", f"{cp}.size_mm2", None, bounds=_INPUT_BOUNDS["size_mm2"])
     awg = t.get("awg")
     if awg is not None and not isinstance(awg, (int, str)) or isinstance(awg, bool):
         raise fld.error(f"{cp}.awg", "an AWG size such as 14, 12, 10 or \"1/0\"", awg)
     material = fld.str_(t, "material", f"{cp}.material", "copper",
                         choices=("copper", "aluminium"))
     # 20 C: a cold circuit being switched on (the lowest resistance, the largest inrush)
-    temp = fld.num(t, "temperature_c", f"{cp}.temperature_c", 20.0, lo=-40.0, hi=250.0)
+    temp = fld.num(t, "temperature_c", f"{cp}.temperature_c", 20.0,
+                   bounds=_INPUT_BOUNDS["temperature_c"])
     try:
         z = cable_impedance(length, size_mm2=size, awg=awg, material=material,
                             temperature_c=temp)
@@ -309,16 +426,18 @@ def _circuit(fld: Fields, c: Any, path: str, panel: str, supply: SupplySpec,
         if ftype not in fixtures:
             raise fld.error(f"{gp}.type", "a fixture type defined under [fixtures]: "
                             + ", ".join(sorted(fixtures)), ftype)
-        groups.append(FixtureGroup(ftype, fld.count(g, "count", f"{gp}.count")))
-    dp = _params(fld, fld.table(c, "dimmer_params", f"{path}.dimmer_params", required=False),
-                 f"{path}.dimmer_params")
+        groups.append(FixtureGroup(ftype, fld.count(g, "count", f"{gp}.count",
+                                                    bounds_of(FixtureGroup, "count"))))
+    switch = fld.str_(c, "dimmer_switch", f"{path}.dimmer_switch", dflt("dimmer_switch"),
+                      choices=SWITCH_KINDS)
+    dp = _dimmer_params(fld, c, path, dimmer, switch, cond, knob, supply)
     rules = rule_set(supply.rules)
     curve = fld.str_(c, "breaker_curve", f"{path}.breaker_curve", rules.default_breaker,
                      choices=rules.breaker_type_names)
     cable_r, cable_l, cable = _cable(fld, c, path)
     return Circuit(
         id=cid, panel=panel, line=line, groups=tuple(groups),
-        breaker_a=fld.num(c, "breaker_a", f"{path}.breaker_a", dflt("breaker_a"), positive=True),
+        breaker_a=_num(fld, c, "breaker_a", f"{path}.breaker_a", Circuit, dflt("breaker_a")),
         breaker_curve=curve,
         breaker_pickup_x_in=fld.num(c, "breaker_pickup_x_in", f"{path}.breaker_pickup_x_in",
                                     None, lo=1.01, hi=100.0),
@@ -326,22 +445,46 @@ def _circuit(fld: Fields, c: Any, path: str, panel: str, supply: SupplySpec,
         dimmer=dimmer,
         conduction_deg=cond if cond is not None else dflt("conduction_deg"),
         knob=knob,
-        dimmer_rating_w=fld.num(c, "dimmer_rating_w", f"{path}.dimmer_rating_w",
-                                dflt("dimmer_rating_w"), positive=True),
-        led_derating=fld.num(c, "led_derating", f"{path}.led_derating", dflt("led_derating"),
-                             lo=0.01, hi=1.0),
-        dimmer_min_load_w=fld.num(c, "dimmer_min_load_w", f"{path}.dimmer_min_load_w",
-                                  dflt("dimmer_min_load_w"), nonneg=True),
+        dimmer_rating_w=_num(fld, c, "dimmer_rating_w", f"{path}.dimmer_rating_w", Circuit,
+                             dflt("dimmer_rating_w")),
+        led_derating=_num(fld, c, "led_derating", f"{path}.led_derating", Circuit,
+                          dflt("led_derating")),
+        dimmer_min_load_w=_num(fld, c, "dimmer_min_load_w", f"{path}.dimmer_min_load_w", Circuit,
+                               dflt("dimmer_min_load_w")),
         dimmer_params=dp,
-        dimmer_switch=fld.str_(c, "dimmer_switch", f"{path}.dimmer_switch", dflt("dimmer_switch"),
-                               choices=SWITCH_KINDS),
-        branch_r_ohm=fld.num(c, "branch_r_ohm", f"{path}.branch_r_ohm", dflt("branch_r_ohm"),
-                             nonneg=True),
-        branch_l_h=fld.num(c, "branch_l_h", f"{path}.branch_l_h", dflt("branch_l_h"), nonneg=True),
+        dimmer_switch=switch,
+        branch_r_ohm=_num(fld, c, "branch_r_ohm", f"{path}.branch_r_ohm", Circuit,
+                          dflt("branch_r_ohm")),
+        branch_l_h=_num(fld, c, "branch_l_h", f"{path}.branch_l_h", Circuit, dflt("branch_l_h")),
         cable_r_ohm=cable_r, cable_l_h=cable_l, cable=cable,
-        conductor_ampacity_a=fld.num(c, "conductor_ampacity_a", f"{path}.conductor_ampacity_a",
-                                     dflt("conductor_ampacity_a"), positive=True),
+        conductor_ampacity_a=_num(fld, c, "conductor_ampacity_a", f"{path}.conductor_ampacity_a",
+                                  Circuit, dflt("conductor_ampacity_a")),
     )
+
+
+def _dimmer_params(fld: Fields, c: dict, path: str, kind: str, switch: str,
+                   cond: tuple[float, ...] | None, knob: tuple[float, ...] | None,
+                   supply: SupplySpec) -> tuple[tuple[str, float], ...]:
+    """A circuit's dimmer component values: names of this dimmer, values in the range of
+    their unit, and the dimmer's own rules, checked here so the file names the line."""
+    from ..circuits.dimmers import dimmer_params, resolve_dimmer
+    from ..circuits.spec import DimmerSpec, Supply
+
+    f = f"{path}.dimmer_params"
+    t = fld.table(c, "dimmer_params", f, required=False)
+    try:
+        sup = Supply(supply.voltage_ln_v, supply.frequency_hz)
+    except InputError:
+        return _params(fld, t, f)
+    units = {r["name"]: r["unit"] for r in dimmer_params(kind, switch, sup)}
+    dp = _params(fld, t, f, units)
+    if dp:
+        setting = {"knob": knob[0]} if knob else {"conduction_deg": (cond or (180.0,))[0]}
+        try:
+            resolve_dimmer(DimmerSpec(kind, switch=switch, params=dp, **setting), sup)
+        except InputError as e:
+            raise fld.error(f, f"values this dimmer accepts ({e})") from None
+    return dp
 
 
 def _feeders(fld: Fields, data: dict) -> dict[str, Feeder]:
@@ -355,10 +498,10 @@ def _feeders(fld: Fields, data: dict) -> dict[str, Feeder]:
         if fid in feeders:
             raise fld.error(f"{fp}.id", "a feeder id not used before", fid)
         feeders[fid] = Feeder(
-            fid, fld.num(f, "r_ohm", f"{fp}.r_ohm", default_of(Feeder, "r_ohm"), nonneg=True),
-            fld.num(f, "l_h", f"{fp}.l_h", default_of(Feeder, "l_h"), nonneg=True),
-            fld.num(f, "neutral_r_ohm", f"{fp}.neutral_r_ohm", None, nonneg=True),
-            fld.num(f, "neutral_l_h", f"{fp}.neutral_l_h", None, nonneg=True))
+            fid, _num(fld, f, "r_ohm", f"{fp}.r_ohm", Feeder, default_of(Feeder, "r_ohm")),
+            _num(fld, f, "l_h", f"{fp}.l_h", Feeder, default_of(Feeder, "l_h")),
+            _num(fld, f, "neutral_r_ohm", f"{fp}.neutral_r_ohm", Feeder, None),
+            _num(fld, f, "neutral_l_h", f"{fp}.neutral_l_h", Feeder, None))
     return feeders
 
 
@@ -393,23 +536,25 @@ def _panels(fld: Fields, data: dict, supply: SupplySpec, fixtures: dict[str, Fix
             seen_circuits.add(circ.id)
             circuits.append(circ)
         panels.append(Panel(pid, tuple(circuits), feeder,
-                            fld.num(pd, "neutral_ampacity_a", f"{pp}.neutral_ampacity_a", None,
-                                    positive=True),
-                            fld.num(pd, "line_ampacity_a", f"{pp}.line_ampacity_a", None,
-                                    positive=True)))
+                            _num(fld, pd, "neutral_ampacity_a", f"{pp}.neutral_ampacity_a",
+                                 Panel, None),
+                            _num(fld, pd, "line_ampacity_a", f"{pp}.line_ampacity_a", Panel,
+                                 None)))
     return tuple(panels)
 
 
-def _n_scenarios(path: Path, panels: tuple[Panel, ...]) -> int:
+def _n_scenarios(fld: Fields, panels: tuple[Panel, ...]) -> int:
     nscen = 1
-    for c in (c for p in panels for c in p.circuits):
-        n = c.n_settings
-        if n > 1:
-            if nscen > 1 and n != nscen:
-                raise InputError(
-                    f"{path}: circuit {c.id}: {n} settings, but another circuit has {nscen}; "
-                    "expected one setting or the same number of settings (one per scenario)")
-            nscen = n
+    for i, p in enumerate(panels):
+        for j, c in enumerate(p.circuits):
+            n = c.n_settings
+            if n > 1:
+                if nscen > 1 and n != nscen:
+                    key = "knob" if c.knob is not None else "conduction_deg"
+                    raise fld.error(f"panels[{i}].circuits[{j}].{key}",
+                                    f"one setting or {nscen} (one per scenario, as another "
+                                    "circuit gives)", f"{n} settings")
+                nscen = n
     return nscen
 
 
@@ -422,11 +567,15 @@ def _analysis(fld: Fields, data: dict, nscen: int) -> AnalysisOptions:
     names = fld.list_(an, "scenarios", "analysis.scenarios", [])
     if names and len(names) != nscen:
         raise fld.error("analysis.scenarios", f"{nscen} names (one per scenario)", names)
+    for k, x in enumerate(names):
+        if not isinstance(x, str):
+            raise fld.error(f"analysis.scenarios[{k}]", "a scenario name (text)", x)
+        fld.check_text(x, f"analysis.scenarios[{k}]", 100)
     return AnalysisOptions(
-        si, int(fld.num(an, "max_iterations", "analysis.max_iterations",
-                        default_of(AnalysisOptions, "max_iterations"), lo=1, hi=50)),
-        fld.num(an, "tolerance", "analysis.tolerance", default_of(AnalysisOptions, "tolerance"),
-                positive=True),
+        si, _num(fld, an, "max_iterations", "analysis.max_iterations", AnalysisOptions,
+                 default_of(AnalysisOptions, "max_iterations")),
+        _num(fld, an, "tolerance", "analysis.tolerance", AnalysisOptions,
+             default_of(AnalysisOptions, "tolerance")),
         tuple(str(x) for x in names))
 
 
@@ -439,11 +588,11 @@ def _diversity(fld: Fields, data: dict) -> Diversity:
 
     diversity = Diversity(
         fld.str_(dv, "mode", "diversity.mode", dflt("mode"), choices=DIVERSITY_MODES),
-        int(fld.num(dv, "draws", "diversity.draws", dflt("draws"), lo=1, hi=100000)),
-        fld.num(dv, "low_deg", "diversity.low_deg", dflt("low_deg"), lo=0.0, hi=180.0),
-        fld.num(dv, "high_deg", "diversity.high_deg", dflt("high_deg"), lo=0.0, hi=180.0),
-        fld.num(dv, "step_deg", "diversity.step_deg", dflt("step_deg"), lo=0.5, hi=90.0),
-        int(fld.num(dv, "seed", "diversity.seed", dflt("seed"))))
+        _num(fld, dv, "draws", "diversity.draws", Diversity, dflt("draws")),
+        _num(fld, dv, "low_deg", "diversity.low_deg", Diversity, dflt("low_deg")),
+        _num(fld, dv, "high_deg", "diversity.high_deg", Diversity, dflt("high_deg")),
+        _num(fld, dv, "step_deg", "diversity.step_deg", Diversity, dflt("step_deg")),
+        _num(fld, dv, "seed", "diversity.seed", Diversity, dflt("seed")))
     if diversity.low_deg >= diversity.high_deg:
         raise fld.error("diversity.low_deg", f"less than high_deg ({diversity.high_deg:g})",
                         diversity.low_deg)
@@ -461,9 +610,9 @@ def _pcc(fld: Fields, data: dict) -> PccSpec:
     if not isinstance(ed, str) or ed not in EDITIONS:
         raise fld.error("pcc.ieee519_edition", "one of " + ", ".join(EDITIONS), ed)
     return PccSpec(
-        fld.num(pcc, "demand_current_a", "pcc.demand_current_a", None, positive=True),
-        fld.num(pcc, "short_circuit_a", "pcc.short_circuit_a", None, positive=True),
-        fld.num(pcc, "voltage_kv", "pcc.voltage_kv", None, positive=True),
+        _num(fld, pcc, "demand_current_a", "pcc.demand_current_a", PccSpec, None),
+        _num(fld, pcc, "short_circuit_a", "pcc.short_circuit_a", PccSpec, None),
+        _num(fld, pcc, "voltage_kv", "pcc.voltage_kv", PccSpec, None),
         cast(Edition, ed))
 
 
@@ -524,17 +673,24 @@ def _report(fld: Fields, data: dict) -> ReportOptions:
     return ReportOptions(known[v.strip().lower()])
 
 
-def load_installation(path: str | Path) -> Installation:
-    """Read and validate an installation file; every error names file, line and field."""
+def load_installation(path: str | Path, captures_outside: bool | None = None) -> Installation:
+    """Read and validate an installation file; every error names file, line and field.
+
+    Capture files are read relative to the installation file's folder; one outside it
+    (``../x.csv``, an absolute path elsewhere) is refused unless ``captures_outside`` is
+    True (None: the environment variable ``PQCALC_CAPTURES_OUTSIDE=1`` says).
+    """
     p = Path(path)
     data, fld = read_toml(p)
     fld.unknown(data, _TOP, "")
     project = _project(fld, data)
     supply = _supply(fld, data)
-    fixtures = _fixtures(fld, data, p.parent)
+    outside = (captures_outside if captures_outside is not None
+               else os.environ.get(CAPTURES_OUTSIDE_ENV, "") == "1")
+    fixtures = _fixtures(fld, data, p.parent, supply, outside)
     feeders = _feeders(fld, data)
     panels = _panels(fld, data, supply, fixtures, feeders)
-    analysis = _analysis(fld, data, _n_scenarios(p, panels))
+    analysis = _analysis(fld, data, _n_scenarios(fld, panels))
     return Installation(project, supply, fixtures, panels, feeders, _diversity(fld, data),
                         analysis, _pcc(fld, data), str(p), compliance=_compliance(fld, data),
                         report=_report(fld, data))

@@ -19,6 +19,7 @@ import numpy as np
 from ..circuits.spec import DIMMER_KINDS, SWITCH_KINDS, DimmerKind, SwitchKind
 from ..errors import InputError
 from ..io.capture import CsvOptions
+from ..io.installation_file import Bounds
 from ..standards.ieee519 import Edition
 
 __all__ = [
@@ -28,6 +29,7 @@ __all__ = [
     "ModelledFixture", "MeasuredFixture",
     "FixtureType", "FixtureGroup", "Circuit", "Panel", "Feeder", "Diversity",
     "AnalysisOptions", "PccSpec", "ComplianceOptions", "Installation", "default_of",
+    "Bounds", "bounds_of", "PARAM_BOUNDS", "MAX_SCENARIOS",
 ]
 
 System = Literal["single-phase", "split-phase", "three-phase-wye"]
@@ -55,6 +57,47 @@ def default_of(cls: type, name: str) -> Any:
                 return f.default_factory()
             raise KeyError(f"{cls.__name__}.{name} has no default")
     raise KeyError(f"{cls.__name__} has no field {name}")
+
+
+def bounds_of(cls: type, name: str) -> Bounds | None:
+    """The physically sensible range declared beside dataclass field ``name`` of ``cls``
+    (``field(metadata=_range(...))``; the file reader holds every value to it)."""
+    for f in fields(cls):
+        if f.name == name:
+            b = f.metadata.get("bounds")
+            return b if isinstance(b, Bounds) else None
+    raise KeyError(f"{cls.__name__} has no field {name}")
+
+
+def _range(lo: float, hi: float, why: str, lo_open: bool = False,
+           whole: bool = False) -> dict[str, Bounds]:
+    return {"bounds": Bounds(lo, hi, why, lo_open, whole)}
+
+
+_R_OHM = _range(0.0, 10.0, "a source or cable of more than 10 ohm per line could not carry "
+                "a lighting load")
+_L_H = _range(0.0, 0.1, "0.1 H is 31 ohm at 50 Hz, past any supply or cable")
+_AMPS = _range(0.0, 1e5, "a building's conductors", lo_open=True)
+
+#: Component values of the circuit models (fixture ``params``, circuit ``dimmer_params``),
+#: by the unit the model gives each one: the range of real parts. A zero is left to the
+#: model (some parts may be left out with 0).
+PARAM_BOUNDS: dict[str, Bounds] = {
+    "ohm": Bounds(1e-4, 1e10, "0.1 mohm, a switch's on-state, to 10 Gohm, an open part"),
+    "F": Bounds(1e-12, 0.1, "1 pF to 100 mF"),
+    "H": Bounds(1e-9, 10.0, "1 nH to 10 H"),
+    "V": Bounds(0.1, 1000.0, "a diode's threshold to past a rectified mains peak"),
+    "A": Bounds(1e-6, 100.0, "1 uA to 100 A in a lamp or dimmer"),
+    "s": Bounds(1e-9, 1.0, "1 ns to 1 s"),
+    "Hz": Bounds(1.0, 1e7, "1 Hz to 10 MHz"),
+    "W": Bounds(0.0, 1e4, "a lamp's or dimmer's own power"),
+    "deg": Bounds(0.0, 180.0, "a half cycle"),
+    "-": Bounds(0.0, 100.0, "a ratio or a small count"),
+}
+
+#: The most scenarios (settings per circuit) a file may give: each is a whole study
+#: (1,000 took 11.6 s and 431 MB, and the report would be unreadable).
+MAX_SCENARIOS = 100
 
 
 @dataclass(frozen=True)
@@ -109,10 +152,10 @@ class ReportOptions:
 class SourceImpedance:
     """Series R-L per line [ohm], [H], and the same for the neutral return path."""
 
-    r_ohm: float = 0.0
-    l_h: float = 0.0
-    neutral_r_ohm: float = 0.0
-    neutral_l_h: float = 0.0
+    r_ohm: float = field(default=0.0, metadata=_R_OHM)
+    l_h: float = field(default=0.0, metadata=_L_H)
+    neutral_r_ohm: float = field(default=0.0, metadata=_R_OHM)
+    neutral_l_h: float = field(default=0.0, metadata=_L_H)
 
     def __post_init__(self) -> None:
         for name in ("r_ohm", "l_h", "neutral_r_ohm", "neutral_l_h"):
@@ -145,12 +188,16 @@ class SupplySpec:
     source impedance per line, and transformer data where known."""
 
     system: str
-    voltage_ln_v: float
-    frequency_hz: float
+    voltage_ln_v: float = field(metadata=_range(
+        100.0, 277.0, "line to neutral: what the circuit models are built for, "
+        "pqcalc.circuits.spec.Supply"))
+    frequency_hz: float = field(metadata=_range(45.0, 65.0, "50 Hz or 60 Hz mains"))
     impedance: SourceImpedance = SourceImpedance()
-    transformer_kva: float | None = None
+    transformer_kva: float | None = field(default=None, metadata=_range(
+        1.0, 1e5, "a building's service transformer", lo_open=True))
     #: rated winding eddy-current loss P_EC-R [pu] (typical of a dry-type unit, from memory)
-    eddy_loss_pu: float = 0.1
+    eddy_loss_pu: float = field(default=0.1, metadata=_range(
+        0.0, 2.0, "rated eddy loss over I2R loss: a few percent to about 1 (from memory)"))
     impedance_basis: str = "direct"
     #: the regional rule set (``"IEC"`` or ``"US"``; :mod:`pqcalc.standards.regions`)
     rules: str = "IEC"
@@ -174,9 +221,10 @@ class SupplySpec:
 @dataclass(frozen=True)
 class _Fixture:
     id: str
-    power_w: float
-    min_conduction_deg: float = 30.0
-    max_conduction_deg: float = 180.0
+    power_w: float = field(metadata=_range(0.0, 1e4, "one luminaire's rated input power; "
+                                         "0 for a measured one: not declared"))
+    min_conduction_deg: float = field(default=30.0, metadata=_range(0.0, 180.0, "a half cycle"))
+    max_conduction_deg: float = field(default=180.0, metadata=_range(0.0, 180.0, "a half cycle"))
     description: str = ""
     #: the equipment dims itself (built-in dimming): its dimmed states are part of its
     #: IEC 61000-3-2 verdict; False: dimmed by an independent dimmer, dimmed states
@@ -222,7 +270,9 @@ FixtureType = ModelledFixture | MeasuredFixture
 @dataclass(frozen=True)
 class FixtureGroup:
     fixture: str
-    count: int
+    count: int = field(metadata=_range(
+        1, 10_000, "a 16 A 230 V circuit feeds a few hundred lamps; 10,000 leaves room for a "
+        "circuit standing for a whole floor", whole=True))
 
 
 @dataclass(frozen=True)
@@ -233,7 +283,8 @@ class Circuit:
     panel: str
     line: str
     groups: tuple[FixtureGroup, ...]
-    breaker_a: float = 16.0
+    breaker_a: float = field(default=16.0, metadata=_range(
+        0.5, 630.0, "final-circuit breakers, 0.5 A to 630 A"))
     #: breaker type of the rule set (IEC: B, C, D; US: TM, B, C, D); "" = the set's default
     breaker_curve: str = ""
     #: the maker's instantaneous pickup [x In] (needed for a US thermal-magnetic breaker's
@@ -246,20 +297,22 @@ class Circuit:
     conduction_deg: tuple[float, ...] = (180.0,)
     #: or knob positions [-] of a leading-edge dimmer's firing network
     knob: tuple[float, ...] | None = None
-    dimmer_rating_w: float | None = None
+    dimmer_rating_w: float | None = field(default=None, metadata=_range(
+        0.0, 1e5, "wall dimmers to dimmer racks", lo_open=True))
     #: usable share of a filament-watt dimmer rating for LED load [-] (common practice)
-    led_derating: float = 0.25
-    dimmer_min_load_w: float | None = None
+    led_derating: float = field(default=0.25, metadata=_range(0.01, 1.0, "a share"))
+    dimmer_min_load_w: float | None = field(default=None, metadata=_range(
+        0.0, 1e4, "a dimmer's minimum load"))
     dimmer_params: tuple[tuple[str, float], ...] = ()
     dimmer_switch: str = "triac"
     #: branch impedance given directly, loop (line + neutral) [ohm], [H]
-    branch_r_ohm: float = 0.0
-    branch_l_h: float = 0.0
+    branch_r_ohm: float = field(default=0.0, metadata=_R_OHM)
+    branch_l_h: float = field(default=0.0, metadata=_L_H)
     #: the branch cable's loop impedance from its length, size and material [ohm], [H]
     cable_r_ohm: float = 0.0
     cable_l_h: float = 0.0
     cable: str = ""
-    conductor_ampacity_a: float | None = None
+    conductor_ampacity_a: float | None = field(default=None, metadata=_AMPS)
 
     def setting(self, scenario: int) -> tuple[float | None, float | None]:
         """(conduction angle [deg], knob [-]) of this circuit's dimmer in a scenario."""
@@ -289,17 +342,17 @@ class Panel:
     id: str
     circuits: tuple[Circuit, ...]
     feeder: str | None = None
-    neutral_ampacity_a: float | None = None
-    line_ampacity_a: float | None = None
+    neutral_ampacity_a: float | None = field(default=None, metadata=_AMPS)
+    line_ampacity_a: float | None = field(default=None, metadata=_AMPS)
 
 
 @dataclass(frozen=True)
 class Feeder:
     id: str
-    r_ohm: float = 0.0
-    l_h: float = 0.0
-    neutral_r_ohm: float | None = None
-    neutral_l_h: float | None = None
+    r_ohm: float = field(default=0.0, metadata=_R_OHM)
+    l_h: float = field(default=0.0, metadata=_L_H)
+    neutral_r_ohm: float | None = field(default=None, metadata=_R_OHM)
+    neutral_l_h: float | None = field(default=None, metadata=_L_H)
 
     @property
     def impedance(self) -> SourceImpedance:
@@ -315,19 +368,24 @@ class Diversity:
     """Independent dimming: summation-law estimate or Monte Carlo over settings."""
 
     mode: str = "none"
-    draws: int = 200
-    low_deg: float = 45.0
-    high_deg: float = 180.0
-    step_deg: float = 5.0
-    seed: int = 1
+    draws: int = field(default=200, metadata=_range(
+        1, 10_000, "10,000 draws give a 95th percentile to a fraction of a percent",
+        whole=True))
+    low_deg: float = field(default=45.0, metadata=_range(0.0, 180.0, "a half cycle"))
+    high_deg: float = field(default=180.0, metadata=_range(0.0, 180.0, "a half cycle"))
+    step_deg: float = field(default=5.0, metadata=_range(0.5, 90.0, "a dimmer's setting step"))
+    seed: int = field(default=1, metadata=_range(
+        0, 2**32 - 1, "the seeds numpy's generator takes", whole=True))
 
 
 @dataclass(frozen=True)
 class AnalysisOptions:
     supply_interaction: bool = True
-    max_iterations: int = 8
+    max_iterations: int = field(default=8, metadata=_range(
+        1, 50, "the fixed point settles in a few iterations", whole=True))
     #: largest change of any harmonic voltage between iterations [fraction of V1]
-    tolerance: float = 2e-4
+    tolerance: float = field(default=2e-4, metadata=_range(
+        1e-9, 0.1, "of the fundamental voltage"))
     scenario_names: tuple[str, ...] = ()
 
 
@@ -337,9 +395,11 @@ class PccSpec:
     [A], the short-circuit current there [A] (default: from the source impedance), the
     nominal line-to-line voltage [kV] (default: from the supply) and the edition."""
 
-    demand_current_a: float | None = None
-    short_circuit_a: float | None = None
-    voltage_kv: float | None = None
+    demand_current_a: float | None = field(default=None, metadata=_AMPS)
+    short_circuit_a: float | None = field(default=None, metadata=_range(
+        0.0, 1e7, "a point of common coupling's short-circuit current", lo_open=True))
+    voltage_kv: float | None = field(default=None, metadata=_range(
+        0.1, 1000.0, "line to line at the point of common coupling"))
     ieee519_edition: Edition = "2022"
 
     def to_dict(self) -> dict:
