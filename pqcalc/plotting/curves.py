@@ -299,7 +299,8 @@ def panel_figure(
             ratio += f"\ntriplen share of $I_N$ = {100 * share:.1f} %"
         ax.legend(handles=handles, loc="upper left")
         ax.text(0.99, 0.98, ratio, transform=ax.transAxes, ha="right", va="top", fontsize=8,
-                bbox=dict(facecolor="white", edgecolor="none", alpha=0.85, pad=1.5))
+                bbox=dict(facecolor="white", edgecolor="none", alpha=0.85, pad=1.5),
+                parse_math=True)  # pqcalc's own formula text, never free text
         ax.set_title(title or "Panel currents")
     _caution(fig)
     return fig

@@ -354,7 +354,8 @@ def spectrum_figure(
 def _titles(fig, ax, title: str, subtitle: str) -> None:
     """Bold title over the figure, key figures in a plain line over the axes."""
     fig.suptitle(title, x=0.01, ha="left", fontweight="bold", fontsize=STYLE["axes.titlesize"])
-    ax.set_title(subtitle, loc="left", fontsize=8, fontweight="normal")
+    # the subtitle is pqcalc's own formula text ($I_1$ ...), never free text
+    ax.set_title(subtitle, loc="left", fontsize=8, fontweight="normal", parse_math=True)
 
 
 def _title(base: str, obj) -> str:

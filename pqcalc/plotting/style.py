@@ -74,6 +74,9 @@ STYLE: dict = {
     "lines.linewidth": 1.4,
     "hatch.linewidth": 0.7,
     "hatch.color": "white",
+    # free text (a project name, a panel id, a file name) is drawn as written, never parsed
+    # as a math formula: the few labels that are formulas ask for it (parse_math=True)
+    "text.parse_math": False,
     "svg.fonttype": "none",  # text stays text in SVG (searchable, editable)
     "pdf.fonttype": 42,  # embed TrueType fonts in PDF
     "ps.fonttype": 42,
