@@ -172,11 +172,11 @@ def _styles() -> dict[str, Any]:
         "subtitle": ParagraphStyle("subtitle", parent=base, fontSize=11, leading=14,
                                    textColor=grey, spaceAfter=6),
         "h1": ParagraphStyle("h1", parent=base, fontName=Fonts.bold, fontSize=14, leading=17,
-                             spaceBefore=4, spaceAfter=8, keepWithNext=1),
+                             spaceBefore=4, spaceAfter=8),
         "h2": ParagraphStyle("h2", parent=base, fontName=Fonts.bold, fontSize=11.5, leading=14,
-                             spaceBefore=10, spaceAfter=5, keepWithNext=1),
+                             spaceBefore=10, spaceAfter=5),
         "h3": ParagraphStyle("h3", parent=base, fontName=Fonts.bold, fontSize=9.5, leading=12,
-                             spaceBefore=8, spaceAfter=3, keepWithNext=1),
+                             spaceBefore=8, spaceAfter=3),
         "caption": ParagraphStyle("caption", parent=base, fontSize=7.5, leading=9.5,
                                   textColor=grey, spaceBefore=2, spaceAfter=8),
         "toc1": ParagraphStyle("toc1", parent=base, fontSize=9.5, leading=13, leftIndent=0),
@@ -205,12 +205,20 @@ def para(text: str, kind: str = "body", markup: bool = False) -> Flowable:
 
 def heading(text: str, level: int = 1, new_page: bool = False, toc: bool = True
             ) -> list[Flowable]:
-    """A heading of level 1..3; level 1 and 2 go to the contents and the outline."""
-    from reportlab.platypus import PageBreak, Paragraph
+    """A heading of level 1..3; level 1 and 2 go to the contents and the outline.
+
+    Kept with what follows: the heading starts a new page when less than a few lines of
+    room (:data:`KEEP_PT`) would be left under it (a conditional page break, so a long
+    table under it still starts on the same page and splits)."""
+    from reportlab.platypus import CondPageBreak, PageBreak, Paragraph
 
     p = Paragraph(escape(text), style(f"h{level}"))
     p._pq_heading = (level, text, toc)
-    return ([PageBreak()] if new_page else []) + [p]
+    return [PageBreak() if new_page else CondPageBreak(KEEP_PT[level]), p]
+
+
+#: Room [pt] a heading of each level needs under it to stay on its page.
+KEEP_PT = {1: 150.0, 2: 110.0, 3: 70.0}
 
 
 def keep(items: Sequence[Flowable]) -> Flowable:

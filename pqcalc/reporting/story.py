@@ -34,7 +34,7 @@ import numpy as np
 
 from ..standards.results import CAUTION
 from .assumptions import dimmer_param_sets, fixture_params, impedance_rows, si
-from .pdf import Col, FigureBook, fields_table, heading, para, table
+from .pdf import Col, FigureBook, fields_table, heading, keep, para, table
 from .sources import standards_applied
 
 if TYPE_CHECKING:  # pragma: no cover
@@ -359,28 +359,29 @@ def lineup_section(lineup: Sequence[LineupEntry], notes: Sequence[str],
     out += [para(n, "note") for n in notes]
     for e in lineup:
         dec = deciding_state(e)
-        out += heading(e.title, 2)
+        head = heading(e.title, 2)
+        out += head[:-1]
+        block = head[-1:]  # the heading, the deciding state and its figure on one page
         if e.description:
-            out.append(para(e.description, "note"))
+            block.append(para(e.description, "note"))
         why = ("fails" if dec.result.verdict == "fail" else "passes") + " with the least margin" \
             if dec.result.verdict != "fail" else "is the state furthest over its limit"
-        out.append(para(f"<b>Deciding state: {_x(dec.state)}</b> ({_x(dec.result.label)}; "
-                        f"{_x(_closest_words(dec))}; it {why}). Source: "
-                        f"{_x(e.source)}; {plural(len(e.states), 'state')} evaluated.",
-                        markup=True))
+        block.append(para(f"<b>Deciding state: {_x(dec.state)}</b> ({_x(dec.result.label)}; "
+                          f"{_x(_closest_words(dec))}; it {why}). Source: "
+                          f"{_x(e.source)}; {plural(len(e.states), 'state')} evaluated.",
+                          markup=True))
         key = ("lineup", e.fixture, e.dimmer, dec.state)
-        out.append(figs.place(key, partial(spectrum_fig, e, dec), 0.8))
-        out.append(para("Bars: harmonic current of the deciding state; marks: the limit of "
-                        "its rule per order; hatched bars: the orders its compliance table "
-                        "fails (harmonics below 0.6 % of the input current or 5 mA are "
-                        "disregarded in both).", "caption"))
+        block.append(figs.place(key, partial(spectrum_fig, e, dec), 0.8))
+        block.append(para("Bars: harmonic current of the deciding state; marks: the limit of "
+                          "its rule per order; hatched bars: the orders its compliance table "
+                          "fails (harmonics below 0.6 % of the input current or 5 mA are "
+                          "disregarded in both).", "caption"))
+        out.append(keep(block))
         wi = worst_informative(e)
         if wi is not None and wi is not dec:
             out.append(para(f"Informative: {_x(wi.state)} is above the full-output limits "
-                            f"({_x(_closest_words(wi))}); not part of the verdict.",
-                            markup=True))
-            out.append(figs.place(("lineup", e.fixture, e.dimmer, wi.state),
-                                  partial(spectrum_fig, e, wi), 0.8))
+                            f"({_x(_closest_words(wi))}); not part of the verdict. Its orders "
+                            f"are in {APPENDIX_TITLE.split(':')[0]}.", markup=True))
         own = [n for n in e.notes if n not in notes and n != CAUTION]
         out += [para(n, "small") for n in own]
     return out
@@ -425,6 +426,25 @@ def _checks_rows(a: Assessment, pick: Callable[[ScenarioResult], list]) -> list[
     return rows
 
 
+#: Panels whose neutral spectrum is also drawn (the heaviest neutrals); a figure costs about
+#: as much as typesetting ten pages of tables.
+NEUTRAL_FIGURES = 6
+
+#: Orders of the neutral-spectrum table: the fundamental (imbalance), the triplens and the
+#: larger others.
+_N_ORDERS = (1, 3, 5, 7, 9, 11, 13, 15, 17, 19, 21, 27, 33, 39)
+
+
+def _neutral_table(p: NodeResult) -> Flowable:
+    n = p.neutral
+    assert n is not None
+    m = np.asarray(n.magnitudes_a, dtype=float)
+    cols = [Col("order", 0.9)] + [Col(f"{h}" + (" *" if h % 3 == 0 else ""), 0.5, "right")
+                                  for h in _N_ORDERS]
+    row = ["I_N [A]"] + [_num(m[h]) if h < len(m) else "-" for h in _N_ORDERS]
+    return table(cols, [row], size=7)
+
+
 def _panel_checks(pid: str, sc: ScenarioResult) -> list[tuple[str, Any]]:
     return [("panel", next(x for x in sc.panels if x.id == pid).checks)]
 
@@ -440,7 +460,8 @@ def panels_section(a: Assessment, figs: FigureBook) -> list[Flowable]:
     out.append(para("Line and neutral currents are rms over orders 0..50; THD over orders "
                     "2..40; THDv is the line-to-neutral voltage distortion at the panel from "
                     "the drops over the source and feeder impedances (listed with the other "
-                    "assumptions).", "note"))
+                    "assumptions). In the neutral-spectrum tables * marks the triplen orders "
+                    "(3, 9, 15 ...), which add in the neutral.", "note"))
     inst = a.installation
     by_panel: dict[str, list[tuple]] = {p.id: [] for p in inst.panels}
     for sc in a.scenarios:
@@ -453,6 +474,15 @@ def panels_section(a: Assessment, figs: FigureBook) -> list[Flowable]:
                 or "ok"
             by_panel[c.panel].append((c.id, c.line, sc.name, st, _num(c.i_rms_a),
                                       _pct(c.thd_i), _num(c.pf), _num(c.p_w, ".0f"), flags))
+    # figures of the neutral spectrum for the panels whose neutral is heaviest against its
+    # lines (every panel's spectrum is tabulated)
+    ranked = sorted((p for p in a.design.panels if p.neutral is not None),
+                    key=lambda p: -p.neutral.ratio_to_max_line if p.neutral else 0.0)
+    drawn = {p.id for p in ranked[:NEUTRAL_FIGURES]}
+    if len(ranked) > NEUTRAL_FIGURES:
+        out.append(para(f"The neutral spectrum of every panel is tabulated; it is drawn for "
+                        f"the {NEUTRAL_FIGURES} panels whose neutral current is highest "
+                        "against their line currents.", "note"))
     for k, pan in enumerate(inst.panels):
         fdr = f", fed by feeder {pan.feeder}" if pan.feeder else ""
         out += heading(f"Panel {pan.id}{fdr}", 2, new_page=k > 0)
@@ -460,13 +490,15 @@ def panels_section(a: Assessment, figs: FigureBook) -> list[Flowable]:
         out.append(table(_NODE_COLS, _node_rows(a, pan.id)))
         p = next(x for x in a.design.panels if x.id == pan.id)
         if p.neutral is not None:
-            key = ("neutral", tuple(np.round(p.neutral.magnitudes_a[:41], 4)))
-            out.append(figs.place(key, partial(
-                _neutral_fig, p.neutral,
-                f"Neutral current spectrum, design scenario ({a.design.name})"), 0.72))
-            out.append(para(f"Panel {pan.id}, design scenario: neutral "
-                            f"{p.neutral.i_rms_a:.2f} A rms; triplen orders (hatched) add in "
-                            "the neutral.", "caption"))
+            out += heading(f"Neutral current spectrum, design scenario ({a.design.name})", 3)
+            out.append(_neutral_table(p))
+            if pan.id in drawn:
+                key = ("neutral", tuple(np.round(p.neutral.magnitudes_a[:41], 4)))
+                out.append(figs.place(key, partial(
+                    _neutral_fig, p.neutral,
+                    f"Neutral current spectrum, design scenario ({a.design.name})"), 0.66))
+                out.append(para(f"Panel {pan.id}: neutral {p.neutral.i_rms_a:.2f} A rms; "
+                                "triplen orders (hatched) add in the neutral.", "caption"))
         out += heading("Circuits", 3)
         out.append(table([Col("circuit", 0.8), Col("line", 0.4), Col("scenario", 1.1),
                           Col("setting", 0.7), Col("I rms [A]", 0.6, "right"),
