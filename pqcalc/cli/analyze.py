@@ -98,6 +98,9 @@ OPTION_BOUNDS: dict[str, Bounds] = {
     "--shunt-ohm": Bounds(1e-6, 1e6, "a current shunt"),
     "--sample-rate": SAMPLE_RATE_HZ,
     "--frequency": Bounds(40.0, 70.0, "mains: the band the frequency estimate searches"),
+    "--power-w": Bounds(0.0, 1e5, "one piece of equipment's input power", lo_open=True),
+    "--pf": Bounds(0.0, 1.0, "a power factor", lo_open=True),
+    "--voltage": Bounds(50.0, 700.0, "a low-voltage supply's line-to-neutral voltage"),
 }
 
 

@@ -214,6 +214,8 @@ def comply_cmd(captures, installation, equipment_class, settings_of, power_w, pf
         raise InputError(f"--pf: expected a power factor in (0, 1], got {pf:g}")
     if voltage is not None and not (math.isfinite(voltage) and voltage > 0):
         raise InputError(f"--voltage: expected a positive voltage [V], got {voltage:g}")
+    check_option("--power-w", power_w)
+    check_option("--voltage", voltage)
     if captures.count(STDIO) > 1:
         raise InputError("CAPTURE -: standard input can be read once; give - once")
     check_edition(edition, "--edition")

@@ -12,7 +12,7 @@ from ..io.atomic import is_stdout
 from ..plots import FIGURE_FORMATS, SpectrumUnit
 from ..standards import EQUIPMENT_CLASSES
 from ._common import STDIO, deprecated_alias, figure_format, main, save_figure_to, user_errors
-from .analyze import capture_options, csv_options_from, read_capture
+from .analyze import capture_options, check_option, csv_options_from, read_capture
 
 #: Figure names of ``pqcalc plot``, and which kinds of source each one is made from.
 FIGURES: dict[str, tuple[str, ...]] = {
@@ -83,6 +83,8 @@ def plot_cmd(figure, source, output, fig_format, unit, log, limits_class, power_
     if figure not in FIGURES:
         raise InputError(f"FIGURE: unknown figure {figure!r}; expected one of "
                          f"{', '.join(FIGURES)}")
+    check_option("--power-w", power_w)
+    check_option("--pf", pf)
     fig_format = figure_format(output, fig_format)
     out = output
     said = "standard output" if is_stdout(output) else output
