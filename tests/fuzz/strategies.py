@@ -433,6 +433,8 @@ def comtrade_case(draw) -> ComtradeCase:
 #: Numeric options every capture command takes.
 NUMBER_OPTIONS = ("--voltage-scale", "--current-scale", "--shunt-ohm", "--frequency",
                   "--nominal-frequency", "--sample-rate", "--skip-rows", "--max-order")
+#: Numeric options of comply with captures.
+COMPLY_OPTIONS = ("--power-w", "--pf", "--voltage")
 
 
 def cli_number_args(draw) -> list[str]:
@@ -451,5 +453,6 @@ def cli_numbers(draw) -> tuple[str, ...]:
     if cmd == "analyze-windows":
         return ("analyze", "{capture}", "--windows", *args)
     if cmd == "comply":
-        return ("comply", "{capture}", "--json", *args)
+        more = [draw(st.sampled_from(COMPLY_OPTIONS)), draw(number_text())]
+        return ("comply", "{capture}", "--json", *args, *more)
     return ("analyze", "{capture}", *(["--json"] if draw(st.booleans()) else []), *args)
