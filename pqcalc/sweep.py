@@ -33,7 +33,7 @@ import os
 import zlib
 from collections.abc import Callable, Sequence
 from contextlib import contextmanager
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 from pathlib import Path
 from typing import Literal, get_args
 
@@ -258,8 +258,11 @@ class CaseOutcome:
     """What one case gives; ratios as fractions, magnitudes per order 0..MAX_ORDER.
 
     ``light_rel`` is the mean light output relative to the undimmed lamp [-], ``None`` when
-    the evaluator gives none. ``current_h_a`` holds the RMS phasors of the current, sine basis,
-    on the supply voltage's positive-going zero crossing [A].
+    the evaluator gives none; ``svm`` and ``pst_lm`` are one lamp's stroboscopic visibility
+    measure (IEC TR 63158) and light flicker severity (IEC TR 61547-1) [-], ``None`` when the
+    evaluator gives no light waveform or the lamp is dark. ``current_h_a`` holds the RMS
+    phasors of the current, sine basis, on the supply voltage's positive-going zero crossing
+    [A].
     """
 
     i_rms_a: float
@@ -272,6 +275,8 @@ class CaseOutcome:
     current_h_a: np.ndarray
     light_rel: float | None = None
     flags: tuple[str, ...] = ()
+    svm: float | None = None
+    pst_lm: float | None = None
 
 
 # ------------------------------------------------------------------------ evaluators
@@ -382,12 +387,19 @@ def circuit_case(case: Case) -> CaseOutcome:
                            crest_factor=nan, current_h_a=np.full(MAX_ORDER + 1, nan + 0j),
                            light_rel=None, flags=(NO_SOLUTION,))
     light = None
+    svm = pst = None
     if sol.groups:
         g = sol.groups[0]
         lr = getattr(g, "light", getattr(g, "light_rel", None))
         if lr is not None:
+            from .circuits.curve import NUMERIC_DARK
+            from .light.metrics import light_metrics
+
             light = float(np.mean(lr))
-    return _outcome_from_waveform(sol.waveform, light, tuple(sol.flags))
+            lm = light_metrics(lr, sol.period_cycles / case.frequency_hz, NUMERIC_DARK)
+            svm, pst = lm.svm, lm.pst_lm
+    out = _outcome_from_waveform(sol.waveform, light, tuple(sol.flags))
+    return replace(out, svm=svm, pst_lm=pst)
 
 
 def _interval_terms(h: int, a: float, b: float) -> tuple[float, float]:
@@ -566,6 +578,10 @@ _VARS = {  # name: (units, long name)
     # ratios of a lamp that is off (flag "no-current") are NaN: they are not defined
     "light_rel": ("1", "mean light output relative to the undimmed lamp (NaN: the evaluator "
                        "gives no light output)"),
+    "svm": ("1", "stroboscopic visibility measure of one lamp, IEC TR 63158 (NaN: no light "
+                 "waveform, or dark)"),
+    "pst_lm": ("1", "short-term light flicker severity of one lamp, IEC TR 61547-1 (NaN: no "
+                    "light waveform, or dark)"),
 }
 
 
@@ -605,7 +621,7 @@ def sweep(spec: SweepSpec, evaluator: Callable[[Case], CaseOutcome] | None = Non
     for name, (units, long) in _VARS.items():
         vals = np.array([np.nan if getattr(o, name) is None else getattr(o, name) for o in res],
                         dtype=float).reshape(shape)
-        if name == "light_rel" and np.all(np.isnan(vals)):
+        if name in ("light_rel", "svm", "pst_lm") and np.all(np.isnan(vals)):
             continue
         data[name] = xr.Variable(dims, vals, {"units": units, "long_name": long})
     ph = np.array([o.current_h_a for o in res]).reshape(shape + (MAX_ORDER + 1,))

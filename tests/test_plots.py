@@ -470,7 +470,11 @@ def test_light_figure_refuses_percent_given_as_percent():
     with pytest.raises(InputError, match="percent_flicker: expected a fraction"):
         plots.light_figure(t, np.ones(11), 20.0, 0.1, 100.0)
     with pytest.raises(InputError, match="freq_hz"):
-        plots.light_figure(t, np.ones(11), 0.2, 0.1, 0.0)
+        plots.light_figure(t, np.ones(11), 0.2, 0.1, -100.0)
+    # a steady (flicker-free) light has no modulation frequency: 0 or None is drawn, not refused
+    for f0 in (0.0, None):
+        fig = plots.light_figure(t, np.ones(11), 0.0, 0.0, f0, svm=0.0, pst_lm=0.0)
+        assert "none (steady)" in fig.axes[0].texts[0].get_text()
 
 
 # ---------------------------------------------------------------------- files and style

@@ -20,7 +20,7 @@ import numpy as np
 
 from ..analysis import analyze
 from ..errors import ConvergenceError, InputError
-from ..flicker import flicker
+from ..light.metrics import light_metrics
 from .dimmers import dimmer_params as _dimmer_rows
 from .solve import solve_circuit
 from .spec import DimmerSpec, LoadGroup, Supply
@@ -117,6 +117,13 @@ class DimmingCurve:
         The curve's own flags (:data:`CURVE_FLAGS`), over all groups.
     notes
         Where each curve flag arose, one sentence each.
+    svm, pst_lm
+        Stroboscopic visibility measure (IEC TR 63158) and short-term light flicker severity
+        (IEC TR 61547-1) of one lamp of each group [-] (:func:`pqcalc.light.light_metrics`);
+        NaN where dark or unsolved. None on a curve built without them.
+    dpf
+        Displacement factor cos(phi1) at the dimmer's line terminal [-]; NaN without
+        fundamental current. None on a curve built without it.
     """
 
     dimmer_kind: str
@@ -138,6 +145,13 @@ class DimmingCurve:
     curve_flags: tuple[str, ...]
     notes: tuple[str, ...]
     groups: tuple[LoadGroup, ...] = ()
+    svm: np.ndarray | None = None
+    pst_lm: np.ndarray | None = None
+    dpf: np.ndarray | None = None
+
+    def _light_metric(self, name: str) -> np.ndarray:
+        v = getattr(self, name)
+        return np.full(self.light.shape, np.nan) if v is None else v
 
     @property
     def n_settings(self) -> int:
@@ -162,6 +176,9 @@ class DimmingCurve:
                 "ieee1789": [r[k] for r in self.ieee1789],
                 "flags": list(self.flags[k]),
                 "period_cycles": int(self.period_cycles[k]),
+                "svm": [_num(v) for v in self._light_metric("svm")[:, k]],
+                "pst_lm": [_num(v) for v in self._light_metric("pst_lm")[:, k]],
+                "dpf": None if self.dpf is None else _num(self.dpf[k]),
             })
         return out
 
@@ -174,9 +191,14 @@ class DimmingCurve:
         per = {"conduction_deg": (self.conduction_deg, "deg"), "p_w": (self.p_w, "W"),
                "i_rms_a": (self.i_rms_a, "A"), "thd_i": (self.thd_i, "1"),
                "pf": (self.pf, "1"), "period_cycles": (self.period_cycles, "1")}
+        if self.dpf is not None:
+            per["dpf"] = (self.dpf, "1")
         grp = {"light": (self.light, "1"), "percent_flicker": (self.percent_flicker, "1"),
                "flicker_index": (self.flicker_index, "1"),
                "modulation_frequency_hz": (self.modulation_frequency_hz, "Hz")}
+        if self.svm is not None and self.pst_lm is not None:
+            grp["svm"] = (self.svm, "1")
+            grp["pst_lm"] = (self.pst_lm, "1")
         data: dict[str, tuple] = {k: ("setting", v, {"units": u}) for k, (v, u) in per.items()}
         data.update({k: (("group", "setting"), v, {"units": u}) for k, (v, u) in grp.items()})
         data["ieee1789"] = (("group", "setting"), np.array(self.ieee1789, dtype=str))
@@ -213,6 +235,9 @@ class DimmingCurve:
                 "ieee1789_region": r["ieee1789"],
                 "flags": r["flags"],
                 "period_cycles": r["period_cycles"],
+                "svm": r["svm"],
+                "pst_lm": r["pst_lm"],
+                "dpf": r["dpf"],
             })
         return {
             "dimmer": self.dimmer_kind,
@@ -422,7 +447,8 @@ def dimming_curve(supply: Supply, dimmer_kind: str, load_groups, steps: int = 21
     G, n = len(groups), steps
     nan = np.full(n, np.nan)
     cond, p_w, i_rms, thd_i, pf = (nan.copy() for _ in range(5))
-    light, pfl, fidx, fmod = (np.full((G, n), np.nan) for _ in range(4))
+    light, pfl, fidx, fmod, svm_, pst_ = (np.full((G, n), np.nan) for _ in range(6))
+    dpf = nan.copy()
     regions = [[""] * n for _ in range(G)]
     flags: list[tuple[str, ...]] = []
     period = np.zeros(n, dtype=int)
@@ -444,12 +470,16 @@ def dimming_curve(supply: Supply, dimmer_kind: str, load_groups, steps: int = 21
             s = analyze(w, 40).summary
             thd_i[k] = s.thd_i
             pf[k] = np.nan if s.pf is None else s.pf
+            dpf[k] = np.nan if s.dpf is None else s.dpf
         except InputError:  # no fundamental current (the lamps are off): no THD, no PF
             pass
         period_s = sol.period_cycles / supply.frequency_hz
         for g, gr in enumerate(sol.groups):
             light[g, k] = float(np.mean(gr.light))
-            fl = flicker(gr.light, period_s, dark_below=NUMERIC_DARK)
+            lm = light_metrics(gr.light, period_s, dark_below=NUMERIC_DARK)
+            fl = lm.flicker_detail
+            svm_[g, k] = np.nan if lm.svm is None else lm.svm
+            pst_[g, k] = np.nan if lm.pst_lm is None else lm.pst_lm
             pfl[g, k] = np.nan if fl.percent_flicker is None else fl.percent_flicker
             fidx[g, k] = np.nan if fl.flicker_index is None else fl.flicker_index
             fmod[g, k] = np.nan if fl.modulation_frequency_hz is None else \
@@ -473,4 +503,4 @@ def dimming_curve(supply: Supply, dimmer_kind: str, load_groups, steps: int = 21
         percent_flicker=pfl, flicker_index=fidx, modulation_frequency_hz=fmod,
         ieee1789=tuple(tuple(r) for r in regions), flags=tuple(flags), period_cycles=period,
         curve_flags=tuple(f for f in CURVE_FLAGS if f in all_flags), notes=tuple(notes),
-        groups=groups)
+        groups=groups, svm=svm_, pst_lm=pst_, dpf=dpf)

@@ -312,9 +312,12 @@ def light_figure(
     light_rel: npt.ArrayLike,
     percent_flicker: float,
     flicker_index: float,
-    freq_hz: float,
+    freq_hz: float | None,
     x_unit: Literal["s", "deg"] = "s",
     title: str | None = None,
+    *,
+    svm: float | None = None,
+    pst_lm: float | None = None,
 ) -> Figure:
     """Relative light output over a cycle, with its flicker figures.
 
@@ -329,13 +332,18 @@ def light_figure(
     flicker_index
         The IES flicker index, area above the mean over total area [-].
     freq_hz
-        Fundamental frequency of the light modulation [Hz].
+        Frequency of the largest light modulation component [Hz]; 0 or None for a steady
+        (flicker-free) light, shown as "none".
+    svm, pst_lm
+        The stroboscopic visibility measure (IEC TR 63158) and the light flicker severity
+        (IEC TR 61547-1) [-], shown when given (:func:`pqcalc.light.light_metrics`).
 
     The mean is drawn and the area above it shaded (the numerator of the flicker index).
 
     References
     ----------
     IES Lighting Handbook, 10th ed.: percent flicker and flicker index definitions.
+    IEC TR 63158:2018 (SVM); IEC TR 61547-1:2015 (Pst_LM).
     """
     if x_unit not in ("s", "deg"):
         raise InputError(f"x_unit: expected 's' or 'deg', got {x_unit!r}")
@@ -346,8 +354,12 @@ def light_figure(
     for name, val in (("percent_flicker", percent_flicker), ("flicker_index", flicker_index)):
         if not (np.isfinite(val) and 0 <= val <= 1):
             raise InputError(f"{name}: expected a fraction 0..1 (percent / 100), got {val}")
-    if not (np.isfinite(freq_hz) and freq_hz > 0):
-        raise InputError(f"freq_hz: expected a positive frequency, got {freq_hz}")
+    if freq_hz is not None and not (np.isfinite(freq_hz) and freq_hz >= 0):
+        raise InputError(f"freq_hz: expected a frequency >= 0 [Hz] (0: steady light), got "
+                         f"{freq_hz}")
+    for name, fig_val in (("svm", svm), ("pst_lm", pst_lm)):
+        if fig_val is not None and not (np.isfinite(fig_val) and fig_val >= 0):
+            raise InputError(f"{name}: expected a value >= 0, got {fig_val}")
     xs = x * 1e3 if x_unit == "s" else x
     mean = float(np.trapezoid(y, x) / (x[-1] - x[0])) if x[-1] != x[0] else float(y.mean())
     fig = new_figure(figsize=(6.4, 3.4))
@@ -363,9 +375,15 @@ def light_figure(
         ax.set_xlabel("time [ms]" if x_unit == "s" else "angle [deg]")
         ax.set_ylabel("relative light output [-]")
         _legend_below(fig, ax.get_legend_handles_labels()[0])
-        ax.text(0.99, 0.98, f"percent flicker = {100 * percent_flicker:.1f} %\n"
-                f"flicker index = {flicker_index:.3f}\n"
-                f"modulation frequency = {freq_hz:.4g} Hz", transform=ax.transAxes,
+        fmod = f"{freq_hz:.4g} Hz" if freq_hz else "none (steady)"
+        lines = [f"percent flicker = {100 * percent_flicker:.1f} %",
+                 f"flicker index = {flicker_index:.3f}",
+                 f"modulation frequency = {fmod}"]
+        if svm is not None:
+            lines.append(f"SVM = {svm:.3g}")
+        if pst_lm is not None:
+            lines.append(f"Pst_LM = {pst_lm:.3g}")
+        ax.text(0.99, 0.98, "\n".join(lines), transform=ax.transAxes,
                 ha="right", va="top", fontsize=8,
                 bbox=dict(facecolor="white", edgecolor="none", alpha=0.85, pad=1.5))
         ax.set_title(title or "Light output")
