@@ -271,12 +271,13 @@ def test_7_unknown_component_names_the_line(folder):
 
 # --------------------------------------------------------------- 8. directory outputs
 def test_8_report_to_the_current_folder_is_a_clean_error(folder, monkeypatch):
+    (folder / "site.toml").write_text(BASE)
     out = folder / "out"
     out.mkdir()
-    monkeypatch.chdir(out)
-    o = run_cli(["report", str(folder / "site.toml"), "-o", "."]) if (
-        folder / "site.toml").write_text(BASE) else None
+    monkeypatch.chdir(out)  # an empty folder, the current one: it cannot be swapped out
+    o = run_cli(["report", str(folder / "site.toml"), "-o", "."])
     _clean_error(o, "current folder")
+    assert list(out.iterdir()) == []
 
 
 def test_8_csv_folder_replaced_in_one_step(tmp_path, monkeypatch):
