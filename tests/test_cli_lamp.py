@@ -88,9 +88,11 @@ def test_waveform_csv(tmp_path):
     # at least 4096 samples over one period (the issue), time uniformly spaced
     assert a.shape == (4096, 4)
     assert np.allclose(np.diff(a[:, 0]), 1 / 50 / 4096, rtol=1e-6)
-    # the exported samples carry the same power as the summary (definition P = mean(v i));
-    # 9 significant digits in the file
-    assert np.mean(a[:, 1] * a[:, 2]) == pytest.approx(d["p_w"], rel=1e-6)
+    # the exported samples carry the same power as the summary (definition P = mean(v i)):
+    # the summary is integrated exactly over the solution, the samples are its cell means
+    # (pqcalc.circuits.exact.SolvedWaveform), whose product loses the covariance of v and i
+    # inside a cell at the cut (measured 2.8e-6 here)
+    assert np.mean(a[:, 1] * a[:, 2]) == pytest.approx(d["p_w"], rel=1e-5)
     assert np.mean(a[:, 3]) == pytest.approx(d["light"]["mean_pct"] / 100, rel=1e-6)
     assert not list(tmp_path.glob(".*.tmp"))  # no temporary left behind
 
@@ -269,3 +271,30 @@ def test_lamp_figure_needs_its_file(tmp_path):
     r = CliRunner().invoke(main, ["lamp", "--model", "resistive", "--power-w", "60",
                                   "--figure", "waveform", "-o", str(tmp_path / "no" / "x.png")])
     assert r.exit_code == 2 and "does not exist" in r.output
+
+
+def test_light_figure_of_a_flicker_free_lamp(tmp_path):
+    # A bulk-capacitor driver's light is steady (no modulation frequency): the light figure
+    # is drawn, not refused (it failed with "freq_hz: expected a positive frequency" before);
+    # PNG signature per the PNG specification.
+    out = tmp_path / "light.png"
+    r = CliRunner().invoke(main, ["lamp", "--model", "bulk-cap", "--power-w", "9",
+                                  "--figure", "light", "-o", str(out)])
+    assert r.exit_code == 0, r.output
+    assert out.read_bytes()[:8] == b"\x89PNG\r\n\x1a\n"
+
+
+def test_text_output_has_svm_pst_lm_and_the_eu_verdict():
+    # The dropper's 100 Hz pulses: SVM about 6 (the issue's prototype) fails SVM <= 0.4 at
+    # full output (Regulation (EU) 2019/2020 Table 4 as amended by 2021/341, from
+    # 1 September 2024); the dimmed setting is informative.
+    r = run("--model", "dropper", "--power-w", "9", "--dimmer", "trailing-edge",
+            "--conduction-deg", "120", "--on-date", "2025-01-01")
+    assert r.exit_code == 0, r.output
+    assert "SVM (IEC TR 63158)" in r.stdout and "Pst_LM (IEC TR 61547-1)" in r.stdout
+    assert "full output, no dimmer" in r.stdout and "FAIL" in r.stdout
+    assert "this setting: informative" in r.stdout
+    r = run("--model", "dropper", "--power-w", "9", "--dimmer", "trailing-edge", "--curve",
+            "--steps", "3", "--on-date", "2025-01-01")
+    assert r.exit_code == 0, r.output
+    assert "SVM" in r.stdout and "Pst_LM" in r.stdout and "DPF" in r.stdout

@@ -202,3 +202,24 @@ def test_lineup_unknown_edition(tmp_path):
 
     with pytest.raises(InputError, match="edition.*5.0, 5.1"):
         evaluate_lineup(load_installation(led_site(tmp_path)), edition="6.0")
+
+
+def test_comply_installation_json_carries_the_eu_ecodesign_verdict(tmp_path):
+    # A 9 W dropper on a 230 V 50 Hz project: the EU rules apply by default; its 100 Hz
+    # pulses give SVM about 6 (the prototype), above SVM <= 0.9 (to 31 August 2024)
+    # and <= 0.4 (from 1 September 2024) of Regulation (EU) 2019/2020 Table 4 as amended by
+    # 2021/341, whichever day the test runs.
+    p = tmp_path / "drop.toml"
+    p.write_text(SITE.format(dimmer="trailing-edge", setting="conduction_deg = 120")
+                 .replace('model = "resistive"\npower_w = 50.0', 'model = "dropper"\npower_w = 9.0'))
+    r = CliRunner().invoke(main, ["comply", "--installation", str(p), "--json"])
+    d = json.loads(r.output)
+    (eco,) = d["ecodesign"]
+    assert eco["verdict"] == "fail"
+    full = next(s for s in eco["states"] if s["full_load"])
+    assert 5.0 < full["svm"] < 7.0 and full["ecodesign"]["verdict"] == "fail"
+    # the filament of the other tests is no LED source: no EU verdict, a note says why
+    r = CliRunner().invoke(main, ["comply", "--installation", str(site(tmp_path)), "--json"])
+    d = json.loads(r.output)
+    assert [x["verdict"] for x in d["ecodesign"]] == [None]
+    assert any("LED and OLED" in n for n in d["notes"])

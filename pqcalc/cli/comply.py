@@ -20,7 +20,7 @@ from ..standards import (
 )
 from ..standards.iec61000_3_2 import SCOPE_MIN_VOLTAGE_V
 from ..standards.results import FixtureResult
-from ._common import STDIO, deprecated_alias, echo_json, main, user_errors
+from ._common import STDIO, deprecated_alias, echo_json, fmt, main, user_errors
 from .analyze import capture_options, check_option, csv_options_from, read_capture
 
 #: Nominal line-to-neutral voltages a record is matched to when none is given [V]
@@ -223,6 +223,7 @@ def comply_cmd(captures, installation, equipment_class, settings_of, power_w, pf
     jobs = []  # (fixture, [(setting, waveform)])
     lineup_results: list[FixtureResult] = []
     lineup_notes: list[str] = []
+    ecodesign: list[dict] = []  # EU light-source rules per lineup entry (--installation)
     if model is not None:
         lineup_results, lineup_notes = _model_states(
             model, power_w, dimmer, MODEL_VOLTAGE_V if voltage is None else voltage,
@@ -240,6 +241,11 @@ def comply_cmd(captures, installation, equipment_class, settings_of, power_w, pf
             lineup_results.extend(res)
             lineup_notes.extend(f"{e.fixture} ({e.source}, {e.dimmer}): {n}" for n in e.notes
                                 if n != CAUTION)
+            if e.eu_ecodesign:
+                ecodesign.append({"fixture": e.fixture, "dimmer": e.dimmer,
+                                  "verdict": e.ecodesign,
+                                  "states": [{"state": s.state, **s.light.to_dict()}
+                                             for s in e.states if s.light is not None]})
     opts = csv_options_from(kw)
     if captures:  # with --model the frequency is the supply's, checked by the model
         check_option("--frequency", frequency)
@@ -293,6 +299,7 @@ def comply_cmd(captures, installation, equipment_class, settings_of, power_w, pf
             "strict_dimmed": bool(strict_dimmed),
             "verdict": "fail" if failed else "info" if len(info) == len(results) else "pass",
             "results": [r.to_dict() for r in results],
+            **({"ecodesign": ecodesign} if installation else {}),
             "notes": notes,
             "caution": CAUTION,
         })
@@ -301,6 +308,13 @@ def comply_cmd(captures, installation, equipment_class, settings_of, power_w, pf
             print_result(r)
         for n in notes:
             click.echo(f"note: {n}")
+        for x in ecodesign:  # the full-output verdict; dimmed states are informative
+            full = next((s for s in x["states"] if s["full_load"]), None)
+            if x["verdict"] is not None and full is not None:
+                click.echo(f"EU ecodesign (Regulation (EU) 2019/2020) {x['fixture']} at full "
+                           f"output: {x['verdict']} (SVM {fmt(full['svm'], '.3g')}, Pst_LM "
+                           f"{fmt(full['pst_lm'], '.3g')}, displacement factor "
+                           f"{fmt(full['displacement_factor'], '.3g')})")
         bad = ", ".join(_head(r) for r in failed)
         counted = len(results) - len(info)
         click.echo(f"IEC 61000-3-2 edition {edition}: {counted - len(failed)} of {counted} "

@@ -1,14 +1,18 @@
 """``pqcalc lamp``: one fixture type behind a dimmer, solved to periodic steady state.
 
 Thin: the numbers come from :func:`pqcalc.circuits.solve_circuit`,
-:func:`pqcalc.circuits.dimming_curve`, :func:`pqcalc.analysis.analyze` and
-:func:`pqcalc.flicker.flicker`.
+:func:`pqcalc.circuits.dimming_curve`, :func:`pqcalc.analysis.analyze`,
+:func:`pqcalc.light.light_metrics` (SVM, Pst_LM and the flicker figures),
+:func:`pqcalc.light.eu_ecodesign_check` (the EU rules for light sources) and
+:func:`pqcalc.light.dimmer_jitter_pst_lm` (firing jitter).
 """
 
 from __future__ import annotations
 
 import contextlib
+import datetime as _dt
 import io
+import math
 import sys
 
 import click
@@ -26,11 +30,18 @@ from ..circuits import (
     model_params,
     solve_circuit,
 )
-from ..circuits.curve import NUMERIC_DARK, SETTING_AXES
+from ..circuits.curve import SETTING_AXES
 from ..circuits.spec import SWITCH_KINDS
 from ..errors import InputError
-from ..flicker import flicker
+from ..installation.lineup import (
+    EU_NOT_LED_NOTE,
+    StateLight,
+    eu_ecodesign_default,
+    eu_ecodesign_in_scope,
+    state_light,
+)
 from ..io.atomic import is_stdout
+from ..light import dimmer_jitter_pst_lm, eu_ecodesign_check
 from ..plotting.style import FIGURE_FORMATS
 from ..standards.results import CAUTION
 from ._common import echo_json, figure_format, fmt, main, save_figure_to, user_errors, write_atomic
@@ -160,11 +171,22 @@ LAMP_FIGURES = ("waveform", "spectrum", "light", "curve")
 @click.option("--format", "fig_format", type=click.Choice(FIGURE_FORMATS),
               help="With --figure: the file type (default: from the suffix of -o; needed "
                    "with -o -).")
+@click.option("--eu-ecodesign/--no-eu-ecodesign", "eu_ecodesign", default=None,
+              help="Judge the lamp at full output (no dimmer) against the EU ecodesign rules "
+                   "for light sources, Regulation (EU) 2019/2020 as amended by 2021/341 "
+                   "(Pst_LM, SVM, displacement factor); dimmed settings are compared for "
+                   "information. Default: on for a 230 V 50 Hz supply.")
+@click.option("--on-date", "on_date",
+              help="With the EU rules: the date they are taken at, YYYY-MM-DD (default: "
+                   "today; the SVM limit went from 0.9 to 0.4 on 2024-09-01).")
+@click.option("--jitter-deg", "jitter_deg", type=float,
+              help="Random spread of the dimmer's firing angle, standard deviation per half "
+                   "cycle [deg]: the Pst_LM it gives (a seeded 10 min record per setting).")
 @click.option("--json", "as_json", is_flag=True, help="Print one JSON object instead of text.")
 @user_errors
 def lamp_cmd(model, power_w, count, voltage, frequency, dimmer, switch, conduction_deg, knob,
              params, list_params, curve, steps, curve_axis, waveform_csv, figure, output,
-             fig_format, as_json):
+             fig_format, eu_ecodesign, on_date, jitter_deg, as_json):
     """Input current, light, flicker and stresses of one fixture type behind a dimmer.
 
     The lamp circuit (the chosen model's named components with typical defaults) and the
@@ -197,6 +219,16 @@ def lamp_cmd(model, power_w, count, voltage, frequency, dimmer, switch, conducti
     if dimmer == "none" and (conduction_deg is not None or knob is not None or curve):
         raise InputError("--dimmer none: no setting to give (--conduction-deg, --knob and "
                          "--curve need leading-edge or trailing-edge)")
+    if jitter_deg is not None:
+        if not (math.isfinite(jitter_deg) and jitter_deg >= 0):
+            raise InputError(f"--jitter-deg: expected a standard deviation >= 0 [deg], got "
+                             f"{jitter_deg:g}")
+        if dimmer == "none":
+            raise InputError("--jitter-deg: firing jitter needs a dimmer (--dimmer "
+                             "leading-edge or trailing-edge)")
+    day = _day(on_date)
+    eu_asked = eu_ecodesign_default(voltage, frequency) if eu_ecodesign is None else eu_ecodesign
+    eu = eu_asked and eu_ecodesign_in_scope(model)
     if (figure is None) != (output is None):
         raise InputError("--figure and -o go together: name the figure and its file")
     if fig_format is not None and figure is None:
@@ -226,6 +258,8 @@ def lamp_cmd(model, power_w, count, voltage, frequency, dimmer, switch, conducti
             raise InputError("--waveform-csv: one setting only; leave out --curve")
         c = dimming_curve(supply, dimmer, [group], steps=steps, switch=switch,
                           dimmer_params=split["dimmer"], axis=curve_axis)
+        full = _full_output(supply, group, day) if eu else None
+        jit = _curve_jitter(c, supply, group, switch, split["dimmer"], jitter_deg)
         if figure == "curve":
             from .. import plots
 
@@ -237,6 +271,15 @@ def lamp_cmd(model, power_w, count, voltage, frequency, dimmer, switch, conducti
             save_figure_to(fig, output, fig_format)
         if as_json:
             d = c.to_dict()
+            eu_rows = _curve_eu(c, group, day) if eu else None
+            for k, row in enumerate(d["settings"]):
+                if eu_rows is not None:
+                    row["eu_limits_met"] = eu_rows[k]
+                if jit is not None:
+                    row["pst_lm_jitter"] = jit[k]
+            d["eu_ecodesign"] = _eu_dict(eu, day, full, None, eu_asked)
+            if jitter_deg is not None:
+                d["jitter_deg"] = jitter_deg
             d["supply"] = {"v_rms_v": supply.v_rms_v, "frequency_hz": supply.frequency_hz,
                            **split["supply"]}
             d["caution"] = CAUTION
@@ -244,7 +287,9 @@ def lamp_cmd(model, power_w, count, voltage, frequency, dimmer, switch, conducti
             echo_json(d)
         else:
             with _text_out(bool(on_stdout)):
-                _print_curve(c, group, supply)
+                _print_curve(c, group, supply, jit, jitter_deg)
+                _print_eu(eu, day, full, None, eu_asked)
+                _print_notes()
         return
     if dimmer != "none" and conduction_deg is None and knob is None:
         raise InputError(f"--dimmer {dimmer}: give a setting, --conduction-deg (0..180) or "
@@ -254,26 +299,141 @@ def lamp_cmd(model, power_w, count, voltage, frequency, dimmer, switch, conducti
     sol = solve_circuit(supply, spec, [group])
     gr = sol.groups[0]
     period_s = sol.period_cycles / supply.frequency_hz
-    fl = flicker(gr.light, period_s, dark_below=NUMERIC_DARK)
     a = analyze(sol.waveform, 40)
+    jres = None
+    if jitter_deg is not None:
+        jres = dimmer_jitter_pst_lm(supply, spec, [group], jitter_deg)
+    dimmed = spec.kind != "none"
+    # SVM, Pst_LM and the displacement factor of this setting (informative when dimmed)
+    sl = state_light(gr.light, period_s, a.spectrum, gr.p_w, full_load=not dimmed,
+                     eu_ecodesign=eu, on_date=day, jitter=jres)
+    fl = sl.metrics.flicker_detail
+    full = (_full_output(supply, group, day) if dimmed else sl) if eu else None
     if waveform_csv:
         _write_waveform(waveform_csv, sol.waveform, gr.light)
     if figure is not None:
         setting = ("" if dimmer == "none" else f", {dimmer} " + (
             f"{conduction_deg:g} deg" if conduction_deg is not None else f"knob {knob:g}"))
-        _draw(figure, output, fig_format, sol, gr, a, fl,
+        _draw(figure, output, fig_format, sol, gr, a, sl,
               f"{model} {power_w:g} W x {count}{setting}")
     if as_json:
         d = a.to_dict()
         d["label"] = f"{model} {power_w:g} W x {count}"
         d["p_w"] = float(sol.waveform.p_w)
         d.update(_solution_dict(sol, spec, supply, split, fl))
+        d["light"].update({"svm": sl.svm, "pst_lm": sl.pst_lm,
+                           "p_inst_max": sl.metrics.p_inst_max})
+        d["displacement_factor"] = sl.displacement_factor
+        d["eu_ecodesign"] = _eu_dict(eu, day, full, sl if dimmed else None, eu_asked)
+        d["jitter"] = None if jres is None else jres.to_dict()
         d["caution"] = CAUTION
         d["model_note"] = MODEL_NOTE
         echo_json(d)
         return
     with _text_out(bool(on_stdout)):
-        _print_solution(a, sol, spec, supply, fl, group)
+        _print_solution(a, sol, spec, supply, sl, group)
+        _print_eu(eu, day, full, sl if dimmed else None, eu_asked)
+        _print_notes()
+
+
+def _day(on_date: str | None) -> _dt.date:
+    """``--on-date`` as a date (today when not given)."""
+    if on_date is None:
+        return _dt.date.today()
+    try:
+        return _dt.date.fromisoformat(on_date.strip())
+    except ValueError:
+        raise InputError(f"--on-date: expected a date YYYY-MM-DD, got {on_date!r}") from None
+
+
+def _full_output(supply, group, day) -> StateLight:
+    """The lamp without a dimmer, judged against the EU rules at full load."""
+    sol = solve_circuit(supply, DimmerSpec("none"), [group])
+    gr = sol.groups[0]
+    return state_light(gr.light, sol.period_cycles / supply.frequency_hz,
+                       analyze(sol.waveform, 40).spectrum, gr.p_w, full_load=True,
+                       eu_ecodesign=True, on_date=day)
+
+
+def _curve_eu(c, group, day) -> list[dict]:
+    """Per setting, whether each figure meets the EU full-load limit (informative)."""
+    def num(x):
+        return None if x is None or not np.isfinite(x) else float(x)
+
+    out = []
+    for k in range(c.n_settings):
+        svm = num(c.svm[0, k]) if c.svm is not None else None
+        pst = num(c.pst_lm[0, k]) if c.pst_lm is not None else None
+        df = num(c.dpf[k]) if c.dpf is not None else None
+        p = num(c.p_w[k])
+        df = None if df is None else min(max(df, 0.0), 1.0)
+        # one lamp's share of the power at the dimmer's terminal selects the DF row
+        r = eu_ecodesign_check(svm=svm, pst_lm=pst, power_w=None if p is None else
+                               max(p, 0.0) / group.count, displacement_factor=df,
+                               on_date=day, full_load=False)
+        out.append({v.quantity: (None if v.check is None else v.check.status == "pass")
+                    for v in r.verdicts})
+    return out
+
+
+def _curve_jitter(c, supply, group, switch, dparams, jitter_deg) -> list | None:
+    """Pst_LM with firing jitter at each setting of a curve (None where dark or unsolved)."""
+    if jitter_deg is None:
+        return None
+    out: list[float | None] = []
+    for k in range(c.n_settings):
+        if "no-solution" in c.flags[k] or not np.isfinite(c.pst_lm[0, k]):
+            out.append(None)
+            continue
+        kw = ({"conduction_deg": float(c.settings[k])} if c.axis == "conduction"
+              else {"knob": float(c.settings[k])})
+        spec = DimmerSpec(c.dimmer_kind, switch=switch, params=dparams, **kw)
+        try:
+            out.append(dimmer_jitter_pst_lm(supply, spec, [group], jitter_deg).pst_lm)
+        except InputError:  # the lamp goes dark within the spread
+            out.append(None)
+    return out
+
+
+def _eu_dict(eu: bool, day, full: StateLight | None, setting: StateLight | None,
+             asked: bool) -> dict:
+    if not eu:
+        return {"applies": False, "note": EU_NOT_LED_NOTE if asked else
+                "not applied (default: on for a 230 V 50 Hz supply; --eu-ecodesign)"}
+    return {"applies": True, "on_date": day.isoformat(),
+            "full_output": None if full is None else full.to_dict(),
+            "setting": None if setting is None else setting.to_dict()}
+
+
+def _print_eu(eu: bool, day, full: StateLight | None, setting: StateLight | None,
+              asked: bool) -> None:
+    if asked and not eu:
+        click.echo(f"EU ecodesign: {EU_NOT_LED_NOTE}")
+    if not eu or full is None or full.ecodesign is None:
+        return
+    out = click.echo
+    r = full.ecodesign
+    out(f"EU ecodesign ({r.source}), rules of {day.isoformat()}:")
+    blocks = [(f"full output, no dimmer ({full.power_w:.3g} W): {r.verdict.upper()}", r)]
+    if setting is not None and setting.ecodesign is not None:
+        blocks.append(("this setting: informative (the rules apply at full load)",
+                       setting.ecodesign))
+    names = {"pst_lm": "Pst_LM", "svm": "SVM", "displacement_factor": "displacement factor"}
+    for head, res in blocks:
+        out(f"  {head}")
+        for v in res.verdicts:
+            req = v.requirement
+            lim = ("-" if req is None or req.limit is None else
+                   ("<= " if req.bound == "max" else ">= ") + format(req.limit, "g"))
+            status = v.check.status if v.check is not None else v.verdict
+            if v.verdict == "informative" and v.check is not None:
+                status = "met" if v.check.status == "pass" else "not met"
+            out(f"    {names[v.quantity]:<20} {fmt(v.value, '.3g'):>8} {lim:>7}  {status}")
+
+
+def _print_notes() -> None:
+    click.echo(f"note: {MODEL_NOTE}")
+    click.echo(f"caution: {CAUTION}")
 
 
 def _text_out(to_stderr: bool):
@@ -281,7 +441,7 @@ def _text_out(to_stderr: bool):
     return contextlib.redirect_stdout(sys.stderr) if to_stderr else contextlib.nullcontext()
 
 
-def _draw(figure, output, fig_format, sol, gr, a, fl, title) -> None:
+def _draw(figure, output, fig_format, sol, gr, a, sl, title) -> None:
     """One figure of a solved lamp into ``output`` (written atomically)."""
     from .. import plots
 
@@ -297,10 +457,11 @@ def _draw(figure, output, fig_format, sol, gr, a, fl, title) -> None:
         fig = plots.spectrum_figure(a.spectrum, marks.limits, unit="pct", title=title,
                                     limits_label=marks.label, disregarded=marks.disregarded)
     else:
+        fl = sl.metrics
         t = np.arange(gr.light.size) / (gr.light.size / (w.cycles / w.frequency_hz))
         fig = plots.light_figure(t, gr.light, fl.percent_flicker or 0.0,
-                                 fl.flicker_index or 0.0, fl.modulation_frequency_hz or 0.0,
-                                 title=title)
+                                 fl.flicker_index or 0.0, fl.modulation_frequency_hz,
+                                 title=title, svm=fl.svm, pst_lm=fl.pst_lm)
     save_figure_to(fig, output, fig_format)
     click.echo(f"wrote {'standard output' if is_stdout(output) else output}", err=True)
 
@@ -368,8 +529,9 @@ def _setting_text(spec) -> str:
     return f"{spec.kind}{sw} dimmer at {s}"
 
 
-def _print_solution(a, sol, spec, supply, fl, group) -> None:
+def _print_solution(a, sol, spec, supply, sl, group) -> None:
     out = click.echo
+    fl = sl.metrics.flicker_detail
     s = a.summary
     gr = sol.groups[0]
     st = gr.stresses
@@ -393,11 +555,17 @@ def _print_solution(a, sol, spec, supply, fl, group) -> None:
         ("flicker index", fmt(fl.flicker_index, ".3g"), ""),
         ("modulation frequency", fmt(fl.modulation_frequency_hz, ".5g"), "Hz"),
         ("IEEE 1789-2015 region", fl.ieee1789, ""),
+        ("SVM (IEC TR 63158)", fmt(sl.svm, ".3g"), ""),
+        ("Pst_LM (IEC TR 61547-1)", fmt(sl.pst_lm, ".3g"), ""),
         ("peak current (one lamp)", fmt(st.i_peak_a), "A"),
         ("inrush peak at the crest", fmt(st.inrush_peak_a), "A"),
     ]
     rows += [(f"{name} rms current", fmt(v), "A") for name, v in st.cap_rms_a]
     rows += [(f"{name} dissipation", fmt(v), "W") for name, v in st.resistor_w]
+    if sl.jitter is not None:
+        rows.insert(rows.index(("Pst_LM (IEC TR 61547-1)", fmt(sl.pst_lm, ".3g"), "")) + 1,
+                    (f"Pst_LM, jitter {sl.jitter.jitter_deg:g} deg", fmt(sl.jitter.pst_lm, ".3g"),
+                     f"(seed {sl.jitter.seed})"))
     for name, val, unit in rows:
         out(f"  {name:<28} {val:>14} {unit}")
     out("")
@@ -406,19 +574,18 @@ def _print_solution(a, sol, spec, supply, fl, group) -> None:
         pct = "-" if r["pct_of_fundamental"] is None else f"{r['pct_of_fundamental']:.2f}"
         out(f"  {r['order']:>5} {r['i_rms_a']:>12.5g} {pct:>9} {r['phase_deg']:>12.1f}")
     out("  (orders 16..40: --json)")
-    out(f"note: {MODEL_NOTE}")
-    out(f"caution: {CAUTION}")
 
 
-def _print_curve(c, group, supply) -> None:
+def _print_curve(c, group, supply, jit=None, jitter_deg=None) -> None:
     out = click.echo
     unit = "deg" if c.axis == "conduction" else "knob"
     sw = f" {c.switch}" if c.dimmer_kind == "leading-edge" else ""
     out(f"{group.model} {group.power_w:g} W x {group.count} on {supply.v_rms_v:g} V "
         f"{supply.frequency_hz:g} Hz, {c.dimmer_kind}{sw} dimmer: {c.n_settings} settings")
     out(f"  {'set ' + unit:>8} {'cond':>6} {'light%':>7} {'P [W]':>9} {'I [A]':>9} "
-        f"{'THD%':>7} {'PF':>6} {'flk%':>6} {'index':>6} {'f [Hz]':>7} "
-        f"{'IEEE 1789':<20} flags")
+        f"{'THD%':>7} {'PF':>6} {'DPF':>6} {'flk%':>6} {'index':>6} {'f [Hz]':>7} "
+        f"{'SVM':>6} {'Pst_LM':>6} " + (f"{'PstLMj':>6} " if jit is not None else "")
+        + f"{'IEEE 1789':<20} flags")
 
     def f_(x, spec):
         return "-" if not np.isfinite(x) else format(x, spec)
@@ -427,12 +594,22 @@ def _print_curve(c, group, supply) -> None:
         out(f"  {f_(c.settings[k], '.4g'):>8} {f_(c.conduction_deg[k], '.1f'):>6} "
             f"{f_(100 * c.light[0, k], '.3g'):>7} {f_(c.p_w[k], '.4g'):>9} "
             f"{f_(c.i_rms_a[k], '.4g'):>9} {f_(100 * c.thd_i[k], '.1f'):>7} "
-            f"{f_(c.pf[k], '.3f'):>6} {f_(100 * c.percent_flicker[0, k], '.3g'):>6} "
+            f"{f_(c.pf[k], '.3f'):>6} {f_(nan_if(c.dpf, k), '.3f'):>6} "
+            f"{f_(100 * c.percent_flicker[0, k], '.3g'):>6} "
             f"{f_(c.flicker_index[0, k], '.3f'):>6} "
-            f"{f_(c.modulation_frequency_hz[0, k], '.4g'):>7} {c.ieee1789[0][k]:<20} "
-            f"{', '.join(c.flags[k])}")
+            f"{f_(c.modulation_frequency_hz[0, k], '.4g'):>7} "
+            f"{f_(nan_if(c.svm, 0, k), '.3g'):>6} {f_(nan_if(c.pst_lm, 0, k), '.3g'):>6} "
+            + (f"{f_(np.nan if jit[k] is None else jit[k], '.3g'):>6} "
+               if jit is not None else "")
+            + f"{c.ieee1789[0][k]:<20} {', '.join(c.flags[k])}")
     out(f"curve flags: {', '.join(c.curve_flags) or 'none'}")
     for n in c.notes:
         out(f"  {n}")
-    out(f"note: {MODEL_NOTE}")
-    out(f"caution: {CAUTION}")
+    out("  SVM: IEC TR 63158; Pst_LM: IEC TR 61547-1"
+        + (f"; PstLMj: Pst_LM with firing jitter {jitter_deg:g} deg (seed 0)"
+           if jit is not None else "") + "; DPF: displacement factor cos phi1")
+
+
+def nan_if(arr, *index) -> float:
+    """``arr[index]``, or NaN when the curve carries no such figure."""
+    return float("nan") if arr is None else float(arr[index])

@@ -85,9 +85,11 @@ def _lineup_dict(lineup: Sequence[LineupEntry] | None) -> list[dict] | None:
     for e in lineup:
         out.append({"fixture": e.fixture, "description": e.description,
                     "verdict": e.verdict,
+                    "eu_ecodesign": e.eu_ecodesign, "ecodesign": e.ecodesign,
                     "states": [{"state": s.state, **s.result.to_dict(),
                                 "i_h_a": [float(x) for x in s.magnitudes_a],
-                                "limits_a": {str(h): v for h, v in sorted(s.limits_a.items())}}
+                                "limits_a": {str(h): v for h, v in sorted(s.limits_a.items())},
+                                "light": None if s.light is None else s.light.to_dict()}
                                for s in e.states]})
     return out
 

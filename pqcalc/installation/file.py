@@ -26,7 +26,8 @@ File layout (see ``demo_installations/harbour_school.toml`` for a commented exam
     [diversity]    mode = "none" | "summation" | "monte-carlo", draws, low_deg, high_deg,
                    step_deg, seed
     [pcc]          demand_current_a, short_circuit_a, voltage_kv, ieee519_edition
-    [compliance]   strict_dimmed (dimmed states behind independent dimmers pass/fail)
+    [compliance]   strict_dimmed (dimmed states behind independent dimmers pass/fail),
+                   eu_ecodesign (EU light-source rules at full output; default: 230/400 V 50 Hz)
     [report]       paper ("A4" | "Letter"; default from the rule set: A4 IEC, Letter US)
 
 A fixture type's ``builtin_dimming = true`` says the equipment dims itself: its dimmed
@@ -333,7 +334,7 @@ _CIRCUIT_FIELDS = {"id", "line", "breaker_a", "breaker_curve", "dimmer", "conduc
                    "knob", "dimmer_rating_w", "led_derating", "dimmer_min_load_w",
                    "dimmer_params", "dimmer_switch", "fixtures", "branch_r_ohm", "branch_l_h",
                    "conductor_ampacity_a", "description", "cable", "breaker_pickup_x_in",
-                   "breaker_pulse_table"}
+                   "breaker_pulse_table", "dimmer_jitter_deg"}
 
 
 def _cable(fld: Fields, c: dict, path: str) -> tuple[float, float, str]:
@@ -385,6 +386,16 @@ def _pulse_table(fld: Fields, c: dict, path: str
         ln = fld.line(tp)
         raise InputError(f"{fld.path}:{ln}: {tp}.{e}" if ln else f"{fld.path}: {tp}.{e}") from None
     return tuple(tab.width_s), tuple(tab.peaks)
+
+
+def _jitter(fld: Fields, c: dict, path: str, dimmer: str) -> float:
+    """A circuit's firing spread [deg]: >= 0, and only behind a dimmer."""
+    sd = _num(fld, c, "dimmer_jitter_deg", f"{path}.dimmer_jitter_deg", Circuit,
+              default_of(Circuit, "dimmer_jitter_deg"))
+    if sd and dimmer == "none":
+        raise fld.error(f"{path}.dimmer_jitter_deg", "no firing spread on a circuit with "
+                        "dimmer = \"none\"", sd)
+    return float(sd)
 
 
 def _circuit(fld: Fields, c: Any, path: str, panel: str, supply: SupplySpec,
@@ -459,6 +470,7 @@ def _circuit(fld: Fields, c: Any, path: str, panel: str, supply: SupplySpec,
         cable_r_ohm=cable_r, cable_l_h=cable_l, cable=cable,
         conductor_ampacity_a=_num(fld, c, "conductor_ampacity_a", f"{path}.conductor_ampacity_a",
                                   Circuit, dflt("conductor_ampacity_a")),
+        dimmer_jitter_deg=_jitter(fld, c, path, dimmer),
     )
 
 
@@ -618,11 +630,14 @@ def _pcc(fld: Fields, data: dict) -> PccSpec:
 
 def _compliance(fld: Fields, data: dict) -> ComplianceOptions:
     cp = fld.table(data, "compliance", "compliance", required=False)
-    fld.unknown(cp, {"strict_dimmed"}, "compliance")
+    fld.unknown(cp, {"strict_dimmed", "eu_ecodesign"}, "compliance")
     strict = cp.get("strict_dimmed", default_of(ComplianceOptions, "strict_dimmed"))
     if not isinstance(strict, bool):
         raise fld.error("compliance.strict_dimmed", "true or false", strict)
-    return ComplianceOptions(strict)
+    eu = cp.get("eu_ecodesign", default_of(ComplianceOptions, "eu_ecodesign"))
+    if eu is not None and not isinstance(eu, bool):
+        raise fld.error("compliance.eu_ecodesign", "true or false", eu)
+    return ComplianceOptions(strict, eu)
 
 
 _PROJECT_TEXT = ("name", "site", "client", "document_number", "revision", "status", "date",

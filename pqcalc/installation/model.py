@@ -313,6 +313,11 @@ class Circuit:
     cable_l_h: float = 0.0
     cable: str = ""
     conductor_ampacity_a: float | None = field(default=None, metadata=_AMPS)
+    #: random spread of the dimmer's firing angle, standard deviation per half cycle [deg]
+    #: (0: none); turned into Pst_LM by pqcalc.light.dimmer_jitter_pst_lm
+    dimmer_jitter_deg: float = field(default=0.0, metadata=_range(
+        0.0, 30.0, "a standard deviation of the firing angle; past 30 deg the dimmer no "
+        "longer holds a setting"))
 
     def setting(self, scenario: int) -> tuple[float | None, float | None]:
         """(conduction angle [deg], knob [-]) of this circuit's dimmer in a scenario."""
@@ -409,9 +414,13 @@ class PccSpec:
 @dataclass(frozen=True)
 class ComplianceOptions:
     """How the fixture lineup is judged: ``strict_dimmed`` holds the dimmed states behind
-    independent dimmers to pass/fail (an owner's requirement beyond IEC 61000-3-2)."""
+    independent dimmers to pass/fail (an owner's requirement beyond IEC 61000-3-2);
+    ``eu_ecodesign`` applies the EU ecodesign rules for light sources (Regulation (EU)
+    2019/2020) at full output, None: by the supply (on for 230/400 V 50 Hz,
+    :func:`pqcalc.installation.lineup.eu_ecodesign_default`)."""
 
     strict_dimmed: bool = False
+    eu_ecodesign: bool | None = None
 
 
 @dataclass(frozen=True)
