@@ -706,7 +706,7 @@ def _assess_one(inst) -> dict:
         "neutral_ratio": (float("nan") if t.neutral is None
                           else float(t.neutral.ratio_to_max_line)),
         "k_factor": float(t.k_factor),
-        "verdict": "fail" if a.failed else "pass",
+        "verdict": a.verdict,  # "pass", "fail" or "not assessed" (a circuit without a solution)
         "checks_failed": statuses.count("fail"),
         "checks_warned": statuses.count("warn"),
         "i_h_line_a": spec,
@@ -726,7 +726,7 @@ _PORTFOLIO_VARS = {  # name: (units, long name); counts and labels are dimension
     "i_neutral_a": ("A", "neutral current at the service, rms (NaN: single-phase)"),
     "neutral_ratio": ("1", "neutral over the largest line current (NaN: single-phase)"),
     "k_factor": ("1", "transformer K-factor of the service current"),
-    "verdict": ("1", "pass or fail over every check of every scenario"),
+    "verdict": ("1", "pass, fail or not assessed over every check of every scenario"),
     "checks_failed": ("1", "checks failed, all scenarios"),
     "checks_warned": ("1", "checks with a warning, all scenarios"),
 }

@@ -137,3 +137,21 @@ def test_portfolio_bad_file_and_mixing(tmp_path):
     err = _one_line_error(_run("sweep", "--installation", str(tmp_path / "none.toml"),
                                "-o", str(out)))
     assert "none.toml" in err
+
+
+def test_portfolio_names_a_missing_neutral_and_exits_1_when_a_building_fails(tmp_path):
+    # 60 x 100 W filament lamps on a line: 6000 W / 230 V = 26 A on a 16 A breaker (Ohm's
+    # law; the default breaker of a circuit): the breaker-load check fails, so the portfolio
+    # exits 1 as assess does. The single-phase building's service has no neutral sum
+    # (documented in pqcalc.sweep.portfolio): said in words, never "nan".
+    from .test_sweep import _building
+
+    a = _building(tmp_path / "north.toml", 60)
+    b = _building(tmp_path / "south.toml", 4, "single-phase")
+    r = _run("sweep", "--installation", str(a), str(b), "-o", str(tmp_path / "p.nc"))
+    assert r.exit_code == 1, r.output
+    assert "nan" not in r.output.lower()
+    assert "south: 4 lamps" in r.output and "no neutral at the service" in r.output
+    assert "north: 180 lamps" in r.output and "FAIL" in r.output
+    r = _run("sweep", "--installation", str(b), "-o", str(tmp_path / "q.nc"))
+    assert r.exit_code == 0, r.output

@@ -2,6 +2,8 @@
 
 from __future__ import annotations
 
+import math
+import sys
 import time
 
 import click
@@ -22,6 +24,7 @@ from ..sweep import (
 )
 from ._common import Progress as _Progress
 from ._common import main, refuse_binary_terminal, user_errors
+from .assess import plural
 
 
 def _check_output(path: str) -> None:
@@ -77,7 +80,9 @@ def _fixtures(models: tuple[str, ...], powers: tuple[str, ...]) -> tuple[Fixture
 @click.option("--voltages", default="230", show_default=True, metavar="RANGE",
               help="Supply voltage axis, line to neutral [V]: a,b,c or start:stop:count.")
 @click.option("--dimmer", type=click.Choice(DIMMER_KINDS), default="leading-edge",
-              show_default=True)
+              show_default=True,
+              help="Dimmer kind in front of the lamps: leading-edge (phase control, the "
+                   "--switch says triac or transistor), trailing-edge, or none (direct mains).")
 @click.option("--switch", type=click.Choice(SWITCH_KINDS), default="triac", show_default=True,
               help="Leading-edge switch.")
 @click.option("--frequency", "frequency_hz", type=float, default=50.0, show_default=True,
@@ -90,7 +95,9 @@ def _fixtures(models: tuple[str, ...], powers: tuple[str, ...]) -> tuple[Fixture
               help="Monte Carlo draws of component tolerances besides the nominal draw 0.")
 @click.option("--tolerance", type=float, default=0.1, show_default=True,
               help="Relative tolerance of capacitors and resistors in a draw [-].")
-@click.option("--seed", type=int, default=0, show_default=True)
+@click.option("--seed", type=int, default=0, show_default=True,
+              help="Seed of the random component tolerances of the --draws (the same seed "
+                   "gives the same draws).")
 @click.option("--ideal", is_flag=True,
               help="Closed-form ideal phase cut of resistive lamps instead of the circuit "
                    "solver (a fast reference; resistive model only).")
@@ -156,14 +163,19 @@ def sweep_cmd(models, powers, settings, setting_axis, voltages, dimmer, switch, 
             prog.close()
         write_netcdf(ds, output)
         n_fail = int((ds.verdict == "fail").sum())
-        say(f"wrote {said}: {ds.sizes['building']} buildings, {n_fail} with a failed "
-            f"check, in {time.perf_counter() - t0:.1f} s")
+        n_open = int((ds.verdict == "not assessed").sum())
+        say(f"wrote {said}: {plural(ds.sizes['building'], 'building')}, {n_fail} with a "
+            f"failed check" + (f", {n_open} not assessed" if n_open else "")
+            + f", in {time.perf_counter() - t0:.1f} s")
         for b in ds.building.values:
             r = ds.sel(building=b)
+            i_n = float(r.i_neutral_a)
+            neutral = f"neutral {i_n:.1f} A" if math.isfinite(i_n) else "no neutral at the service"
             say(f"  {b}: {int(r.lamps)} lamps, line max {float(r.i_line_max_a):.1f} A, "
-                f"neutral {float(r.i_neutral_a):.1f} A, {str(r.verdict.values)}")
+                f"{neutral}, {str(r.verdict.values).upper()}")
         say(CAUTION)
-        return
+        # exit codes as for assess: 1 a building fails a check, 3 one could not be assessed
+        sys.exit(1 if n_fail else 3 if n_open else 0)
     spec = SweepSpec(
         fixtures=_fixtures(models, powers),
         settings=parse_range(settings, "--settings"),
