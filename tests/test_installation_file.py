@@ -141,3 +141,14 @@ def test_regional_rules_default_from_the_supply():
     office = load_installation(demo / "cedar_row_offices.toml")
     assert (school.supply.rules, office.supply.rules) == ("IEC", "US")
     assert {c.breaker_curve for c in office.circuits} <= {"TM", "B", "C", "D"}
+
+
+def test_compliance_on_date(folder):
+    # The date the rules are taken at is data: a submittal is judged on its own date
+    # (common practice), so a file's [compliance] on_date (or its project date) makes the
+    # output the same on any day; a date that is not one is a located error.
+    p = write(folder, BASE + '\n[compliance]\non_date = "2024-08-31"\n')
+    assert load_installation(p).compliance.on_date == "2024-08-31"
+    p = write(folder, BASE + '\n[compliance]\non_date = "last spring"\n')
+    r = CliRunner().invoke(main, ["assess", str(p)])
+    assert r.exit_code == 2 and "compliance.on_date: expected a date YYYY-MM-DD" in r.output

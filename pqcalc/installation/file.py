@@ -27,7 +27,8 @@ File layout (see ``demo_installations/harbour_school.toml`` for a commented exam
                    step_deg, seed
     [pcc]          demand_current_a, short_circuit_a, voltage_kv, ieee519_edition
     [compliance]   strict_dimmed (dimmed states behind independent dimmers pass/fail),
-                   eu_ecodesign (EU light-source rules at full output; default: 230/400 V 50 Hz)
+                   eu_ecodesign (EU light-source rules at full output; default: 230/400 V 50 Hz),
+                   on_date (the date the rules are taken at; default: the project's date)
     [report]       paper ("A4" | "Letter"; default from the rule set: A4 IEC, Letter US)
 
 A fixture type's ``builtin_dimming = true`` says the equipment dims itself: its dimmed
@@ -630,14 +631,26 @@ def _pcc(fld: Fields, data: dict) -> PccSpec:
 
 def _compliance(fld: Fields, data: dict) -> ComplianceOptions:
     cp = fld.table(data, "compliance", "compliance", required=False)
-    fld.unknown(cp, {"strict_dimmed", "eu_ecodesign"}, "compliance")
+    fld.unknown(cp, {"strict_dimmed", "eu_ecodesign", "on_date"}, "compliance")
     strict = cp.get("strict_dimmed", default_of(ComplianceOptions, "strict_dimmed"))
     if not isinstance(strict, bool):
         raise fld.error("compliance.strict_dimmed", "true or false", strict)
     eu = cp.get("eu_ecodesign", default_of(ComplianceOptions, "eu_ecodesign"))
     if eu is not None and not isinstance(eu, bool):
         raise fld.error("compliance.eu_ecodesign", "true or false", eu)
-    return ComplianceOptions(strict, eu)
+    day = cp.get("on_date")
+    if day is not None:
+        import datetime as _dt
+
+        if isinstance(day, _dt.datetime):
+            day = day.date()
+        if not isinstance(day, _dt.date):
+            try:
+                day = _dt.date.fromisoformat(str(day))
+            except ValueError:
+                raise fld.error("compliance.on_date", "a date YYYY-MM-DD", day) from None
+        day = day.isoformat()
+    return ComplianceOptions(strict, eu, day)
 
 
 _PROJECT_TEXT = ("name", "site", "client", "document_number", "revision", "status", "date",

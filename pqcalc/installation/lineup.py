@@ -381,8 +381,8 @@ def evaluate_lineup(inst: Installation, equipment_class: EquipmentClass = "C", *
         2021/341); None takes ``[compliance] eu_ecodesign`` (default: on for a 230/400 V
         50 Hz supply, :func:`eu_ecodesign_applies`).
     on_date
-        Date the EU rules are taken at (``datetime.date`` or ``"YYYY-MM-DD"``; default
-        today).
+        Date the EU rules are taken at (``datetime.date`` or ``"YYYY-MM-DD"``); None takes
+        ``[compliance] on_date``, else the project's date when it is one, else today.
     """
     from ..standards import DEFAULT_EDITION, check_edition, evaluate_dimmable, evaluate_fixture
     from ..standards.iec61000_3_2 import SCOPE_MIN_VOLTAGE_V
@@ -390,6 +390,13 @@ def evaluate_lineup(inst: Installation, equipment_class: EquipmentClass = "C", *
     ed = check_edition(DEFAULT_EDITION if edition is None else edition)
     strict = inst.compliance.strict_dimmed if strict_dimmed is None else bool(strict_dimmed)
     eu = eu_ecodesign_applies(inst) if eu_ecodesign is None else bool(eu_ecodesign)
+    if on_date is None:
+        on_date = inst.compliance.on_date
+    if on_date is None:
+        try:
+            on_date = _dt.date.fromisoformat(inst.project.date.strip()[:10])
+        except ValueError:
+            on_date = None
     day = _on_date(on_date)
     sup = inst.supply
     v, f = sup.voltage_ln_v, sup.frequency_hz

@@ -421,6 +421,9 @@ class ComplianceOptions:
 
     strict_dimmed: bool = False
     eu_ecodesign: bool | None = None
+    #: the date the rules are taken at (ISO ``YYYY-MM-DD``); None: the project's date when
+    #: it is one, else today (a submittal is judged on the rules of its own date)
+    on_date: str | None = None
 
 
 @dataclass(frozen=True)
