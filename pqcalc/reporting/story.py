@@ -616,9 +616,10 @@ def assumptions_section(a: Assessment, version: str) -> list[Flowable]:
         except ValueError as e:
             out.append(para(f"(component values could not be listed: {e})", "note"))
             continue
-        out.append(table([Col("component", 1.3), Col("value", 0.8, "right"),
-                          Col("origin", 0.8), Col("meaning", 3.0)],
-                         [(r.name, si(r.value, r.unit), r.origin, r.meaning) for r in prs]))
+        tab = table([Col("component", 1.3), Col("value", 0.8, "right"),
+                     Col("origin", 0.8), Col("meaning", 3.0)],
+                    [(r.name, si(r.value, r.unit), r.origin, r.meaning) for r in prs])
+        out[-2:] = [keep(out[-2:] + [tab])]  # heading, model line and table on one page
     out += heading("Dimmers", 2)
     sets = dimmer_param_sets(inst)
     if not sets:
@@ -626,9 +627,10 @@ def assumptions_section(a: Assessment, version: str) -> list[Flowable]:
     for title, ids, prs in sets:
         out += heading(f"Dimmer: {title}", 3)
         out.append(para(f"Used by {plural(len(ids), 'circuit')}: {', '.join(ids)}.", "note"))
-        out.append(table([Col("parameter", 1.3), Col("value", 0.8, "right"),
-                          Col("origin", 0.8), Col("meaning", 3.0)],
-                         [(r.name, si(r.value, r.unit), r.origin, r.meaning) for r in prs]))
+        tab = table([Col("parameter", 1.3), Col("value", 0.8, "right"),
+                     Col("origin", 0.8), Col("meaning", 3.0)],
+                    [(r.name, si(r.value, r.unit), r.origin, r.meaning) for r in prs])
+        out[-2:] = [keep(out[-2:] + [tab])]
     out += heading("Circuits", 2)
     rows = []
     for c in inst.circuits:
