@@ -23,6 +23,7 @@ hatching and text stay as drawn; pdfrw carries the page across).
 
 from __future__ import annotations
 
+import functools
 import io
 import os
 import re
@@ -101,6 +102,16 @@ def _pieces(word: str) -> list[str]:
 
 
 def fit_lines(text: str, width: float, font: str, size: float) -> list[str]:
+    """See :func:`_fit_lines` (cached: table cells repeat, "ok", "L1", a scenario name)."""
+    return list(_fit_cached(str(text), round(width, 3), font, size))
+
+
+@functools.lru_cache(maxsize=65536)
+def _fit_cached(text: str, width: float, font: str, size: float) -> tuple[str, ...]:
+    return tuple(_fit_lines(text, width, font, size))
+
+
+def _fit_lines(text: str, width: float, font: str, size: float) -> list[str]:
     """``text`` broken into lines no wider than ``width`` [pt] in ``font`` at ``size``.
 
     Lines break at spaces (the space is dropped) or after a hyphen, underscore or slash
