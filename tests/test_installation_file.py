@@ -9,6 +9,7 @@ import pytest
 from click.testing import CliRunner
 
 from pqcalc.cli import main
+from pqcalc.errors import InputError
 from pqcalc.installation import load_installation
 
 DEMO = Path(__file__).resolve().parents[1] / "demo_installations"
@@ -152,3 +153,24 @@ def test_compliance_on_date(folder):
     p = write(folder, BASE + '\n[compliance]\non_date = "last spring"\n')
     r = CliRunner().invoke(main, ["assess", str(p)])
     assert r.exit_code == 2 and "compliance.on_date: expected a date YYYY-MM-DD" in r.output
+
+
+def test_a_wrong_length_setting_list_is_blamed_on_its_circuit(folder):
+    # three scenarios named; circuit c2 gives two settings: the error names c2's line and
+    # field, not analysis.scenarios
+    text = BASE.replace('[[panels]]', '[analysis]\nscenarios = ["day", "evening", "night"]\n\n'
+                        '[[panels]]', 1).replace(
+        'id = "c2"\nline = "L2"\n', 'id = "c2"\nline = "L2"\ndimmer = "leading-edge"\n'
+        'conduction_deg = [180, 90]\n')
+    p = write(folder, text)
+    line = text.splitlines().index("conduction_deg = [180, 90]") + 1
+    with pytest.raises(InputError, match=rf"site\.toml:{line}: panels\[0\]\.circuits\[1\]\."
+                                         r"conduction_deg: expected one setting or 3 \(one per "
+                                         r"scenario named in analysis\.scenarios\), got '2 "
+                                         r"settings'"):
+        load_installation(p)
+    # no circuit gives several settings: then the names are what is wrong
+    one = BASE.replace('[[panels]]', '[analysis]\nscenarios = ["day", "night"]\n\n[[panels]]', 1)
+    with pytest.raises(InputError, match=r"analysis\.scenarios: expected 1 name \(one per "
+                                         r"scenario: the circuits give 1 setting\)"):
+        load_installation(write(folder, one))

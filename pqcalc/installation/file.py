@@ -556,19 +556,33 @@ def _panels(fld: Fields, data: dict, supply: SupplySpec, fixtures: dict[str, Fix
     return tuple(panels)
 
 
-def _n_scenarios(fld: Fields, panels: tuple[Panel, ...]) -> int:
+def _n_scenarios(fld: Fields, panels: tuple[Panel, ...], named: int | None = None) -> int:
+    """The number of scenarios: the settings of the circuits that give several; with
+    ``named`` (the number of analysis.scenarios names) a circuit that gives another number
+    of settings is the one blamed."""
     nscen = 1
     for i, p in enumerate(panels):
         for j, c in enumerate(p.circuits):
             n = c.n_settings
             if n > 1:
+                key = "knob" if c.knob is not None else "conduction_deg"
+                if named and n != named:
+                    raise fld.error(f"panels[{i}].circuits[{j}].{key}",
+                                    f"one setting or {named} (one per scenario named in "
+                                    "analysis.scenarios)", f"{n} settings")
                 if nscen > 1 and n != nscen:
-                    key = "knob" if c.knob is not None else "conduction_deg"
                     raise fld.error(f"panels[{i}].circuits[{j}].{key}",
                                     f"one setting or {nscen} (one per scenario, as another "
                                     "circuit gives)", f"{n} settings")
                 nscen = n
     return nscen
+
+
+def _named_scenarios(data: dict) -> int | None:
+    """How many scenario names analysis.scenarios gives (None: not a list of them)."""
+    an = data.get("analysis")
+    names = an.get("scenarios") if isinstance(an, dict) else None
+    return len(names) if isinstance(names, list) and names else None
 
 
 def _analysis(fld: Fields, data: dict, nscen: int) -> AnalysisOptions:
@@ -579,7 +593,9 @@ def _analysis(fld: Fields, data: dict, nscen: int) -> AnalysisOptions:
         raise fld.error("analysis.supply_interaction", "true or false", si)
     names = fld.list_(an, "scenarios", "analysis.scenarios", [])
     if names and len(names) != nscen:
-        raise fld.error("analysis.scenarios", f"{nscen} names (one per scenario)", names)
+        raise fld.error("analysis.scenarios",
+                        f"{nscen} name{'s' if nscen > 1 else ''} (one per scenario: the "
+                        f"circuits give {nscen} setting{'s' if nscen > 1 else ''})", names)
     for k, x in enumerate(names):
         if not isinstance(x, str):
             raise fld.error(f"analysis.scenarios[{k}]", "a scenario name (text)", x)
@@ -718,7 +734,7 @@ def load_installation(path: str | Path, captures_outside: bool | None = None) ->
     fixtures = _fixtures(fld, data, p.parent, supply, outside)
     feeders = _feeders(fld, data)
     panels = _panels(fld, data, supply, fixtures, feeders)
-    analysis = _analysis(fld, data, _n_scenarios(fld, panels))
+    analysis = _analysis(fld, data, _n_scenarios(fld, panels, _named_scenarios(data)))
     return Installation(project, supply, fixtures, panels, feeders, _diversity(fld, data),
                         analysis, _pcc(fld, data), str(p), compliance=_compliance(fld, data),
                         report=_report(fld, data))
