@@ -119,3 +119,24 @@ def test_dimmer_compatibility_is_judged_by_the_light():
     assert [c.status for c in bad] == ["fail"] and bad[0].value == pytest.approx(3.2)
     assert [c.status for c in ck.dimmer_compatibility(("glow-when-off",), None,
                                                       "leading-edge")] == ["warn"]
+
+
+def test_an_unsolved_circuit_is_not_judged_against_its_breaker():
+    # a circuit without a solution has no current: its breaker load is information ("not
+    # judged"), never a pass at 0.00 A (what the CSV export used to carry)
+    from types import SimpleNamespace
+
+    from pqcalc.installation.model import Installation, ModelledFixture, Panel, SupplySpec
+
+    c = _circuit()
+    inst = Installation(None, SupplySpec("single-phase", 230.0, 50.0),  # type: ignore[arg-type]
+                        {"lamp": ModelledFixture("lamp", 10.0, model="bulk-cap")},
+                        (Panel("P1", (c,)),))
+    groups = (SimpleNamespace(fixture="lamp", count=1, i_rms_one_a=0.05, p_w=10.0),)
+    cs = SimpleNamespace(groups=groups, flags=("no-solution",), light=None)
+    checks, _, _ = ck.circuit_checks(inst, IEC, c, cs, 0.0, None, ())
+    load = [x for x in checks if x.name == "breaker load"]
+    assert [x.status for x in load] == ["info"] and "not judged" in load[0].message
+    solved = SimpleNamespace(groups=groups, flags=(), light=None)
+    checks, _, _ = ck.circuit_checks(inst, IEC, c, solved, 0.0, None, ())
+    assert [x.status for x in checks if x.name == "breaker load"] == ["pass"]
