@@ -316,6 +316,13 @@ def sine(
     )
 
 
+#: How far the fundamental's spectral peak must stand above the median of the record's
+#: spectrum [-] for :func:`estimate_frequency` to take it as the mains: a periodic record's
+#: fundamental is orders of magnitude above the leakage floor, a spike or white noise is
+#: flat (a ratio of a few).
+FUNDAMENTAL_PROMINENCE = 20.0
+
+
 def estimate_frequency(
     x: np.ndarray, sample_rate_hz: float, nominal_hz: float | None = None
 ) -> float:
@@ -363,6 +370,11 @@ def estimate_frequency(
     band = (f >= lo) & (f <= hi)
     if not np.any(band) or spec[band].max() <= 0:
         raise InputError(f"no mains fundamental found between {lo:g} and {hi:g} Hz")
+    # a fundamental stands far above the spectrum's typical level (its leakage floor); a
+    # spike or noise spreads evenly and has none: no peak to refine
+    if spec[band].max() < FUNDAMENTAL_PROMINENCE * float(np.median(spec[1:])):
+        raise InputError(f"no mains fundamental stands out between {lo:g} and {hi:g} Hz (the "
+                         "record looks like noise, a step or a single spike)")
     f0 = float(f[band][np.argmax(spec[band])])
     # Gauss-Newton refinement of a least-squares fit of a DC term plus harmonics 1..H on a
     # common fundamental frequency: first the fundamental alone (wide capture range), then

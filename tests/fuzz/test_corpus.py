@@ -146,6 +146,17 @@ def test_3_all_zero_current_is_refused_both_ways(tmp_path, windows):
     _clean_error(o, "current")
 
 
+@pytest.mark.parametrize("windows", [[], ["--windows"]])
+def test_long_fuzz_spike_without_a_fundamental_is_quick(tmp_path, windows):
+    # found by the long run: a constant current with one spike took over 30 s on a loaded
+    # machine (the frequency fit chased a fundamental that is not there)
+    p = tmp_path / "spike.csv"
+    p.write_text("Time (s)\tcurrent\n" + "".join(
+        f"{k / 2000!r}\t{229998 if k == 1 else 1.0}\n" for k in range(6000)))
+    o = run_cli(["analyze", str(p), "--delimiter", "tab", *windows], time_bound_s=10)
+    _clean_error(o, "no mains fundamental stands out")
+
+
 # --------------------------------------------------------------- 4. extreme numbers
 @pytest.mark.parametrize("old,new,needle", [
     ("breaker_a = 16", "breaker_a = " + "9" * 400, "breaker_a"),       # past the float range
