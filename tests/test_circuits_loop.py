@@ -57,6 +57,13 @@ def test_compiled_loop_matches_python_loop(model, power, dimmer, monkeypatch):
     if isinstance(a, ConvergenceError) or isinstance(b, ConvergenceError):
         assert isinstance(a, ConvergenceError) and isinstance(b, ConvergenceError)
         return
+    if "long-transient" in a.flags or "long-transient" in b.flags:
+        # no periodic state: both loops report a record of the same length; its latching
+        # pattern is irregular (chaotic), so a rounding apart gives another record, and
+        # only the kind of result is compared
+        assert "long-transient" in a.flags and "long-transient" in b.flags
+        assert a.record_cycles == b.record_cycles
+        return
     i1 = abs(b.current_phasors_a[1])
     assert np.max(np.abs(a.current_phasors_a - b.current_phasors_a)) < 1e-8 * i1
     assert a.i_rms_a == pytest.approx(b.i_rms_a, rel=1e-8)

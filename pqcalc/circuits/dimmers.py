@@ -2,10 +2,13 @@
 
 - **leading edge, triac**: fired by an RC timing network and a bidirectional trigger diode
   (breakover about 32 V, breakback a few volts; common practice) when the setting is a knob
-  position, or by an ideal trigger at ``180 - conduction_deg`` when the setting is an angle.
-  The triac conducts during the gate pulse; it stays on only if its current has reached the
-  latching current by the pulse's end, and turns off when its current has stayed below the
-  holding current for the recovery time (at once when the current passes through zero).
+  position; when the setting is an angle, by a trigger at ``180 - conduction_deg`` (at most
+  its ``max_conduction_deg``, the top the firing network reaches) followed, while the triac
+  has not latched, by the pulses of that network as its timing capacitor recharges
+  (:func:`refire_phases`). The triac conducts during the gate pulse; it stays on only if
+  its current has reached the latching current by the pulse's end, and turns off when its
+  current has stayed below the holding current for the recovery time (at once when the
+  current passes through zero).
   With both currents 0 it is an ideal switch that opens at current zero.
   A snubber and the dimmer's own supply (a two-wire electronic dimmer draws it through the
   load while off) leak current into the lamps.
@@ -20,6 +23,8 @@ cycles come out of the simulation (:mod:`pqcalc.circuits.pwl`), they are not ass
 
 from __future__ import annotations
 
+import functools
+
 import numpy as np
 
 from ..errors import InputError
@@ -27,9 +32,155 @@ from .network import Network
 from .pwl import EPS_I_A, Automaton
 from .spec import DimmerSpec, Supply
 
-__all__ = ["dimmer_params", "resolve_dimmer", "build_dimmer", "conduction_from_knob"]
+__all__ = ["dimmer_params", "resolve_dimmer", "build_dimmer", "conduction_from_knob",
+           "network_delay_s", "triac_max_conduction_deg", "refire_phases", "MAX_PULSES"]
 
 SWITCH = "dim.S"
+#: at most this many trigger pulses per half cycle in the conduction-angle mode (the set
+#: one and its re-fires); the train ends earlier where the network cannot recharge before
+#: the zero crossing
+MAX_PULSES = 400
+
+
+def network_delay_s(r_ohm: float, c_f: float, v_pk_v: float, frequency_hz: float,
+                    breakover_v: float, t0_s: float = 0.0, v0_v: float = 0.0) -> float | None:
+    """First time [s] in ``[t0_s, 1/(2f))`` at which the timing capacitor of an RC firing
+    network reaches the trigger diode's breakover voltage, or None when it does not in the
+    half cycle.
+
+    The network (``r_ohm`` in series with ``c_f``) is driven by ``v_pk_v sin(2 pi f t)``
+    (the voltage across the off triac taken as the line voltage: the lamp draws no current
+    while the triac is off) from ``v0_v`` at ``t0_s``. Closed form of the first-order
+    circuit: ``v(t) = A sin(w t - phi) + (v0 - A sin(w t0 - phi)) exp(-(t - t0) / RC)``,
+    ``A = Vpk / sqrt(1 + (w RC)^2)``, ``phi = atan(w RC)``; the crossing is bracketed on a
+    grid of 4096 steps per half cycle and bisected.
+
+    References
+    ----------
+    Any circuits text on the RC circuit driven by a sinusoid (particular solution plus the
+    decaying homogeneous one), e.g. Hayt, Kemmerly, Durbin, *Engineering Circuit
+    Analysis*, ch. 8 and 10 (from memory).
+    """
+    w = 2.0 * np.pi * frequency_hz
+    tau = r_ohm * c_f
+    half = 0.5 / frequency_hz
+    if t0_s >= half:
+        return None
+    a = v_pk_v / np.sqrt(1.0 + (w * tau) ** 2)
+    phi = np.arctan(w * tau)
+    k0 = v0_v - a * np.sin(w * t0_s - phi)
+
+    def v(t):
+        return a * np.sin(w * t - phi) + k0 * np.exp(-(t - t0_s) / tau)
+
+    ts = np.linspace(t0_s, half, 4097)
+    above = np.nonzero(v(ts) >= breakover_v)[0]
+    if not above.size:
+        return None
+    i = int(above[0])
+    if i == 0:
+        return float(t0_s)
+    lo, hi = float(ts[i - 1]), float(ts[i])
+    for _ in range(60):
+        mid = 0.5 * (lo + hi)
+        if v(mid) >= breakover_v:
+            hi = mid
+        else:
+            lo = mid
+    return hi
+
+
+def _top_deg(r_min, c, v_pk, f, vbo) -> float:
+    d = network_delay_s(r_min, c, v_pk, f, vbo)
+    if d is None:
+        raise InputError(f"dimmer breakover_v: the firing network never reaches {vbo:g} V on "
+                         f"a {v_pk / np.sqrt(2):g} V supply; expected a breakover below the "
+                         "line's peak")
+    return 180.0 - d * 360.0 * f
+
+
+def triac_max_conduction_deg(p: dict, supply: Supply) -> float:
+    """The largest conduction angle [deg] of a triac dimmer: 180 less the smallest delay of
+    its firing network, the knob at 1 (timing resistance ``r_min_ohm``), the capacitor
+    starting discharged at the zero crossing (it discharged through the conducting triac
+    in the half cycle before), the line voltage driving it (:func:`network_delay_s`).
+
+    With the default components (3.3 kohm, 100 nF, 32 V breakover; common practice) it is
+    169.4 deg at 230 V 50 Hz and 162.6 deg at 120 V 60 Hz: a trigger-diode network cannot
+    fire at the zero crossing, it must first charge to the breakover voltage.
+    """
+    return _top_deg(p["r_min_ohm"], p["c_timing_f"], np.sqrt(2.0) * supply.v_rms_v,
+                    supply.frequency_hz, p["breakover_v"])
+
+
+def _timing_r(p: dict, v_pk: float, f: float, first_s: float) -> float:
+    """The timing resistance [ohm] whose network first fires at ``first_s`` (bisected
+    between the knob's ends, ``r_min_ohm`` to ``r_min_ohm + r_pot_ohm``)."""
+    c, vbo = p["c_timing_f"], p["breakover_v"]
+    lo, hi = p["r_min_ohm"], p["r_min_ohm"] + p["r_pot_ohm"]
+
+    def late(r):  # the network fires after first_s (or not at all)
+        d = network_delay_s(r, c, v_pk, f, vbo)
+        return d is None or d > first_s
+
+    if late(lo):
+        return lo
+    if not late(hi):
+        return hi
+    for _ in range(50):
+        mid = np.sqrt(lo * hi)
+        if late(mid):
+            hi = mid
+        else:
+            lo = mid
+    return float(np.sqrt(lo * hi))
+
+
+def refire_phases(p: dict, supply: Supply, first_s: float) -> tuple[float, ...]:
+    """Trigger pulses of a triac set to a conduction angle, as phases [s] in the half
+    cycle: the set one at ``first_s`` (``180 - conduction_deg``), then the re-fires of its
+    firing network while the triac has not latched.
+
+    The rule: the conduction-angle mode stands for the same RC network and trigger diode
+    as the knob mode, its timing resistance set (:func:`_timing_r`) so that it first
+    fires at the set angle. At each pulse the trigger diode breaks back (the capacitor
+    drops by ``breakback_v``), the conducting triac discharges it further over the gate
+    pulse (time constant R C), and it recharges from the line through the same resistance
+    until it reaches ``breakover_v`` again: the next pulse (:func:`network_delay_s` from
+    that state; the closed form of the RC circuit). So the network keeps firing every
+    recharge interval, at most ``MAX_PULSES`` times, until the current latches or the half
+    cycle ends. This is what lets a rectifier lamp (its capacitor holding the lamp's input
+    above the line early in the half cycle, so that the first pulse finds no current)
+    latch once the line voltage exceeds its capacitor's, as it does behind a real
+    dimmer. Once the triac has latched the train stops for that half cycle (the automaton
+    marks the release, :class:`Triac`): the rule follows the network up to latching and
+    does not model it after a release (the knob mode does, with the network in the
+    circuit). The line voltage drives the network at its fundamental's peak (the
+    voltage across the off triac is taken as the line's: the lamp draws no current while
+    the triac is off).
+    """
+    f = supply.frequency_hz
+    half = 0.5 / f
+    v_pk = np.sqrt(2.0) * supply.v_rms_v
+    return _refire(tuple(sorted(p.items())), v_pk, f, half, float(first_s))
+
+
+@functools.lru_cache(maxsize=256)
+def _refire(items, v_pk, f, half, first_s) -> tuple[float, ...]:
+    p = dict(items)
+    r = _timing_r(p, v_pk, f, first_s)
+    c, vbo, vbb, g = p["c_timing_f"], p["breakover_v"], p["breakback_v"], p["gate_pulse_s"]
+    out = [first_s]
+    t = first_s
+    while len(out) < MAX_PULSES:
+        ts = t + g
+        v0 = (vbo - vbb) * np.exp(-g / (r * c))
+        d = network_delay_s(r, c, v_pk, f, vbo, ts, v0)
+        if d is None or d + g >= half or d <= t:
+            break
+        out.append(d)
+        t = d
+    return tuple(out)
 
 
 def dimmer_params(spec_kind: str, switch: str, supply: Supply) -> list[dict]:
@@ -59,6 +210,14 @@ def dimmer_params(spec_kind: str, switch: str, supply: Supply) -> list[dict]:
             ("r_snubber_ohm", "ohm", "snubber resistor", 100.0),
             ("r_supply_ohm", "ohm", "the dimmer's own supply drawn through the load", 330e3),
         ]
+        d = {n: x for n, _u, _d, x in rows}
+        top = _top_deg(d["r_min_ohm"], d["c_timing_f"], np.sqrt(2.0) * v, f, d["breakover_v"])
+        rows.append(("max_conduction_deg", "deg",
+                     "largest conduction angle: 180 less the firing network's smallest delay "
+                     "(knob at 1, r_min_ohm and c_timing_f charging to breakover_v from the "
+                     "zero crossing; the default follows the network's own values, "
+                     f"{top:.1f} deg with the defaults here); a setting above it conducts it",
+                     top))
     else:
         rows = common + [
             ("min_conduction_deg", "deg", "conduction angle at knob 0", 20.0),
@@ -90,7 +249,12 @@ def resolve_dimmer(spec: DimmerSpec, supply: Supply) -> dict:
                              f"{'>= 0' if r['name'] in zero_ok else '> 0'} [{r['unit']}], got "
                              f"{val:g}")
         out[r["name"]] = val
-    if "max_conduction_deg" in out:
+    if spec.uses_triac:
+        if "max_conduction_deg" not in given:
+            out["max_conduction_deg"] = triac_max_conduction_deg(out, supply)
+        if not 0 < out["max_conduction_deg"] <= 180:
+            raise InputError("dimmer max_conduction_deg: expected above 0 and at most 180")
+    elif "max_conduction_deg" in out:
         if not out["min_conduction_deg"] < out["max_conduction_deg"] <= 180:
             raise InputError("dimmer max_conduction_deg: expected above min_conduction_deg and "
                              "at most 180")
@@ -98,8 +262,11 @@ def resolve_dimmer(spec: DimmerSpec, supply: Supply) -> dict:
 
 
 def conduction_from_knob(spec: DimmerSpec, p: dict) -> float | None:
-    """Set conduction angle [deg] of a transistor dimmer; None for a triac on its knob."""
+    """Set conduction angle [deg]; None for a triac on its knob. A triac set above its
+    ``max_conduction_deg`` conducts at most that (its firing network cannot fire sooner)."""
     if spec.conduction_deg is not None:
+        if spec.uses_triac and "max_conduction_deg" in p:
+            return min(spec.conduction_deg, p["max_conduction_deg"])
         return spec.conduction_deg
     if spec.kind == "none":
         return 180.0
@@ -174,7 +341,9 @@ class Triac(Automaton):
     """Triac with latching and holding, fired by the RC network's trigger diode or by an
     ideal trigger at a fixed angle. States: ``("off",)``, ``("gate", t_end, sign)``,
     ``("on", sign)``, ``("low", t_end, sign)`` (below holding, turning off at ``t_end``
-    unless the current recovers; a current zero turns it off at once).
+    unless the current recovers; a current zero turns it off at once), and, set to an
+    angle, ``("off", 1.0)``: released after latching in this half cycle, so no re-fire
+    pulse until the next half cycle's set one (see :func:`refire_phases`).
 
     ``t_end`` is held as a phase of the mains cycle (``[0, 2H)``), not as an absolute time:
     a run starts each cycle at t = 0 (the source repeats every cycle), so a gate pulse or a
@@ -183,10 +352,13 @@ class Triac(Automaton):
     gate pulse (conducting) through the whole next run, and every run after it."""
 
     def __init__(self, p: dict, half_s: float, fire_s: float | None, ct_state: int | None,
-                 n_x: int, n_u: int, i_row_fn, v_row_fn) -> None:
+                 n_x: int, n_u: int, i_row_fn, v_row_fn,
+                 pulses: tuple[float, ...] | None = None) -> None:
         self.p = p
         self.H = half_s
         self.fire_at = fire_s
+        # trigger phases in the half cycle: the set one, then its re-fires
+        self.pulses = tuple(pulses) if pulses else (() if fire_s is None else (fire_s,))
         self.j = ct_state
         self.n = n_x + n_u
         self.nx = n_x
@@ -232,11 +404,17 @@ class Triac(Automaton):
         if s[0] == "low":
             return self._at(s[1], t), "release"
         if s[0] == "off" and self.fire_at is not None:
+            # the next pulse of the train; after a release in this half cycle only the next
+            # half cycle's set pulse
+            done = len(s) > 1 and s[1] != 0
             k = np.floor(t / self.H)
             for kk in (k, k + 1):
-                tt = kk * self.H + self.fire_at
-                if tt > t + 1e-13:
-                    return tt, "fire"
+                for e, ph in enumerate(self.pulses):
+                    if e > 0 and (done or kk != k):
+                        break
+                    tt = kk * self.H + ph
+                    if tt > t + 1e-13:
+                        return tt, "fire"
         return np.inf, None
 
     def fire(self, tag, s, t, x, value):
@@ -261,7 +439,7 @@ class Triac(Automaton):
         if tag == "recover":
             return ("on", s[2]), x
         if tag == "release":
-            return ("off",), x
+            return (("off", 1.0) if self.fire_at is not None else ("off",)), x
         return s, x
 
     def compiled_spec(self, net):
@@ -272,11 +450,12 @@ class Triac(Automaton):
                 [self.H, p["holding_current_a"], p["latching_current_a"], p["gate_pulse_s"],
                  p.get("recovery_s", 0.0), p["breakover_v"], p["breakback_v"],
                  np.nan if self.fire_at is None else self.fire_at,
-                 -1.0 if self.j is None else float(self.j), float(net.index[SWITCH])], [], [])
+                 -1.0 if self.j is None else float(self.j), float(net.index[SWITCH])],
+                list(self.pulses), [0.0] * len(self.pulses))
 
     def to_row(self, s):
         if s[0] == "off":
-            return (0.0, 0.0, 0.0)
+            return (0.0, float(s[1]) if len(s) > 1 else 0.0, 0.0)
         if s[0] == "on":
             return (2.0, 0.0, s[1])
         return (1.0 if s[0] == "gate" else 3.0, s[1], s[2])
@@ -284,7 +463,7 @@ class Triac(Automaton):
     def from_row(self, row):
         code = int(row[0])
         if code == 0:
-            return ("off",)
+            return ("off",) if row[1] == 0 else ("off", 1.0)
         if code == 2:
             return ("on", float(row[2]))
         return ("gate" if code == 1 else "low", float(row[1]), float(row[2]))
@@ -329,6 +508,7 @@ def build_dimmer(net: Network, spec: DimmerSpec, p: dict, supply: Supply, din: s
         net.R("dim.R_snubber", din, "dim.sn", p["r_snubber_ohm"])
         net.C("dim.C_snubber", "dim.sn", dout, p["c_snubber_f"])
     fire_s: float | None = None
+    pulses: tuple[float, ...] | None = None
     if spec.knob is not None:
         r_t = p["r_min_ohm"] + (1.0 - spec.knob) * p["r_pot_ohm"]
         net.R("dim.R_timing", din, "dim.gt", r_t)
@@ -337,12 +517,14 @@ def build_dimmer(net: Network, spec: DimmerSpec, p: dict, supply: Supply, din: s
         fire_s = (180.0 - cond) / 180.0 * half
         if cond <= 0:
             fire_s = None
+        else:
+            pulses = refire_phases(p, supply, fire_s)
 
     def make():
         ct = net.state_of.get("dim.C_timing")
         idx = net.index[SWITCH]
         tr = Triac(p, half, fire_s, ct, net.n_x, net.n_u,
-                   lambda ms: ms.Q[idx], lambda ms: ms.Q[net.n_e + idx])
+                   lambda ms: ms.Q[idx], lambda ms: ms.Q[net.n_e + idx], pulses)
         return tr
 
     return make

@@ -16,7 +16,9 @@ engine enlarges it and calls the loop again, which continues where it stopped.
 
 State encoding: diodes ``dio[j]`` 0/1; each controller one row ``aut[ia] = (a, b, c)``:
 window switch ``(state, 0, 0)``; triac ``(code, t_end phase, sign)`` with code 0 off,
-1 gate, 2 on, 3 low; converter ``(cell, 0, 0)``; tapped regulator ``(segment, 0, 0)``.
+1 gate, 2 on, 3 low (off: ``(0, released, 0)``, released 1 after a release in this half
+cycle when set to an angle; its pulse phases in ``aut_b``); converter ``(cell, 0, 0)``;
+tapped regulator ``(segment, 0, 0)``.
 """
 
 from __future__ import annotations
@@ -281,7 +283,8 @@ def _fire(kind, who, code, t, x, dio, aut, mi, mQ, aut_type, aut_f, aut_b, aut_n
         elif code == T_RECOVER:
             aut[ia, 0], aut[ia, 1] = 2.0, 0.0
         elif code == T_RELEASE:
-            aut[ia, 0], aut[ia, 1], aut[ia, 2] = 0.0, 0.0, 0.0
+            # set to an angle: released after latching, no re-fire in this half cycle
+            aut[ia, 0], aut[ia, 1], aut[ia, 2] = 0.0, (0.0 if math.isnan(f[7]) else 1.0), 0.0
     elif ty == CONVERTER:
         s = int(aut[ia, 0])
         v = x[int(f[0])]
@@ -328,11 +331,19 @@ def _next_time(t, aut, aut_type, aut_f, aut_b, aut_b2, aut_nb):
                     te += T
                 tt, code = te, (T_GATE_END if st == 1 else T_RELEASE)
             elif st == 0 and not math.isnan(f[7]):
+                # the pulse train (Triac.next_time): after a release in this half cycle
+                # (aut[ia, 1] != 0) only the next half cycle's set pulse
+                done = aut[ia, 1] != 0.0
                 k = math.floor(t / H)
                 for kk in (k, k + 1):
-                    te = kk * H + f[7]
-                    if te > t + 1e-13:
-                        tt, code = te, T_FIRE
+                    for e in range(max(aut_nb[ia], 1)):
+                        if e > 0 and (done or kk != k):
+                            break
+                        te = kk * H + (aut_b[ia, e] if aut_nb[ia] > 0 else f[7])
+                        if te > t + 1e-13:
+                            tt, code = te, T_FIRE
+                            break
+                    if code >= 0:
                         break
         if tt < best:
             best, bia, bcode = tt, ia, code

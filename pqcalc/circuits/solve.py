@@ -13,16 +13,21 @@ orbit, over 2, 3 and 4 cycles (a triac that fires every few half cycles: flag
   a bracket; where the dimmer stops holding below some
   current demand the loop takes the side that delivers the target).
 
-Flags: ``no-latch`` (a gate pulse ended with the triac off, or it dropped out within
-``NO_HOLD_DEG`` of firing), ``misfire``, ``re-fire``, ``subharmonic``, ``asymmetric``,
+Flags: ``no-latch`` (a half cycle was fired but no pulse latched the triac, or it dropped
+out within ``NO_HOLD_DEG`` of latching), ``misfire``, ``re-fire``, ``subharmonic``, ``asymmetric``,
 ``drop-out`` (a converter's lock-out stopped it), ``glow-when-off`` (light while the dimmer
-is off, from its own supply and snubber leakage).
+is off, from its own supply and snubber leakage), ``long-transient`` (no periodic state of
+up to 4 cycles exists: a record of up to ``LONG_CYCLES`` cycles is simulated after
+``LONG_SETTLE_CYCLES`` cycles of settling, and its mean cycle reported: the averaged
+spectrum at orders 0..50, exact over the record; the energy between the orders is
+``Solution.interharmonic_a``; the circuit stays in every sum).
 """
 
 from __future__ import annotations
 
 import functools
-from dataclasses import dataclass
+import time
+from dataclasses import dataclass, replace
 from typing import Literal, get_args
 
 import numpy as np
@@ -39,7 +44,7 @@ __all__ = ["solve_circuit", "Solution", "GroupResult", "Stresses", "Flag", "FLAG
            "SAMPLES_PER_CYCLE"]
 
 Flag = Literal["no-latch", "misfire", "re-fire", "subharmonic", "asymmetric", "drop-out",
-               "glow-when-off"]
+               "glow-when-off", "long-transient"]
 FLAGS: tuple[str, ...] = get_args(Flag)
 SAMPLES_PER_CYCLE = 4096
 #: a triac fired in a half cycle that conducts less than this [deg] has not stayed latched
@@ -53,6 +58,14 @@ GUESS_MIN_CYCLES = 4
 #: mains cycles simulated, when no periodic state is found, to describe what the circuit
 #: does instead (the latching pattern of the last half of them, and the drift of the state)
 REPORT_CYCLES = 24
+#: no periodic state: mains cycles simulated from the warm-up state before the record (the
+#: start transient fades), and cycles recorded, whose mean cycle is reported (flag
+#: ``long-transient``); the record is shortened (to no fewer than LONG_MIN_CYCLES) so that
+#: it should take at most LONG_TIME_S by the settling run's pace
+LONG_SETTLE_CYCLES = 20
+LONG_CYCLES = 100
+LONG_MIN_CYCLES = 10
+LONG_TIME_S = 60.0
 #: incandescent light against filament power, L ~ P^(3.4/1.6) from L ~ V^3.4 and P ~ V^1.6
 #: (common practice; exponents from memory)
 FILAMENT_LIGHT_EXPONENT = 3.4 / 1.6
@@ -152,6 +165,20 @@ class Solution:
     conduction_deg: tuple[float, ...]  # measured conduction of each half cycle [deg]
     firings: tuple[int, ...]  # trigger events per half cycle (leading-edge triac)
     dimmer_p: tuple[tuple[str, float], ...] = ()
+    # flag 'long-transient': rms of the record's content between the orders (interharmonics
+    # and the drift of the cycles about their mean) [A], and the cycles recorded; the
+    # waveform is the mean cycle (its phasors the record's averaged spectrum), the figures'
+    # i_rms_a the record's, the light spans the record (period_cycles = record_cycles)
+    interharmonic_a: float = 0.0
+    record_cycles: int = 0
+    notes: tuple[str, ...] = ()
+
+    @property
+    def interharmonic_fraction(self) -> float:
+        """The record's content between the orders as a fraction of its rms [-] (0 for a
+        periodic state): ``sqrt(I_rms^2 - sum_h |I_h|^2) / I_rms`` over all orders."""
+        r = self.figures.i_rms_a
+        return float(self.interharmonic_a / r) if r > 0 else 0.0
 
     @property
     def figures(self) -> Figures:
@@ -298,8 +325,8 @@ def _period_guess(eng: Engine, x0, d0, cycles: int = GUESS_CYCLES,
     while c < cycles:
         step = min(min_cycles if c == 0 else 2, cycles - c)
         tr = eng.run(0.0, step * eng.T1, x, d, record=True)
-        on, _f, _n = _conduction(tr, eng, step)
-        latched += [v > NO_HOLD_DEG for v in on]
+        _on, _f, _n, held = _conduction(tr, eng, step)
+        latched += [v > NO_HOLD_DEG for v in held]
         x, d, c = tr.xT, tr.sT, c + step
         p = _pattern_period(latched[c:])
         if p is not None:
@@ -330,8 +357,8 @@ def _steady(case: _Case, supply: Supply, check_stability: bool, max_period: int 
         # only every few half cycles. Read the latching pattern now, from this physical
         # state, and shoot at its period first (rather than after a failed one-cycle
         # shooting, whose last iterate can be far from any orbit)
-        on, fires, nolatch = _conduction(warm, eng, 1)
-        if nolatch or any(k > 0 and c < NO_HOLD_DEG for c, k in zip(on, fires, strict=True)):
+        _on, _fires, nolatch, _held = _conduction(warm, eng, 1)
+        if nolatch:
             guess, x0, d0 = _period_guess(eng, x0, d0)
             x_read = (x0, d0)
             guessed = guess is None or guess > 1
@@ -384,9 +411,9 @@ def _no_orbit_report(case: _Case, x, d, triac: bool, max_period: int) -> str:
     tr = eng.run(0.0, n * eng.T1, x, d, record=triac)
     parts = [f"Simulated over {n} mains cycles"]
     if triac:
-        on, fires, _nl = _conduction(tr, eng, n)
+        _on, fires, _nl, held = _conduction(tr, eng, n)
         marks = ["L" if c > NO_HOLD_DEG else ("x" if k > 0 else ".")
-                 for c, k in zip(on, fires, strict=True)]
+                 for c, k in zip(held, fires, strict=True)]
         tail = marks[n:]
         shown = "".join(tail)
         p = _pattern_period(tail)
@@ -425,35 +452,45 @@ def _no_orbit_report(case: _Case, x, d, triac: bool, max_period: int) -> str:
 
 
 def _conduction(tr, eng: Engine, cycles: int):
-    """Switch on-time per half cycle [deg] and trigger events per half cycle."""
+    """Switch on-time per half cycle [deg], trigger events per half cycle, whether a fired
+    half cycle did not latch, and the latched on-time per half cycle [deg].
+
+    The latched on-time counts a triac's ``on`` and ``low`` states only (its gate pulses
+    are on-time, not latching). A half cycle did not latch when it was fired and its
+    latched time is under ``NO_HOLD_DEG``: no pulse latched, or the triac dropped out
+    right after; a pulse that failed before a later one latched is a re-fire, not a
+    failure to latch. Without a triac the latched time is the on-time."""
     H = eng.T1 / 2
     nh = 2 * cycles
     on = np.zeros(nh)
+    lat = np.zeros(nh)
     idx = eng.net.switches.index(eng.net.index[SWITCH]) + len(eng.net.diodes)
     ts0, ts1 = tr.seg_times()
-    for t0, t1 in zip(ts0[tr.switch_on(idx) != 0].tolist(), ts1[tr.switch_on(idx) != 0].tolist(),
-                      strict=True):
+    triac = dimmer_is_triac(eng)
+    sw = tr.switch_on(idx) != 0
+    held = np.array([st[0] in ("on", "low") for st in tr.states(0)], dtype=bool) if triac \
+        else sw
+    for t0, t1, h in zip(ts0[sw].tolist(), ts1[sw].tolist(), held[sw].tolist(), strict=True):
         k0 = int(np.floor(t0 / H + 1e-12))
         while t0 < t1 - 1e-15 and k0 < nh:
             e = min(t1, (k0 + 1) * H)
             on[k0] += e - t0
+            if h:
+                lat[k0] += e - t0
             t0 = e
             k0 += 1
     fires = np.zeros(nh, dtype=int)
-    nolatch = False
     for t, tag in tr.events:
         name = tag[-1]
         if tag[0] in "AT" and tag[1] == 0 and name in ("fire+", "fire-", "fire"):
             # a trigger at the very end of the run (phase 0, the zero crossing) is the
             # first half cycle's of the next period: by periodicity it counts in half 0
             fires[int(np.floor(t / H + 1e-9)) % nh] += 1
-    # a gate pulse that ends with the triac off: its current had not reached latching
-    prev = None
-    for st in (tr.states(0) if dimmer_is_triac(eng) else ()):
-        if st[0] == "off" and prev is not None and prev[0] == "gate":
-            nolatch = True
-        prev = st
-    return tuple(float(v) for v in on / H * 180.0), tuple(int(v) for v in fires), nolatch
+    lat_deg = lat / H * 180.0
+    nolatch = bool(triac and any(k > 0 and c < NO_HOLD_DEG for c, k in zip(lat_deg, fires,
+                                                                            strict=True)))
+    return (tuple(float(v) for v in on / H * 180.0), tuple(int(v) for v in fires), nolatch,
+            tuple(float(v) for v in lat_deg))
 
 
 def dimmer_is_triac(eng: Engine) -> bool:
@@ -547,13 +584,22 @@ def _solve_cached(supply, dimmer, loads, spc, extras, reference) -> Solution | f
             brackets[i] = [0.0, np.inf]
         for _k in range(12 if pfc else 1):
             case = _build(supply, dimmer, dp, loads, gparams, levels)
-            tr, period, iters, ok = _steady(case, supply, check,
-                                            exact_phi=not dimmer.uses_triac,
-                                            triac=dimmer.uses_triac, start=start)
+            try:
+                tr, period, iters, ok = _steady(case, supply, check,
+                                                exact_phi=not dimmer.uses_triac,
+                                                triac=dimmer.uses_triac, start=start)
+                long = False
+            except ConvergenceError as e:
+                if reference:
+                    raise
+                tr, period = _long_transient(case, supply, start, e)
+                iters, ok, long, long_err = 0, False, True, str(e)
             # the next pass differs in a pfc driver's emulated resistance (and its dimming
             # level) alone: it starts from this solution (a warm start); a pwm-detect
             # driver's converter changes its chord cells with its level: it starts cold
             start = (tr.x0, tr.s0) if period == 1 and ok and warm_ok else None
+            if long:
+                start = None
             again = False
             for i in pfc:
                 again |= _pfc_update(gparams[i], brackets[i],
@@ -561,7 +607,7 @@ def _solve_cached(supply, dimmer, loads, spc, extras, reference) -> Solution | f
                                      loads[i].power_w)
             if not again:
                 break
-        measured, fires, nolatch = _conduction(tr, case.eng, period)
+        measured, fires, nolatch, _held = _conduction(tr, case.eng, period)
         if not phase_detect:
             break
         new_cond = float(np.mean(_detected(tr, case.eng, period, dimmer, measured)))
@@ -570,8 +616,68 @@ def _solve_cached(supply, dimmer, loads, spc, extras, reference) -> Solution | f
         cond = new_cond
     if reference:  # the lamp alone on its rated supply: only its mean LED power is read
         return _reference_power(case, tr, case.builds[0])
-    return _assemble(supply, dimmer, dp, loads, gparams, levels, case, tr, period, iters, ok,
-                     spc, extras, measured, fires, nolatch, cond_set, reference)
+    sol = _assemble(supply, dimmer, dp, loads, gparams, levels, case, tr, period, iters, ok,
+                    spc, extras, measured, fires, nolatch, cond_set, reference)
+    notes: tuple[str, ...] = ()
+    if dimmer.conduction_deg is not None and cond_set is not None and \
+            cond_set < dimmer.conduction_deg:
+        notes = (f"{dimmer.kind} dimmer set to {dimmer.conduction_deg:g} deg conducts at most "
+                 f"{cond_set:.1f} deg (its max_conduction_deg)",)
+    if long:
+        sol = _mean_cycle(sol, spc)
+        notes += (f"no periodic state found, reported as the mean cycle of a "
+                  f"{sol.record_cycles}-cycle record: {long_err}",)
+    return replace(sol, notes=sol.notes + notes) if notes else sol
+
+
+def _long_transient(case: _Case, supply: Supply, start, err: ConvergenceError):
+    """No periodic state: a record of the circuit's own behaviour. From the warm-up state
+    (one cycle from the initial guess, or the warm start), ``LONG_SETTLE_CYCLES`` cycles
+    let the start transient fade; then up to ``LONG_CYCLES`` cycles are recorded (fewer,
+    down to ``LONG_MIN_CYCLES``, where the settling run's pace says the record would take
+    more than ``LONG_TIME_S``). Returns the recorded trajectory and its cycles; raises
+    ``err`` (the shooting's report) when the record holds non-finite values."""
+    eng = case.eng
+    x0, d0 = _initial(case, supply) if start is None else start
+    t0 = time.perf_counter()
+    warm = eng.run(0.0, LONG_SETTLE_CYCLES * eng.T1, x0, d0)
+    pace = (time.perf_counter() - t0) / LONG_SETTLE_CYCLES
+    n = LONG_CYCLES
+    if pace > 0 and n * pace > LONG_TIME_S:
+        n = max(LONG_MIN_CYCLES, int(LONG_TIME_S / pace))
+    if not np.all(np.isfinite(warm.xT)):
+        raise err
+    tr = eng.run(0.0, n * eng.T1, warm.xT, warm.sT, record=True)
+    if not np.all(np.isfinite(tr.xT)):
+        raise err
+    return tr, n
+
+
+def _mean_cycle(sol: Solution, spc: int) -> Solution:
+    """A long-transient solution as its mean cycle: the waveforms' samples averaged over
+    the record's cycles (their DFT at the orders is the record's averaged spectrum, exact
+    in the figures), the figures' phasors and power the record's; the content between the
+    orders (all of the record's energy that the mean cycle does not hold: interharmonics
+    and the cycles' spread about their mean) is ``interharmonic_a``, by Parseval on the
+    samples, ``rms(record)^2 = rms(mean cycle)^2 + mean((record - mean cycle)^2)``."""
+    n = sol.period_cycles
+
+    def mean_of(w: SolvedWaveform) -> tuple[SolvedWaveform, float]:
+        rec = w.current_a.reshape(n, spc)
+        m = rec.mean(axis=0)
+        inter2 = float(np.mean((rec - m) ** 2))
+        v = None if w.voltage_v is None else w.voltage_v.reshape(n, spc).mean(axis=0)
+        return SolvedWaveform(m, w.sample_rate_hz, w.frequency_hz, voltage_v=v, cycles=1, label=w.label,
+                              figures=w.figures), inter2
+
+    wf, inter2 = mean_of(sol.waveform)
+    groups = tuple(replace(g, waveform=mean_of(g.waveform)[0], led_current_a=g.led_current_a)
+                   for g in sol.groups)
+    flags = set(sol.flags) | {"long-transient"}
+    flags.discard("subharmonic")
+    return replace(sol, waveform=wf, groups=groups,
+                   flags=tuple(fl for fl in FLAGS if fl in flags),
+                   interharmonic_a=float(np.sqrt(inter2)), record_cycles=n)
 
 
 def _pfc_update(p: dict, br: list, got_w: float, v2: float, rated_w: float) -> bool:
@@ -703,8 +809,7 @@ def _assemble(supply, dimmer, dp, loads, gparams, levels, case, tr, period, iter
     flags = set()
     if period > 1:
         flags.add("subharmonic")
-    if nolatch or (dimmer.uses_triac and any(0 < c < NO_HOLD_DEG and k > 0
-                                              for c, k in zip(measured, fires, strict=True))):
+    if nolatch:
         flags.add("no-latch")
     if dimmer.kind == "leading-edge" and dimmer.uses_triac:
         if any(k > 1 for k in fires):
