@@ -922,6 +922,9 @@ def _light(case, b, g, p, Y, col, seg_state, ts, supply, period, level, referenc
     else:
         i_led = Y[col[(b.led, "i")]] / m
         p_led = i_led * Y[col[(b.led, "v")]]
+    # light is emitted power: the off-state leakage of a string element can make a sample's
+    # product a hair below zero, which is no light, not negative light
+    p_led = np.maximum(p_led, 0.0)
     if reference:
         return i_led, p_led
     key = (supply.v_rms_v, f, g.model, g.power_w, g.params)
