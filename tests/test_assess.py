@@ -211,3 +211,27 @@ def test_a_dimmer_conducts_at_most_its_own_top(tmp_path):
     a = np.radians(10.0)  # the cut
     ratio = np.sqrt(1 - a / np.pi + np.sin(2 * a) / (2 * np.pi))
     assert c.i_rms_a == pytest.approx(full * ratio, rel=2e-3)  # the switch's 0.05 ohm
+
+
+def test_capacitor_resonance_order_closed_form():
+    # Parallel resonance of a shunt capacitance C with a source inductance L: h_r =
+    # 1 / (w1 sqrt(L C)) (IEEE Std 519-2014, 10.6; circuit theory). The school demo's lamps'
+    # input (EMI) capacitors per line against its transformer's inductance (line + neutral).
+    from pathlib import Path
+
+    from pqcalc.installation.cases import CaseSolver
+    from pqcalc.installation.interaction import resonance_order
+    from pqcalc.installation.scenario import resonance_check
+
+    inst = load_installation(Path(__file__).resolve().parents[1] / "demo_installations" /
+                             "harbour_school.toml")
+    solver = CaseSolver(inst)
+    c = solver.shunt_capacitance_f()
+    expect_c = max(c.values())
+    z = inst.supply.impedance
+    h_r, c_f = resonance_order(inst, c)
+    assert c_f == expect_c > 0
+    assert h_r == pytest.approx(1 / (2 * np.pi * 50.0 * np.sqrt((z.l_h + z.neutral_l_h) * c_f)),
+                                rel=1e-12)
+    chk = resonance_check(inst, solver)
+    assert chk.value == pytest.approx(h_r) and chk.status == ("warn" if h_r <= 50 else "info")

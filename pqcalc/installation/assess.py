@@ -20,7 +20,6 @@ from concurrent.futures import Executor, ProcessPoolExecutor
 from contextlib import contextmanager
 
 from ..errors import InputError
-
 from .cases import CaseSolver
 from .diversity import diversity
 from .model import Installation

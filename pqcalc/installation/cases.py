@@ -268,6 +268,16 @@ class CaseSolver:
             return replace(hit, current_a=shift_periodic(hit.current_a, -delta, hit.cycles))
         return hit
 
+    def shunt_capacitance_f(self) -> dict[str, float]:
+        """Per line, the fixtures' input (EMI) capacitance across the supply [F]: every
+        modelled lamp's ``c_emi_f`` (rated components) times its count."""
+        out = {ln: 0.0 for ln in self.inst.supply.lines}
+        for c in self.inst.circuits:
+            for g in c.groups:
+                if not self.inst.fixtures[g.fixture].measured:
+                    out[c.line] += g.count * self.rated_params(g.fixture).get("c_emi_f", 0.0)
+        return out
+
     def max_conduction_deg(self, k: CaseConditions) -> float | None:
         """The dimmer's largest conduction angle [deg] (its ``max_conduction_deg``
         parameter, given or the model's default), or None where it has none."""

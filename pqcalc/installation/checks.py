@@ -23,9 +23,9 @@ from ..standards.breakers import judge_pulse
 from ..standards.regions import (
     RuleSet,
     instantaneous_band,
-    rule_set,
     load_figures,
     neutral_figures,
+    rule_set,
 )
 from .cases import CaseResult
 from .model import LINE_ANGLES_DEG, Circuit, Installation, Panel

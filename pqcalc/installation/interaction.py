@@ -32,6 +32,7 @@ __all__ = [
     "own_frame",
     "Interaction",
     "fixed_point",
+    "resonance_order",
 ]
 
 
@@ -215,6 +216,8 @@ class Interaction:
     sums: InstallationSums
     iterations: int
     change: float
+    #: the updates grew instead of shrinking (the iteration was stopped)
+    diverged: bool = False
 
 
 def fixed_point(inst: Installation,
@@ -231,8 +234,8 @@ def fixed_point(inst: Installation,
     damped by ``relax``) takes the combination of recent steps that minimises the
     residual: ``E_{k+1} = E_k + b f_k - (dE + b dF) gamma`` with ``gamma`` the least-squares
     solution of ``dF gamma = f_k``, ``f = G(E) - E``. It stops when the update is below
-    ``analysis.tolerance`` [fraction of V1] on every circuit, or after
-    ``analysis.max_iterations``.
+    ``analysis.tolerance`` [fraction of V1] on every circuit, after
+    ``analysis.max_iterations``, or when two updates in a row grow (``diverged``).
 
     References
     ----------
@@ -261,6 +264,7 @@ def fixed_point(inst: Installation,
     x = pack(src)
     xs: list[np.ndarray] = []
     fs: list[np.ndarray] = []
+    history: list[float] = []
     change = float("inf")
     it = 0
     for it in range(1, opts.max_iterations + 1):  # noqa: B007 (reported after the loop)
@@ -270,8 +274,13 @@ def fixed_point(inst: Installation,
         g = pack(circuit_sources(inst, cases, sums))
         f = g - x
         change = float(np.max(np.abs(f[: f.size // 2] + 1j * f[f.size // 2:])))
+        history.append(change)
         if change < opts.tolerance:
             break
+        if len(history) >= 3 and history[-1] > history[-2] > history[-3]:
+            # two growing updates in a row: not converging (a resonance, most often); more
+            # iterations cost many solves and would only report a wrong number
+            return Interaction(cases, sums, it, change, True)
         xs.append(x)
         fs.append(f)
         xs, fs = xs[-(m + 1):], fs[-(m + 1):]
@@ -283,3 +292,21 @@ def fixed_point(inst: Installation,
         else:
             x = x + beta * f
     return Interaction(cases, sums, it, change)
+
+
+def resonance_order(inst: Installation, shunt_c_f: Mapping[str, float]) -> tuple[float, float]:
+    """The order of the parallel resonance between the fixtures' shunt (EMI) capacitance
+    of the most loaded line [F] and the source's line-to-neutral loop inductance [H]:
+    ``h_r = 1 / (w1 sqrt(L C))``; (inf, C) without inductance or capacitance.
+
+    References
+    ----------
+    IEEE Std 519-2014, 10.6 (resonance of shunt capacitance with the system inductance;
+    the usual estimate ``h_r = sqrt(S_sc / Q_c)`` is the same formula).
+    """
+    z = inst.supply.impedance
+    l_h = z.l_h + z.neutral_l_h
+    c = max(shunt_c_f.values(), default=0.0)
+    if l_h <= 0 or c <= 0:
+        return float("inf"), c
+    return 1.0 / (2 * np.pi * inst.supply.frequency_hz * float(np.sqrt(l_h * c))), c

@@ -8,13 +8,14 @@ gives the interacting result, and the ideal one stays beside it.
 from __future__ import annotations
 
 from collections.abc import Callable
+from dataclasses import replace
 
 import numpy as np
 
 from ..metrics import harmonic_loss_factor, k_factor, thd
 from .cases import CaseResult, CaseSolver, PanelVoltage
 from .checks import circuit_checks, node_checks, pcc_checks, rules_of
-from .interaction import fixed_point, ideal_voltage, node_voltages, own_frame
+from .interaction import fixed_point, ideal_voltage, node_voltages, own_frame, resonance_order
 from .model import Circuit, Installation, Panel
 from .results import Check, CircuitResult, NodeResult, ScenarioResult
 from .sums import InstallationSums, NodeSum, line_result, neutral_result, sum_installation
@@ -114,8 +115,31 @@ def _assemble(inst: Installation, solver: CaseSolver, scenario: int,
     tres = _node_result(inst, "service", "transformer", sums.total, cyc, vmap, None,
                         tuple(x for p in inst.panels for x in gone[p.id]))
     extra: list[Check] = list(pcc_checks(inst, sums.total, cyc))
+    if inst.has_source_impedance:
+        extra.append(resonance_check(inst, solver))
     return ScenarioResult(inst.scenario_name(scenario), tuple(circuits), pres, fres, tres,
                           iterations, None, tuple(extra))
+
+
+def resonance_check(inst: Installation, solver: CaseSolver) -> Check:
+    """The parallel resonance of the fixtures' input (EMI) capacitors with the source
+    inductance, seen at the service: a warning when it falls within the orders assessed
+    (50), where it amplifies the harmonic voltages."""
+    h_r, c_f = resonance_order(inst, solver.shunt_capacitance_f())
+    src = ("parallel resonance of shunt capacitance and source inductance, h_r = 1 / (w1 "
+           "sqrt(L C)) (IEEE Std 519-2014, 10.6; the drivers' EMI capacitors: model values)")
+    if not np.isfinite(h_r):
+        return Check("capacitor resonance", "info", "no source inductance or no input "
+                     "capacitance: no parallel resonance", src)
+    msg = (f"the fixtures' input capacitance, {1e6 * c_f:.1f} uF on the most loaded line, "
+           f"resonates with the source's line-to-neutral inductance near order {h_r:.1f} "
+           f"({h_r * inst.supply.frequency_hz:.0f} Hz)")
+    if h_r <= 50:
+        return Check("capacitor resonance", "warn", msg + ": harmonic voltages near that "
+                     "order are amplified; confirm with the utility and the drivers' maker",
+                     src, h_r, 50.0, "order", {"c_per_line_f": c_f}, bound="min")
+    return Check("capacitor resonance", "info", msg + ", above the orders assessed", src, h_r,
+                 50.0, "order", {"c_per_line_f": c_f}, bound="min")
 
 
 def evaluate_scenario(inst: Installation, solver: CaseSolver, scenario: int,
@@ -127,9 +151,24 @@ def evaluate_scenario(inst: Installation, solver: CaseSolver, scenario: int,
     if not (inst.analysis.supply_interaction and inst.has_source_impedance):
         return ideal
     fp = fixed_point(inst, lambda at: solve_pass(inst, solver, scenario, at), cases, sums)
+    opts = inst.analysis
+    if fp.diverged:
+        # no interacting figures: the ideal-supply result stands, and says why
+        h_r, c_f = resonance_order(inst, solver.shunt_capacitance_f())
+        why = (f"; the fixtures' input capacitance ({1e6 * c_f:.0f} uF on the most loaded line) "
+               f"resonates with the source inductance near order {h_r:.0f}, which amplifies "
+               "the harmonic voltages there" if h_r <= 60 else "")
+        warn = Check("supply interaction", "warn",
+                     f"the supply-interaction iteration diverged (updates grew to "
+                     f"{100 * fp.change:.2f} % of V1 after {fp.iterations} iterations){why}: "
+                     "the figures are the ideal-supply ones, the distortion at the panels is "
+                     "not computed; check the resonance with the utility and the drivers' "
+                     "maker, or run with supply_interaction = false",
+                     "fixed-point iteration on the circuits' source voltages (Anderson)",
+                     fp.change, opts.tolerance, "-", {"resonance_order": h_r})
+        return replace(ideal, checks=ideal.checks + (warn,))
     res = _assemble(inst, solver, scenario, fp.cases, fp.sums, fp.iterations, True)
     extra = res.checks
-    opts = inst.analysis
     if fp.change >= opts.tolerance:
         extra = extra + (Check(
             "supply interaction", "warn",
