@@ -35,7 +35,7 @@ from collections.abc import Callable, Sequence
 from contextlib import contextmanager
 from dataclasses import dataclass, field, replace
 from pathlib import Path
-from typing import Literal, get_args
+from typing import Any, Literal, get_args
 
 import numpy as np
 import xarray as xr
@@ -437,8 +437,11 @@ def ideal_resistive_case(case: Case) -> CaseOutcome:
         raise InputError("the ideal evaluator needs conduction-angle settings, not knob "
                          "positions")
     p = dict(case.params)
-    r = p.get("r_ohm") / case.lamps
-    c = math.pi if case.dimmer == "none" else math.radians(case.setting)
+    if "r_ohm" not in p:
+        raise InputError("the ideal evaluator needs the lamp's r_ohm")
+    r = float(p["r_ohm"]) / case.lamps
+    c = math.pi if case.dimmer == "none" or case.setting is None \
+        else math.radians(case.setting)
     a, b = (math.pi - c, math.pi) if case.dimmer == "leading-edge" else (0.0, c)
     ipk = math.sqrt(2) * case.v_rms_v / r
     ph = np.zeros(MAX_ORDER + 1, dtype=complex)
@@ -719,7 +722,7 @@ _PORTFOLIO_VARS = {  # name: (units, long name); counts and labels are dimension
     "system": ("1", "supply system"),
     "lamps": ("1", "number of lamps"),
     "distinct_solves": ("1", "distinct circuit cases solved"),
-    "design_scenario": ("1", "the scenario with the largest phase plus neutral current"),
+    "design_scenario": ("1", "the scenario with the largest line plus neutral current"),
     "p_w": ("W", "active power at the service, design scenario"),
     "i_line_max_a": ("A", "largest line current at the service, rms, design scenario"),
     "thd_i_line_max": ("1", "current THD of that line, orders 2..40, fraction"),
@@ -745,14 +748,14 @@ def portfolio(paths: Sequence[str | os.PathLike], *, client=None, scheduler: str
     Returns
     -------
     xarray.Dataset
-        Dimension ``building`` (labelled by file stem, made unique), plus ``phase`` and
+        Dimension ``building`` (labelled by file stem, made unique), plus ``line`` and
         ``order`` for the service spectra ``i_h_line_a`` and ``i_h_neutral_a``.
     """
     from .installation import load_installation
 
     if not paths:
         raise InputError("portfolio: expected at least one installation file")
-    insts = [load_installation(p) for p in paths]
+    insts = [load_installation(Path(p)) for p in paths]
     labels: list[str] = []
     for p in paths:
         stem = Path(p).stem
@@ -760,7 +763,8 @@ def portfolio(paths: Sequence[str | os.PathLike], *, client=None, scheduler: str
         while label in labels:
             label, k = f"{stem}-{k}", k + 1
         labels.append(label)
-    outs = run_cases(insts, _assess_one, client=client, scheduler=scheduler,
+    outs: list[Any] = run_cases(insts, _assess_one,  # type: ignore[arg-type]
+                                client=client, scheduler=scheduler,
                      local_cluster=local_cluster, chunk_size=1, timeout_s=timeout_s,
                      progress=progress)
     data = {}
@@ -768,7 +772,7 @@ def portfolio(paths: Sequence[str | os.PathLike], *, client=None, scheduler: str
         vals = [o[name] for o in outs]
         arr = np.array(vals, dtype=str) if isinstance(vals[0], str) else np.array(vals)
         data[name] = xr.Variable(("building",), arr, {"units": units, "long_name": long})
-    data["i_h_line_a"] = xr.Variable(("building", "phase", "order"),
+    data["i_h_line_a"] = xr.Variable(("building", "line", "order"),
                                      np.array([o["i_h_line_a"] for o in outs]),
                                      {"units": "A", "long_name": "service line current per "
                                       "order, rms, design scenario (NaN: no such line)"})
@@ -780,7 +784,7 @@ def portfolio(paths: Sequence[str | os.PathLike], *, client=None, scheduler: str
                            {"units": "1", "long_name": "building (installation file stem)"}),
               "file": ("building", np.array([str(p) for p in paths], dtype=str),
                        {"units": "1", "long_name": "installation file"}),
-              "phase": ("phase", np.array(["L1", "L2", "L3"]),
+              "line": ("line", np.array(["L1", "L2", "L3"]),
                         {"units": "1", "long_name": "line at the service"}),
               "order": ("order", np.arange(MAX_ORDER + 1),
                         {"units": "1", "long_name": "harmonic order"})}

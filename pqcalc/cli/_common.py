@@ -76,7 +76,8 @@ class _LazyGroup(click.Group):
         with formatter.section("Commands"):
             formatter.write_dl([(n, h) for n, (_, h) in COMMANDS.items()])
 
-    def main(self, args=None, prog_name=None, **kwargs):
+    def main(self, args: Any = None, prog_name: str | None = None,  # type: ignore[override]
+             **kwargs: Any) -> Any:
         """Run the command line; a usage mistake (unknown option, bad choice) is one line
         on stderr with exit code 2, like every other bad input."""
         kwargs.setdefault("standalone_mode", False)
@@ -308,7 +309,7 @@ class Progress:
     def __init__(self, label: str, min_total: int = 20):
         self.label = label
         self.min_total = min_total
-        self.bar = None
+        self.bar: Any = None  # a click progress bar once shown
         self.shown = 0
 
     def __call__(self, done: int, total: int) -> None:

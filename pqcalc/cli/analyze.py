@@ -126,7 +126,8 @@ def csv_options_from(kw: dict) -> CsvOptions:
     if kw.get("shunt_ohm") is not None:
         scale /= check_option("--shunt-ohm", kw["shunt_ohm"])
     check_option("--sample-rate", kw.get("sample_rate"))
-    delim = {"tab": "\t"}.get(kw.get("delimiter"), kw.get("delimiter"))
+    given = kw.get("delimiter")
+    delim = "\t" if given == "tab" else given
     return CsvOptions(
         current_col=kw.get("current_col"),
         voltage_col=kw.get("voltage_col"),

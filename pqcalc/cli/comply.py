@@ -281,7 +281,8 @@ def comply_cmd(captures, installation, equipment_class, settings_of, power_w, pf
                       disregard_small=not keep_small, edition=edition)
         if len(states) > 1:
             d = evaluate_dimmable([(s, w, power_w, pf) for s, w in states], equipment_class,
-                                  fixture=fixture, strict=strict_dimmed, dimming=dimming,
+                                  fixture=fixture, strict=strict_dimmed,
+                                  dimming="builtin" if dimming == "builtin" else "independent",
                                   **common)
             results.extend(d.results)
             notes.extend(n for n in d.notes if n != CAUTION and n not in notes)

@@ -319,7 +319,7 @@ def lamp_cmd(model, power_w, count, voltage, frequency, dimmer, switch, conducti
     if as_json:
         d = a.to_dict()
         d["label"] = f"{model} {power_w:g} W x {count}"
-        d["p_w"] = float(sol.waveform.p_w)
+        d["p_w"] = float(sol.p_w)
         d.update(_solution_dict(sol, spec, supply, split, fl))
         d["light"].update({"svm": sl.svm, "pst_lm": sl.pst_lm,
                            "p_inst_max": sl.metrics.p_inst_max})

@@ -94,7 +94,7 @@ def _lineup_dict(lineup: Sequence[LineupEntry] | None) -> list[dict] | None:
     return out
 
 
-def assessment_dict(assessment: Assessment, lineup=None) -> dict:
+def assessment_dict(assessment: Assessment, lineup: Sequence[LineupEntry] | None = None) -> dict:
     """The assessment as a JSON-ready dict: :meth:`Assessment.to_dict` plus the tool
     version, per-order magnitudes [A] of each circuit and node per scenario, and the
     lineup."""

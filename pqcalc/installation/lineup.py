@@ -148,7 +148,7 @@ class StateLight:
         }
 
 
-def state_light(light, period_s: float, spectrum_: Spectrum, power_w: float, *,
+def state_light(light: np.ndarray, period_s: float, spectrum_: Spectrum, power_w: float, *,
                 full_load: bool, eu_ecodesign: bool,
                 on_date: _dt.date | str | None = None, strobe_exempt: bool = False,
                 jitter: JitterResult | None = None) -> StateLight:
