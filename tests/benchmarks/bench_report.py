@@ -36,8 +36,20 @@ def _t(fn):
     return time.perf_counter() - t0, out
 
 
+def _status_mb(key: str) -> float:
+    """A memory figure of this process from /proc/self/status [MB] (Linux; NaN elsewhere)."""
+    try:
+        for line in Path("/proc/self/status").read_text().splitlines():
+            if line.startswith(key + ":"):
+                return float(line.split()[1]) / 1024.0
+    except OSError:
+        pass
+    return float("nan")
+
+
 def _pdf_child(a, lineup, q) -> None:
-    """Typeset the PDF; put (seconds, bytes, pages, figures drawn, peak RSS [MB])."""
+    """Typeset the PDF; put (seconds, bytes, pages, figures drawn, peak RSS [MB], RSS the
+    child started with [MB]: the assessment it inherits)."""
     import io
 
     import pypdf
@@ -47,6 +59,7 @@ def _pdf_child(a, lineup, q) -> None:
     from pqcalc.reporting.pdf import FigureBook, build_pdf
     from pqcalc.reporting.story import build_story
 
+    rss0 = _status_mb("VmRSS")
     t0 = time.perf_counter()
     figs = FigureBook()
     story = build_story(a, lineup, [], __version__, "bench", figs)
@@ -56,7 +69,7 @@ def _pdf_child(a, lineup, q) -> None:
     dt = time.perf_counter() - t0
     pages = len(pypdf.PdfReader(io.BytesIO(data)).pages)
     rss = resource.getrusage(resource.RUSAGE_SELF).ru_maxrss / 1024.0  # kB on Linux
-    q.put((dt, len(data), pages, figs.drawn, rss))
+    q.put((dt, len(data), pages, figs.drawn, rss, rss0))
 
 
 def _bench(name: str, path: Path, out: Path) -> None:
@@ -72,7 +85,7 @@ def _bench(name: str, path: Path, out: Path) -> None:
     q = ctx.Queue()
     p = ctx.Process(target=_pdf_child, args=(a, lu, q))
     p.start()
-    dt, size, pages, drawn, rss = q.get()
+    dt, size, pages, drawn, rss, rss0 = q.get()
     p.join()
     t_json, _ = _t(lambda: export.to_json(a, lu))
     t_csv, _ = _t(lambda: export.to_csv(a, out / f"{name}-tables"))
@@ -81,7 +94,9 @@ def _bench(name: str, path: Path, out: Path) -> None:
           f"{load0:.1f} (2 cores)")
     print(f"  assess  {t_assess:7.2f} s   lineup {t_lineup:6.2f} s")
     print(f"  pdf     {dt:7.2f} s   ratio to assess {dt / t_assess:5.2f}; {pages} pages, "
-          f"{dt / pages:.2f} s a page; {size / 1e3:.0f} kB; peak RSS {rss:.0f} MB")
+          f"{dt / pages:.2f} s a page; {size / 1e3:.0f} kB")
+    print(f"          peak RSS {rss:.0f} MB, of which {rss0:.0f} MB the assessment held "
+          f"before the report began: the report added {rss - rss0:.0f} MB")
     print(f"          figures drawn {drawn} for {len(inst.circuits)} circuits and "
           f"{len(inst.panels)} panels")
     print(f"  json    {t_json:7.2f} s   csv {t_csv:6.2f} s (references, same run)")
