@@ -172,23 +172,26 @@ def print_assessment(a, scenarios, others: bool = False) -> None:
         f"{a.connected_load_w:.0f} W; {plural(a.solves, 'distinct circuit solve')}", hang=2)
     wide = out.width >= 100
     cw = _id_width([c.id for c in inst.circuits], 16 if wide else 10)
-    pw = _id_width([p.id for p in inst.panels], 12 if wide else 8)
     for sc in scenarios:
         out()
         out(f"== scenario: {sc.name}" + (
             f" (supply interaction: {plural(sc.interaction_iterations, 'iteration')})"
             if sc.interaction_iterations else ""), hang=3)
         out()
-        out.row(f"  {'circuit':<{cw}} {'panel':<{pw}} {'ph':<3} {'set':>5} {'Irms A':>8} "
+        out.row(f"  {'circuit':<{cw}} {'ph':<3} {'set':>5} {'Irms A':>8} "
                 f"{'THDi %':>7} {'PF':>5} {'DPF':>5} {'P W':>8}  status")
+        panel = None
         for c in sc.circuits:
+            if c.panel != panel:  # the circuits come panel by panel: one line names it
+                panel = c.panel
+                out(f"panel {panel}", indent=2, hang=4)
             st = "-" if c.setting_deg is None else f"{c.setting_deg:.0f}"
             if c.knob is not None:
                 st = f"k{c.knob:.2f}"
             bad = sorted((k for k in c.checks if k.status in ("fail", "warn")),
                          key=lambda k: k.status != "fail")
             status = bad[0].status.upper() if bad else "ok"
-            _cell(c.id, cw, out, f"{c.panel:<{pw}} {c.line:<3} {st:>5} {c.i_rms_a:>8.3f} "
+            _cell(c.id, cw, out, f"{c.line:<3} {st:>5} {c.i_rms_a:>8.3f} "
                   f"{100 * c.thd_i:>7.1f} {fmt(c.pf, '.2f'):>5} {fmt(c.dpf, '.2f'):>5} "
                   f"{c.p_w:>8.1f}  {status}")
             if c.flags:
