@@ -601,36 +601,50 @@ def assumptions_section(a: Assessment, version: str) -> list[Flowable]:
     out += heading("Impedances", 2)
     out.append(table([Col("where", 1.8), Col("line: R + L", 1.2), Col("neutral: R + L", 1.2),
                       Col("origin", 1.8)], impedance_rows(inst)))
-    out += heading("Fixture types", 2)
+    # each type's (and each dimmer's) heading, lead line and table on one page; the
+    # sub-section's heading goes with its first table
+    h2 = heading("Fixture types", 2)
+    out.append(h2[0])
+    lead = h2[1:]
     for fid, ft in inst.fixtures.items():
-        out += heading(f"{fid}", 3)
+        h3 = heading(f"{fid}", 3)
+        out.append(h3[0])
+        block, lead = lead + h3[1:], []
         if ft.measured:
-            out.append(para(f"Measured: capture {ft.capture}, used as recorded (declared "
-                            f"power {ft.power_w:g} W, file). {ft.description}", "body"))
+            out.append(keep(block + [para(f"Measured: capture {ft.capture}, used as recorded "
+                                          f"(declared power {ft.power_w:g} W, file). "
+                                          f"{ft.description}", "body")]))
             continue
-        out.append(para(f"Model {ft.model}, rated {ft.power_w:g} W (file); dimming range "
-                        f"{ft.min_conduction_deg:g} to {ft.max_conduction_deg:g} deg. "
-                        f"{ft.description}", "body"))
+        block.append(para(f"Model {ft.model}, rated {ft.power_w:g} W (file); dimming range "
+                          f"{ft.min_conduction_deg:g} to {ft.max_conduction_deg:g} deg. "
+                          f"{ft.description}", "body"))
         try:
             prs = fixture_params(ft, s.voltage_ln_v, s.frequency_hz)  # type: ignore[arg-type]
         except ValueError as e:
-            out.append(para(f"(component values could not be listed: {e})", "note"))
+            out.append(keep(block + [para(f"(component values could not be listed: {e})",
+                                          "note")]))
             continue
-        tab = table([Col("component", 1.3), Col("value", 0.8, "right"),
-                     Col("origin", 0.8), Col("meaning", 3.0)],
-                    [(r.name, si(r.value, r.unit), r.origin, r.meaning) for r in prs])
-        out[-2:] = [keep(out[-2:] + [tab])]  # heading, model line and table on one page
-    out += heading("Dimmers", 2)
+        out.append(keep(block + [table(
+            [Col("component", 1.3), Col("value", 0.8, "right"), Col("origin", 0.8),
+             Col("meaning", 3.0)],
+            [(r.name, si(r.value, r.unit), r.origin, r.meaning) for r in prs])]))
+    out += lead
+    h2 = heading("Dimmers", 2)
+    out.append(h2[0])
+    lead = h2[1:]
     sets = dimmer_param_sets(inst)
     if not sets:
-        out.append(para("No circuit has a dimmer."))
+        out += lead + [para("No circuit has a dimmer.")]
+        lead = []
     for title, ids, prs in sets:
-        out += heading(f"Dimmer: {title}", 3)
-        out.append(para(f"Used by {plural(len(ids), 'circuit')}: {', '.join(ids)}.", "note"))
-        tab = table([Col("parameter", 1.3), Col("value", 0.8, "right"),
-                     Col("origin", 0.8), Col("meaning", 3.0)],
-                    [(r.name, si(r.value, r.unit), r.origin, r.meaning) for r in prs])
-        out[-2:] = [keep(out[-2:] + [tab])]
+        h3 = heading(f"Dimmer: {title}", 3)
+        out.append(h3[0])
+        out.append(keep(lead + h3[1:] + [
+            para(f"Used by {plural(len(ids), 'circuit')}: {', '.join(ids)}.", "note"),
+            table([Col("parameter", 1.3), Col("value", 0.8, "right"), Col("origin", 0.8),
+                   Col("meaning", 3.0)],
+                  [(r.name, si(r.value, r.unit), r.origin, r.meaning) for r in prs])]))
+        lead = []
     out += heading("Circuits", 2)
     rows = []
     for c in inst.circuits:
