@@ -371,7 +371,7 @@ def lineup_section(lineup: Sequence[LineupEntry], notes: Sequence[str],
                           f"{_x(e.source)}; {plural(len(e.states), 'state')} evaluated.",
                           markup=True))
         key = ("lineup", e.fixture, e.dimmer, dec.state)
-        block.append(figs.place(key, partial(spectrum_fig, e, dec), 0.8))
+        block.append(figs.place(key, partial(spectrum_fig, e, dec), 0.66))
         block.append(para("Bars: harmonic current of the deciding state; marks: the limit of "
                           "its rule per order; hatched bars: the orders its compliance table "
                           "fails (harmonics below 0.6 % of the input current or 5 mA are "
