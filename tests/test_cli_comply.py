@@ -211,3 +211,17 @@ def test_installation_file_measured_fixture_types(tmp_path):
     assert r.exit_code == 0, r.output
     res = json.loads(r.output)["results"]
     assert [x["fixture"] for x in res] == ["pendant"] and res[0]["verdict"] == "pass"
+
+
+def test_model_with_only_full_output_says_why():
+    # A constant-power driver behind a dimmer draws the same power at every setting (the
+    # circuit model), so there is no dimmed test state (IEC 61000-3-2 measures dimmed states
+    # at equidistant powers, memory); the output says why only full output was evaluated.
+    from click.testing import CliRunner
+
+    from pqcalc.cli import main
+
+    r = CliRunner().invoke(main, ["comply", "--model", "bulk-cap", "--power-w", "9",
+                                  "--dimmer", "leading-edge"])
+    assert r.exit_code in (0, 1), r.output
+    assert "only full output evaluated" in r.output and "constant-power" in r.output

@@ -113,7 +113,8 @@ def _model_states(model, power_w, dimmer, voltage, frequency, params, equipment_
     full = resolve_params(model, power_w, voltage, frequency, over)
     ft = ModelledFixture(model, power_w, model=model,
                          params=tuple(sorted((k, v) for k, v in full.items() if v is not None)))
-    states = fixture_states(ft, voltage, frequency, dimmer)
+    why: list[str] = []  # why dimmed states were left out (a constant-power driver...)
+    states = fixture_states(ft, voltage, frequency, dimmer, notes=why)
     recs = [(lab, w, None, None) for lab, _, w in states]
     outside = outside_scope or voltage < SCOPE_MIN_VOLTAGE_V
     label = f"{model} {power_w:g} W"
@@ -121,12 +122,14 @@ def _model_states(model, power_w, dimmer, voltage, frequency, params, equipment_
         r = evaluate_fixture(recs[0][1], None, None, equipment_class, fixture=label,
                              state=recs[0][0], nominal_voltage_v=voltage,
                              outside_scope=outside, edition=edition)
-        return [r], list(r.notes)
+        if dimmer != "none" and not why:
+            why = [f"{model}: no dimmed state to evaluate behind the {dimmer} cut"]
+        return [r], [f"only full output evaluated: {n}" for n in why] + list(r.notes)
     d = evaluate_dimmable(recs, equipment_class, fixture=label, nominal_voltage_v=voltage,
                           outside_scope=outside, edition=edition, strict=strict,
                           dimming=dimming)
     notes = [f"{label}: evaluated behind a reference {dimmer} cut (an ideal switch at each "
-             "setting)"] + [n for n in d.notes if n != CAUTION]
+             "setting)"] + why + [n for n in d.notes if n != CAUTION]
     return list(d.results), notes
 
 
