@@ -385,6 +385,7 @@ def evaluate_lineup(inst: Installation, equipment_class: EquipmentClass = "C", *
         ``[compliance] on_date``, else the project's date when it is one, else today.
     """
     from ..standards import DEFAULT_EDITION, check_edition, evaluate_dimmable, evaluate_fixture
+    from ..standards.iec61000_3_2 import full_output_index
     from ..standards.iec61000_3_2 import SCOPE_MIN_VOLTAGE_V
 
     ed = check_edition(DEFAULT_EDITION if edition is None else edition)
@@ -458,7 +459,7 @@ def evaluate_lineup(inst: Installation, equipment_class: EquipmentClass = "C", *
             except InputError as e:
                 raise InputError(f"fixtures.{fid}: {e}") from None
             # results[0] is the maximum-power state, the others in the order given
-            kmax = max(range(len(states)), key=lambda k: _power(states[k][2][0]))
+            kmax = full_output_index([_power(st[2][0]) for st in states])
             order = [kmax] + [k for k in range(len(states)) if k != kmax]
             lst = []
             sd = spread.get((fid, kind), 0.0)

@@ -356,6 +356,7 @@ def lineup_section(lineup: Sequence[LineupEntry], notes: Sequence[str],
                      rows, status_col=6))
     out.append(para("* the deciding state of the fixture type (shown in its figure below).",
                     "note"))
+    out += light_table(lineup)
     out += [para(n, "note") for n in notes]
     for e in lineup:
         dec = deciding_state(e)
@@ -384,6 +385,44 @@ def lineup_section(lineup: Sequence[LineupEntry], notes: Sequence[str],
                             f"are in {APPENDIX_TITLE.split(':')[0]}.", markup=True))
         own = [n for n in e.notes if n not in notes and n != CAUTION]
         out += [para(n, "small") for n in own]
+    return out
+
+
+def light_table(lineup: Sequence[LineupEntry]) -> list[Flowable]:
+    """Temporal light artefacts per fixture type: SVM (IEC TR 63158), Pst_LM (IEC TR
+    61547-1) and the displacement factor at full output with the EU ecodesign verdict where
+    the project applies it; the worst dimmed state's Pst_LM beside them (informative)."""
+    rows: list[tuple[Any, ...]] = []
+    day = None
+    for e in lineup:
+        full = next((s for s in e.states if s.light is not None and s.light.full_load), None)
+        if full is None or full.light is None:
+            continue
+        li = full.light
+        dimmed = [s.light.pst_lm for s in e.states
+                  if s.light is not None and not s.light.full_load and s.light.pst_lm is not None]
+        eu = "-" if li.ecodesign is None else li.ecodesign.verdict.upper()
+        if li.ecodesign is not None:
+            day = li.ecodesign.on_date
+        rows.append((e.title, _num(li.svm, ".2f"), _num(li.pst_lm, ".2f"),
+                     _num(li.displacement_factor, ".2f"),
+                     _num(max(dimmed), ".2f") if dimmed else "-", eu))
+    if not rows:
+        return []
+    out = heading("Temporal light artefacts at full output", 3)
+    out.append(table([Col("fixture type", 2.2), Col("SVM [-]", 0.7, "right"),
+                      Col("Pst_LM [-]", 0.8, "right"), Col("displacement factor [-]", 1.1,
+                                                            "right"),
+                      Col("worst dimmed Pst_LM [-] (informative)", 1.3, "right"),
+                      Col("EU ecodesign", 0.8)], rows, status_col=5))
+    out.append(para(
+        "SVM: stroboscopic visibility measure (IEC TR 63158, threshold of Perz et al. 2018); "
+        "Pst_LM: flicker severity of the light (IEC TR 61547-1; 1 is the visibility threshold). "
+        "EU ecodesign: Regulation (EU) 2019/2020 as amended by 2021/341 at full load (SVM <= "
+        "0.4 from 1 September 2024, Pst_LM <= 1.0, displacement factor by power)"
+        + (f", as on {day.isoformat()}" if day is not None else "")
+        + "; '-' where the project does not apply them or the lamp is not an LED source. "
+        "Computed from the circuit models' light output.", "note"))
     return out
 
 

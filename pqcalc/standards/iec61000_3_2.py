@@ -682,6 +682,25 @@ _STRICT_BASIS = ("behind an independent phase-cut dimmer, held to the full-outpu
                  "at the owner's request (strict mode), beyond the standard's type test")
 
 
+#: A first state within this fraction of the highest power is the full-output state [-].
+FULL_POWER_TOL = 0.01
+
+
+def full_output_index(powers: Sequence[float]) -> int:
+    """Which state is the full-output (maximum-power) one: the first state (the lamp at its
+    rated supply, no dimmer: what a type test measures) when its power is within
+    :data:`FULL_POWER_TOL` of the highest, else the highest. A constant-power driver draws
+    the same power at every setting; its full output stays the undimmed state.
+
+    >>> full_output_index([60.0, 60.05, 31.5]), full_output_index([9.0, 9.5, 4.0])
+    (0, 1)
+    """
+    top = max(powers)
+    if powers[0] >= (1 - FULL_POWER_TOL) * top:
+        return 0
+    return max(range(len(powers)), key=lambda k: powers[k])
+
+
 def evaluate_dimmable(
     states: Sequence[tuple[str, Record, float | None, float | None]],
     equipment_class: EquipmentClass = "C",
@@ -740,7 +759,7 @@ def evaluate_dimmable(
         _check_fundamental(s)
         p, lam = _power_and_pf(s, p_w, pf)
         prepared.append((str(label), s, w, p, lam))
-    kmax = max(range(len(prepared)), key=lambda k: prepared[k][3])
+    kmax = full_output_index([x[3] for x in prepared])
     label, s_max, w_max, p_max, pf_max = prepared[kmax]
     fixture = fixture or s_max.label
     top = evaluate_fixture(w_max if w_max is not None else s_max, p_max, pf_max,
