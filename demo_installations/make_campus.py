@@ -10,7 +10,7 @@ lamps...), each circuit with its breaker, its branch cable and, where dimmed, it
 rating and its setting in each of three scenarios:
 
 * ``daytime``: teaching spaces dimmed by daylight, residences dimmed low;
-* ``evening``: lecture theatres and the Great Hall dimmed for presentations and a show,
+* ``evening``: auditoria and the Great Hall dimmed for presentations and a show,
   residences full;
 * ``cleaning``: the cleaners turn every dimmer to full.
 
@@ -113,11 +113,11 @@ ROOM_TYPES: dict[str, RoomType] = {
     "stair": RoomType("stair and landing", (("corridor-lamp", 12),), curve="C",
                       lengths_m=(20, 30)),
     "toilets": RoomType("toilets", (("gu10-5w", 10),), curve="C", lengths_m=(15, 25)),
-    # lecture theatres: house downlights and a presenter's wash on triac dimmers
-    "lt-house": RoomType("lecture theatre house lights", (("downlight-9w", 16),),
+    # auditoria: house downlights and a presenter's wash on triac dimmers
+    "lt-house": RoomType("auditorium house lights", (("downlight-9w", 16),),
                          dimmer=LE, settings=(150, 90, 180), rating_w=1000, min_load_w=40,
                          lengths_m=(20, 30)),
-    "lt-presenter": RoomType("lecture theatre presenter's wash", (("house-halogen", 4),),
+    "lt-presenter": RoomType("auditorium presenter's wash", (("house-halogen", 4),),
                              dimmer=LE, settings=(180, 120, 180), rating_w=600,
                              lengths_m=(20, 30)),
     # library: reading pendants on transistor (electronic leading-edge) dimmers
@@ -214,7 +214,7 @@ PANELS: tuple[PanelPlan, ...] = (
         ("lab", 9), ("prep-room", 4), ("corridor", 3), ("toilets", 2), ("stair", 1))),
     PanelPlan("SCI-1", "Science building, first floor", 220, 25, (
         ("lab", 9), ("prep-room", 3), ("seminar", 2), ("corridor", 3), ("stair", 1))),
-    PanelPlan("LT-1", "Lecture theatres A and B", 60, 16, (
+    PanelPlan("LT-1", "Auditoria A and B", 60, 16, (
         ("lt-house", 8), ("lt-presenter", 4), ("corridor", 2), ("stair", 2), ("toilets", 2))),
     PanelPlan("GH-STAGE", "Great Hall, stage dimmer rack", 45, 35, (
         ("gh-stage", 12), ("gh-house-halogen", 3), ("gh-house-mixed", 3))),
