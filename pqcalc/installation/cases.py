@@ -83,7 +83,6 @@ class GroupStress:
     fixture: str
     count: int
     i_rms_one_a: float
-    p_one_w: float
 
 
 @dataclass(frozen=True)
@@ -242,7 +241,7 @@ class CaseSolver:
             self.captures[fid] = (x, p1, tuple(notes))
         x, p1, got = self.captures[fid]
         # a steady-state record holds no switch-on inrush: unknown (NaN), not its peak
-        g = GroupStress(fid, count, float(np.sqrt(np.mean(x**2))), p1)
+        g = GroupStress(fid, count, float(np.sqrt(np.mean(x**2))))
         return CaseResult(x * count, 1, p1 * count, (), (g,),
                           got + (f"fixture {fid}: measured record used at its recorded "
                                    "conditions (dimmer setting not applied)",))
@@ -338,7 +337,7 @@ class CaseSolver:
                           f"{v1:.1f} V): {e}") from None
         w = sol.waveform
         x = to_grid(w, w.cycles)
-        gs = tuple(GroupStress(f, n, float(g.waveform.i_rms_a), float(g.p_w or 0.0))
+        gs = tuple(GroupStress(f, n, float(g.waveform.i_rms_a))
                    for (f, n), g in zip(groups, sol.groups, strict=True))
         p = float(w.p_w) if w.p_w is not None else float("nan")
         if not np.isfinite(p):

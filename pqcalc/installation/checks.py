@@ -248,17 +248,11 @@ def transformer_derating(
 FLAG_TEXT = {
     "no-solution": "the circuit model found no periodic steady state (unstable or chaotic "
                    "operation: expect flicker); this circuit is LEFT OUT of the panel sums",
-    "no-latch": "the triac does not stay on after firing (load current below its latching or "
-                "holding current): flicker or no light; add load, a bleeder, or use a "
-                "trailing-edge dimmer",
-    "misfire": "the dimmer fails to fire in some half cycles",
-    "re-fire": "the triac fires more than once per half cycle",
-    "subharmonic": "the dimmer fires only every few half cycles: visible flicker and a DC/"
-                   "sub-harmonic current",
     "asymmetric": "the two half cycles differ: a DC component and even harmonics",
     "drop-out": "the lamp's driver shuts down at this setting",
     "glow-when-off": "the dimmer's own supply current lights the lamp when off",
 }
+
 
 def dimmer_compatibility(flags: tuple[str, ...], light: Mapping[str, Any] | None,
                          dimmer: str) -> list[Check]:

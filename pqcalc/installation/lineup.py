@@ -298,10 +298,6 @@ def _solve(ft: ModelledFixture, v: float, f: float, kind: str, cond: float | Non
     return sol.waveform, np.asarray(sol.groups[0].light, dtype=float), sol.period_cycles / f
 
 
-def _solve_one(ft: ModelledFixture, v: float, f: float, kind: str, cond: float | None) -> Waveform:
-    return _solve(ft, v, f, kind, cond)[0]
-
-
 def fixture_states(ft: ModelledFixture, v: float, f: float, kind: str, grid: int = 19,
                    notes: list[str] | None = None) -> list[tuple[str, float | None, Waveform]]:
     """The maximum-power state and five equidistant-power dimmed states of a modelled
@@ -385,8 +381,7 @@ def evaluate_lineup(inst: Installation, equipment_class: EquipmentClass = "C", *
         ``[compliance] on_date``, else the project's date when it is one, else today.
     """
     from ..standards import DEFAULT_EDITION, check_edition, evaluate_dimmable, evaluate_fixture
-    from ..standards.iec61000_3_2 import full_output_index
-    from ..standards.iec61000_3_2 import SCOPE_MIN_VOLTAGE_V
+    from ..standards.iec61000_3_2 import SCOPE_MIN_VOLTAGE_V, full_output_index
 
     ed = check_edition(DEFAULT_EDITION if edition is None else edition)
     strict = inst.compliance.strict_dimmed if strict_dimmed is None else bool(strict_dimmed)
