@@ -140,3 +140,12 @@ def test_an_unsolved_circuit_is_not_judged_against_its_breaker():
     solved = SimpleNamespace(groups=groups, flags=(), light=None)
     checks, _, _ = ck.circuit_checks(inst, IEC, c, solved, 0.0, None, ())
     assert [x.status for x in checks if x.name == "breaker load"] == ["pass"]
+
+
+def test_a_circuit_without_a_repeating_state_is_said_loudly():
+    # The solver's long-transient fallback keeps the circuit in every sum (its mean cycle);
+    # the compatibility check says so: a warning, never silence (the project's rule that a
+    # result computed another way is marked).
+    c = ck.dimmer_compatibility(("long-transient",), {"mean": 0.9, "pst_lm": 0.5},
+                                "leading-edge")
+    assert [x.status for x in c] == ["warn"] and "long transient" in c[0].message

@@ -251,6 +251,8 @@ FLAG_TEXT = {
     "asymmetric": "the two half cycles differ: a DC component and even harmonics",
     "drop-out": "the lamp's driver shuts down at this setting",
     "glow-when-off": "the dimmer's own supply current lights the lamp when off",
+    "long-transient": "the circuit never settles into a repeating state: its figures are the "
+                      "mean of a long transient, with interharmonic current; expect flicker",
 }
 
 
@@ -296,7 +298,7 @@ def dimmer_compatibility(flags: tuple[str, ...], light: Mapping[str, Any] | None
                          math.nan if pst is None else float(pst), 1.0, "-",
                          {"flag": firing[0]}))
     for fl in flags:
-        if fl in ("drop-out", "glow-when-off", "asymmetric"):
+        if fl in ("drop-out", "glow-when-off", "asymmetric", "long-transient"):
             out.append(Check("dimmer compatibility", "warn",
                              f"the circuit model reports '{fl}' at this setting: "
                              + FLAG_TEXT[fl], src, details={"flag": fl}))
