@@ -24,6 +24,7 @@ cycles come out of the simulation (:mod:`pqcalc.circuits.pwl`), they are not ass
 from __future__ import annotations
 
 import functools
+import math
 
 import numpy as np
 
@@ -42,6 +43,7 @@ SWITCH = "dim.S"
 MAX_PULSES = 400
 
 
+@functools.lru_cache(maxsize=8192)
 def network_delay_s(r_ohm: float, c_f: float, v_pk_v: float, frequency_hz: float,
                     breakover_v: float, t0_s: float = 0.0, v0_v: float = 0.0) -> float | None:
     """First time [s] in ``[t0_s, 1/(2f))`` at which the timing capacitor of an RC firing
@@ -71,10 +73,11 @@ def network_delay_s(r_ohm: float, c_f: float, v_pk_v: float, frequency_hz: float
     k0 = v0_v - a * np.sin(w * t0_s - phi)
 
     def v(t):
-        return a * np.sin(w * t - phi) + k0 * np.exp(-(t - t0_s) / tau)
+        return a * math.sin(w * t - phi) + k0 * math.exp(-(t - t0_s) / tau)
 
     ts = np.linspace(t0_s, half, 4097)
-    above = np.nonzero(v(ts) >= breakover_v)[0]
+    above = np.nonzero(a * np.sin(w * ts - phi) + k0 * np.exp(-(ts - t0_s) / tau)
+                       >= breakover_v)[0]
     if not above.size:
         return None
     i = int(above[0])
