@@ -65,7 +65,7 @@ def test_converter_holds_its_power():
     # energy balance: the converter's input (the chord interpolant, 1e-4 high at most)
     # plus the series resistor, the bleeder and four 0.65 V diodes carrying the
     # charging current make up the input power; without a dimmer, 9 W
-    sol = solve_circuit(SUP, DimmerSpec("none"), [LoadGroup("bulk-cap", 9.0)], extras=False)
+    sol = solve_circuit(SUP, DimmerSpec("none"), [LoadGroup("bulk-cap", 9.0)])  # stresses: extras
     g = sol.groups[0]
     losses = sum(w for _, w in g.stresses.resistor_w)
     # the diodes: two in the path, 0.65 V (+0.08 ohm) times the mean rectified current;
@@ -83,10 +83,8 @@ def test_dropper_surge_dissipation_rises_under_phase_cut():
     # dissipates C dV^2 / 2 whatever the resistance (closed form)
     p = {k: v for k, v in [("c_series_f", 470e-9), ("r_surge_ohm", 100.0),
                            ("v_string_v", 200.0), ("c_string_f", 1e-6)]}
-    full = solve_circuit(SUP, _cut(180.0), [LoadGroup("dropper", 2.0, params=p)],
-                         extras=False)
-    cut = solve_circuit(SUP, _cut(90.0), [LoadGroup("dropper", 2.0, params=p)],
-                        extras=False)
+    full = solve_circuit(SUP, _cut(180.0), [LoadGroup("dropper", 2.0, params=p)])
+    cut = solve_circuit(SUP, _cut(90.0), [LoadGroup("dropper", 2.0, params=p)])
     w_full = dict(full.groups[0].stresses.resistor_w)["R_surge"]
     w_cut = dict(cut.groups[0].stresses.resistor_w)["R_surge"]
     # the capacitor-energy estimate: two edges per cycle, each a step of at least

@@ -117,8 +117,8 @@ def _stresses_dict(st) -> dict:
     return {
         "i_peak_a": st.i_peak_a,
         "inrush_peak_a": st.inrush_peak_a,
-        "cap_rms_a": dict(st.cap_rms_a),
-        "resistor_w": dict(st.resistor_w),
+        "cap_rms_a": dict(st.cap_rms_a or ()),
+        "resistor_w": dict(st.resistor_w or ()),
     }
 
 
@@ -560,8 +560,8 @@ def _print_solution(a, sol, spec, supply, sl, group) -> None:
         ("peak current (one lamp)", fmt(st.i_peak_a), "A"),
         ("inrush peak at the crest", fmt(st.inrush_peak_a), "A"),
     ]
-    rows += [(f"{name} rms current", fmt(v), "A") for name, v in st.cap_rms_a]
-    rows += [(f"{name} dissipation", fmt(v), "W") for name, v in st.resistor_w]
+    rows += [(f"{name} rms current", fmt(v), "A") for name, v in st.cap_rms_a or ()]
+    rows += [(f"{name} dissipation", fmt(v), "W") for name, v in st.resistor_w or ()]
     if sl.jitter is not None:
         rows.insert(rows.index(("Pst_LM (IEC TR 61547-1)", fmt(sl.pst_lm, ".3g"), "")) + 1,
                     (f"Pst_LM, jitter {sl.jitter.jitter_deg:g} deg", fmt(sl.jitter.pst_lm, ".3g"),
