@@ -64,6 +64,12 @@ def test_compiled_loop_matches_python_loop(model, power, dimmer, monkeypatch):
         assert "long-transient" in a.flags and "long-transient" in b.flags
         assert a.record_cycles == b.record_cycles
         return
+    unsettled = ["power loop did not settle" in " ".join(x.notes) for x in (a, b)]
+    if any(unsettled):
+        # a pfc driver whose power jumps with the dimmer's holding has several states; a
+        # rounding apart picks another one: both loops must say so (the kind of result)
+        assert all(unsettled)
+        return
     i1 = abs(b.current_phasors_a[1])
     assert np.max(np.abs(a.current_phasors_a - b.current_phasors_a)) < 1e-8 * i1
     assert a.i_rms_a == pytest.approx(b.i_rms_a, rel=1e-8)

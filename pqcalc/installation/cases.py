@@ -342,7 +342,10 @@ class CaseSolver:
         p = float(w.p_w) if w.p_w is not None else float("nan")
         if not np.isfinite(p):
             raise InputError(f"circuit {cid}: the solver returned no power")
-        return CaseResult(x, w.cycles, p, tuple(sol.flags), gs, (),
+        # the solver's notes, except its dimmer-top note: the case was clamped to the top
+        # already, and says so itself
+        notes = tuple(n for n in sol.notes if "conducts at most" not in n)
+        return CaseResult(x, w.cycles, p, tuple(sol.flags), gs, notes,
                           _worst_light(sol, inst.supply.frequency_hz))
 
     def inrush(self, c: Circuit, scenario: int) -> tuple[Any, tuple[str, ...]]:

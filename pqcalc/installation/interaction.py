@@ -218,6 +218,8 @@ class Interaction:
     change: float
     #: the updates grew instead of shrinking (the iteration was stopped)
     diverged: bool = False
+    #: the largest update of every iteration [fraction of V1]
+    history: tuple[float, ...] = ()
 
 
 def fixed_point(inst: Installation,
@@ -280,7 +282,7 @@ def fixed_point(inst: Installation,
         if len(history) >= 3 and history[-1] > history[-2] > history[-3]:
             # two growing updates in a row: not converging (a resonance, most often); more
             # iterations cost many solves and would only report a wrong number
-            return Interaction(cases, sums, it, change, True)
+            return Interaction(cases, sums, it, change, True, tuple(history))
         xs.append(x)
         fs.append(f)
         xs, fs = xs[-(m + 1):], fs[-(m + 1):]
@@ -291,7 +293,7 @@ def fixed_point(inst: Installation,
             x = x + beta * f - (dX + beta * dF) @ gamma
         else:
             x = x + beta * f
-    return Interaction(cases, sums, it, change)
+    return Interaction(cases, sums, it, change, False, tuple(history))
 
 
 def resonance_order(inst: Installation, shunt_c_f: Mapping[str, float]) -> tuple[float, float]:
