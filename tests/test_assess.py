@@ -235,3 +235,38 @@ def test_capacitor_resonance_order_closed_form():
                                 rel=1e-12)
     chk = resonance_check(inst, solver)
     assert chk.value == pytest.approx(h_r) and chk.status == ("warn" if h_r <= 50 else "info")
+
+
+def test_interaction_names_circuits_whose_current_jumps(tmp_path):
+    # The iteration's own diagnostic (pqcalc.installation.interaction, JUMP_FRACTION and
+    # JUMP_GAIN): a circuit whose current doubles for a voltage change far too small for a
+    # smooth response is named as having changed its firing pattern. The solves are the real
+    # ones; one circuit's current is doubled by hand on alternate passes, as a triac at the
+    # edge of re-firing answers a small voltage change.
+    from dataclasses import replace
+
+    from pqcalc.installation.cases import CaseSolver
+    from pqcalc.installation.interaction import fixed_point
+    from pqcalc.installation.scenario import solve_pass
+
+    inst = build(tmp_path, [(ph, "none", 180, 20) for ph in ("L1", "L2", "L3")],
+                 "source_r_ohm = 0.05\nsource_l_h = 2e-4", "true")
+    solver = CaseSolver(inst)
+    cases, sums = solve_pass(inst, solver, 0)
+    flip = inst.circuits[0].id
+
+    def flipping(at):
+        cs, _ = solve_pass(inst, solver, 0, at)
+        cs = dict(cs)
+        cs[flip] = cs[flip].scaled(1 if len(fp_calls) % 2 else 2)
+        fp_calls.append(len(fp_calls))
+        from pqcalc.installation.sums import sum_installation
+        return cs, sum_installation(inst, {k: (v.current_a, v.cycles, v.p_w)
+                                           for k, v in cs.items()})
+
+    fp_calls: list[int] = []
+    fp = fixed_point(replace(inst, analysis=replace(inst.analysis, max_iterations=4)),
+                     flipping, cases, sums)
+    assert flip in dict(fp.jumps)
+    assert dict(fp.jumps)[flip] == pytest.approx(1.0, rel=0.05)  # the current doubled
+    assert set(dict(fp.jumps)) == {flip}  # the smooth resistive circuits are not named

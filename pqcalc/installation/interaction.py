@@ -180,6 +180,13 @@ def node_voltages(inst: Installation, sums: InstallationSums
 #: balanced panel see the same voltage in their own frames).
 HARMONIC_STEP = 1e-5
 ANGLE_STEP_DEG = 0.1
+#: A circuit whose current moves by more than JUMP_FRACTION of its fundamental (at any
+#: order) from one pass to the next, and by more than JUMP_GAIN times the change of its EMF
+#: (both as fractions, of I1 and V1), has changed its firing pattern (a triac that re-fires
+#: once more or once less per half cycle): a jump, not a smooth response (a bulk-capacitor
+#: lamp's harmonic currents move by about 20 times a voltage harmonic's fraction).
+JUMP_FRACTION = 0.25
+JUMP_GAIN = 200.0
 #: Damping of the fixed-point step (1 = undamped) and the number of earlier steps
 #: Anderson's method combines (0 = plain damped substitution).
 RELAX = 0.8
@@ -220,6 +227,11 @@ class Interaction:
     diverged: bool = False
     #: the largest update of every iteration [fraction of V1]
     history: tuple[float, ...] = ()
+    #: where the last update was largest: (circuit id, order)
+    worst: tuple[str, int] | None = None
+    #: circuits whose current jumped between two passes (a change of firing pattern):
+    #: (id, the largest jump [fraction of I1])
+    jumps: tuple[tuple[str, float], ...] = ()
 
 
 def fixed_point(inst: Installation,
@@ -269,20 +281,42 @@ def fixed_point(inst: Installation,
     history: list[float] = []
     change = float("inf")
     it = 0
+    jumps: dict[str, float] = {}
+    worst: tuple[str, int] | None = None
+    last = x
     for it in range(1, opts.max_iterations + 1):  # noqa: B007 (reported after the loop)
         cur = unpack(x)
         at = {cid: own_frame(inst, line_of[cid], v, loops[cid]) for cid, v in cur.items()}
+        before = cases
         cases, sums = solve_pass(at)
+        # how far each circuit's EMF moved for this pass [fraction of V1]: the first pass
+        # from the stiff supply, the others from the pass before
+        dx = np.abs(x - last) if it > 1 else np.abs(x - pack({
+            cid: ideal_voltage(inst, line_of[cid]) for cid in ids}))
+        half = dx.size // 2
+        moved = np.max(np.hypot(dx[:half], dx[half:]).reshape(len(ids), -1), axis=1)
+        last = x
+        for k, cid in enumerate(ids):
+            a, b = before[cid].phasors, cases[cid].phasors
+            i1 = abs(a[1])
+            jump = float(np.max(np.abs(b - a))) / i1 if i1 > 0 else 0.0
+            if jump > JUMP_FRACTION and jump > JUMP_GAIN * moved[k]:
+                jumps[cid] = max(jump, jumps.get(cid, 0.0))
         g = pack(circuit_sources(inst, cases, sums))
         f = g - x
-        change = float(np.max(np.abs(f[: f.size // 2] + 1j * f[f.size // 2:])))
+        fz = np.abs(f[:half] + 1j * f[half:]).reshape(len(ids), -1)
+        change = float(np.max(fz))
+        kw, hw = np.unravel_index(int(np.argmax(fz)), fz.shape)
+        worst = (ids[int(kw)], int(hw))
         history.append(change)
         if change < opts.tolerance:
             break
         if len(history) >= 3 and history[-1] > history[-2] > history[-3]:
-            # two growing updates in a row: not converging (a resonance, most often); more
-            # iterations cost many solves and would only report a wrong number
-            return Interaction(cases, sums, it, change, True, tuple(history))
+            # two growing updates in a row: not converging (a resonance, or circuits that
+            # change their firing pattern); more iterations cost many solves and would
+            # only report a wrong number
+            return Interaction(cases, sums, it, change, True, tuple(history), worst,
+                               tuple(jumps.items()))
         xs.append(x)
         fs.append(f)
         xs, fs = xs[-(m + 1):], fs[-(m + 1):]
@@ -293,7 +327,8 @@ def fixed_point(inst: Installation,
             x = x + beta * f - (dX + beta * dF) @ gamma
         else:
             x = x + beta * f
-    return Interaction(cases, sums, it, change, False, tuple(history))
+    return Interaction(cases, sums, it, change, False, tuple(history), worst,
+                       tuple(jumps.items()))
 
 
 def resonance_order(inst: Installation, shunt_c_f: Mapping[str, float]) -> tuple[float, float]:

@@ -158,6 +158,17 @@ def evaluate_scenario(inst: Installation, solver: CaseSolver, scenario: int,
         why = (f"; the fixtures' input capacitance ({1e6 * c_f:.0f} uF on the most loaded line) "
                f"resonates with the source inductance near order {h_r:.0f}, which amplifies "
                "the harmonic voltages there" if h_r <= 60 else "")
+        if fp.worst is not None:
+            c = next(c for c in inst.circuits if c.id == fp.worst[0])
+            why += (f"; the largest update was at order {fp.worst[1]} on panel {c.panel}, "
+                    f"line {c.line}")
+        if fp.jumps:
+            big = sorted(fp.jumps, key=lambda j: -j[1])
+            names = ", ".join(cid for cid, _ in big[:6]) + (
+                f" and {len(big) - 6} more" if len(big) > 6 else "")
+            why += (f"; {len(big)} dimmed {'circuit changes' if len(big) == 1 else 'circuits change'}"
+                    f" firing pattern under the distortion (the current jumps by up to "
+                    f"{100 * big[0][1]:.0f} % of its fundamental): {names}")
         warn = Check("supply interaction", "warn",
                      f"the supply-interaction iteration diverged (updates grew to "
                      f"{100 * fp.change:.2f} % of V1 after {fp.iterations} iterations){why}: "
