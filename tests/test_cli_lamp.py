@@ -67,6 +67,17 @@ def test_json_summary_closed_form_and_keys():
     assert "licensed professional" in d["caution"]
 
 
+def test_json_norton_admittance_of_resistive_lamps():
+    # Ohm's law: undimmed resistive lamps are a conductance 1 / (V^2 / P + r_on) at every
+    # order, with the source impedance taken out (pqcalc.circuits.smallsignal)
+    d = run_json("--model", "resistive", "--power-w", "60", "--count", "5")
+    n = d["norton"]
+    g = 1 / (V * V / (5 * P) + d["dimmer"]["params"]["r_on_ohm"])
+    assert n["orders"] == list(range(2, 51))
+    assert np.allclose(n["conductance_s"], g, rtol=1e-6)
+    assert np.allclose(n["susceptance_s"], 0.0, atol=1e-9)
+
+
 def test_text_output_has_the_figures():
     r = run("--model", "resistive", "--power-w", "60", "--dimmer", "leading-edge",
             "--switch", "transistor", "--conduction-deg", "90", *IDEAL)

@@ -177,6 +177,11 @@ class Solution:
     interharmonic_a: float = 0.0
     record_cycles: int = 0
     notes: tuple[str, ...] = ()
+    #: with ``admittance=True``: the line current's diagonal harmonic admittance to the
+    #: source voltage about this state, orders 0..50 [S]
+    #: (:func:`pqcalc.circuits.smallsignal.input_admittance`); None otherwise, or where the
+    #: state has no one-cycle period
+    input_admittance_s: np.ndarray | None = None
 
     @property
     def interharmonic_fraction(self) -> float:
@@ -515,7 +520,8 @@ def _thermal_light(p_w: np.ndarray, rated_w: float, tau_s: float, f_hz: float,
 
 # ---------------------------------------------------------------------- public
 def solve_circuit(supply: Supply, dimmer: DimmerSpec, loads, samples_per_cycle: int =
-                  SAMPLES_PER_CYCLE, extras: bool = True) -> Solution:
+                  SAMPLES_PER_CYCLE, extras: bool = True, admittance: bool = False
+                  ) -> Solution:
     """The periodic steady state of all lamp groups behind one dimmer on one supply.
 
     One solve: the triac or transistor sees the summed current of every group (holding and
@@ -534,6 +540,9 @@ def solve_circuit(supply: Supply, dimmer: DimmerSpec, loads, samples_per_cycle: 
         of models whose rated LED output needs a reference solve. ``False`` is for speed:
         ``inrush_peak_a`` is None, and that normalisation (a solve of the lamp alone on its
         rated supply, memoised per fixture type) runs only when ``light`` is first read.
+    admittance
+        Also compute the harmonic input admittance about the solved state
+        (``Solution.input_admittance_s``; a linear model for the supply-interaction step).
 
     Raises
     ------
@@ -552,13 +561,15 @@ def solve_circuit(supply: Supply, dimmer: DimmerSpec, loads, samples_per_cycle: 
             raise InputError(f"loads: expected LoadGroup items, got {type(g).__name__}")
     if int(samples_per_cycle) < 64:
         raise InputError("samples_per_cycle: expected at least 64")
-    sol = _solve_cached(supply, dimmer, loads, int(samples_per_cycle), bool(extras), False)
+    sol = _solve_cached(supply, dimmer, loads, int(samples_per_cycle), bool(extras), False,
+                        bool(admittance))
     assert isinstance(sol, Solution)
     return sol
 
 
 @functools.lru_cache(maxsize=256)
-def _solve_cached(supply, dimmer, loads, spc, extras, reference) -> Solution | float:
+def _solve_cached(supply, dimmer, loads, spc, extras, reference,
+                  admittance: bool = False) -> Solution | float:
     """One solve (memoised); with ``reference`` the mean LED power [W] of its one lamp."""
     dp = resolve_dimmer(dimmer, supply)
     gparams = [resolve_params(g.model, g.power_w, supply.v_rms_v, supply.frequency_hz,
@@ -623,6 +634,11 @@ def _solve_cached(supply, dimmer, loads, spc, extras, reference) -> Solution | f
         return _reference_power(case, tr, case.builds[0])
     sol = _assemble(supply, dimmer, dp, loads, gparams, levels, case, tr, period, iters, ok,
                     spc, extras, measured, fires, nolatch, cond_set, reference)
+    if admittance and period == 1 and not long:
+        from .smallsignal import input_admittance
+
+        sol = replace(sol, input_admittance_s=input_admittance(
+            case.eng, tr, case.eng.net.index["A_line"], MAX_ORDER))
     notes: tuple[str, ...] = ()
     if dimmer.conduction_deg is not None and cond_set is not None and \
             cond_set < dimmer.conduction_deg:

@@ -296,7 +296,7 @@ def lamp_cmd(model, power_w, count, voltage, frequency, dimmer, switch, conducti
                          "--knob (0..1), or --curve")
     spec = DimmerSpec(dimmer, conduction_deg=conduction_deg, knob=knob, switch=switch,
                       params=split["dimmer"])
-    sol = solve_circuit(supply, spec, [group])
+    sol = solve_circuit(supply, spec, [group], admittance=as_json)
     gr = sol.groups[0]
     period_s = sol.period_cycles / supply.frequency_hz
     a = analyze(sol.waveform, 40)
@@ -487,7 +487,27 @@ def _solution_dict(sol, spec, supply, split, fl) -> dict:
                   "max_pct": 100.0 * float(np.max(gr.light))},
         "flicker": fl.to_dict(),
         "stresses": _stresses_dict(gr.stresses),
+        "norton": _norton_dict(sol, supply),
     }
+
+
+def _norton_dict(sol, supply) -> dict | None:
+    """The lamps' harmonic Norton admittance at the dimmer's line terminal, orders 2..50
+    (the current's phasors are the Norton source): None without a one-cycle period."""
+    from ..circuits.smallsignal import at_terminals
+
+    y = sol.input_admittance_s
+    if y is None:
+        return None
+    yt = at_terminals(y, supply.source_r_ohm, supply.source_l_h, supply.source_damping_ohm,
+                      supply.frequency_hz)
+    return {"orders": list(range(2, yt.size)),
+            "conductance_s": [float(v.real) for v in yt[2:]],
+            "susceptance_s": [float(v.imag) for v in yt[2:]],
+            "note": "diagonal harmonic admittance of all the lamps behind the dimmer about "
+                    "this state, at the dimmer's line terminal (the source impedance taken "
+                    "out): how their current at each order answers a small voltage of that "
+                    "order; the coupling between orders is left out"}
 
 
 def _write_waveform(path, w, light) -> None:

@@ -1,0 +1,117 @@
+"""A circuit's harmonic input admittance about its periodic steady state (a Norton model).
+
+A small harmonic ``dV_h`` added to the source voltage of a solved circuit changes its line
+current. Along the solved period the circuit is linear between events, so the change
+``xi`` of the state obeys, on each segment (mode ``A``, source column ``b``),
+
+    xi' = A xi + b exp(j h w t),
+
+solved exactly: ``xi(t) = pi_h exp(j h w t) + V exp(Lambda (t - t0)) V^-1 (xi(t0) - pi_h
+exp(j h w t0))`` with ``pi_h = (j h w - A)^-1 b`` (the same modal form the steady state
+uses, :mod:`pqcalc.circuits.pwl`). The periodic response follows from the monodromy matrix
+``Phi`` of the steady state: ``xi(0) = (I - Phi)^-1 xi_T`` where ``xi_T`` is the end state
+of a run from zero. The line current's change at the same order, over ``dV_h``, is the
+diagonal of the circuit's harmonic transfer matrix: ``Y_h`` [S].
+
+It is the Norton admittance a network harmonic study needs beside the load's harmonic
+currents (the currents at the solved state are the Norton source): how the fixture's
+current answers a harmonic voltage at its terminals. What it leaves out: the shift of event
+times (exact for diodes, whose vector field is continuous across their switching surface,
+and for time events such as a dimmer's firing instant; approximate at a triac's drop-out
+below its holding current and at a converter's lock-out), and the coupling of order ``h``
+to other orders and to the conjugate of its own (a rectifier mixes orders; the diagonal is
+its largest part at the high orders where supply resonances live).
+
+References
+----------
+E. Mollerstedt, B. Bernhardsson, "Out of control because of harmonics: an analysis of the
+harmonic response of an inverter locomotive", IEEE Control Systems 20(4), 70-81, 2000
+(harmonic transfer matrices of periodically switched systems); T. J. Aprille, T. N. Trick,
+Proc. IEEE 60(1), 1972 (the monodromy matrix of the periodic steady state).
+"""
+
+from __future__ import annotations
+
+import numpy as np
+
+from .network import CH_SOURCE
+
+__all__ = ["input_admittance", "at_terminals"]
+
+
+def _phi1(z: np.ndarray) -> np.ndarray:
+    """``(exp(z) - 1) / z``, its series near 0."""
+    small = np.abs(z) < 1e-6
+    zs = np.where(small, 1.0, z)
+    return np.where(small, 1.0 + 0.5 * z, np.expm1(zs) / zs)
+
+
+def input_admittance(eng, tr, row: int, max_order: int) -> np.ndarray | None:
+    """The diagonal harmonic admittance of output ``row`` (an element current, the line's)
+    to the source voltage, orders ``0..max_order`` [S] (order 0 and 1 left at 0). None when
+    the source has no fundamental to recover the modes' input vectors from, or the periodic
+    problem is singular."""
+    net, src = eng.net, eng.src
+    nx = net.n_x
+    t0, t1, (Q, V, P, _p0, lam, _consts), idx, _C = tr.segment_table()
+    orders = np.asarray(src.orders)
+    at1 = np.nonzero(orders == 1)[0]
+    if nx == 0 or not at1.size or abs(src.amplitudes[at1[0]]) == 0:
+        return None
+    k1 = int(at1[0])
+    w = float(src.omega)
+    h = np.arange(2, max_order + 1)
+    jhw = 1j * w * h  # (H,)
+    Vinv = np.linalg.inv(V)  # (modes, n, n)
+    # the modes' input vectors in modal coordinates, from the fundamental's particular
+    # solution P_1 = V diag(1 / (j w - lam)) beta S_1
+    beta = (1j * w - lam) * np.einsum("mij,mj->mi", Vinv, P[:, :, k1]) \
+        / src.amplitudes[k1]  # (modes, n)
+    # pi_h per mode: V diag(1 / (j h w - lam)) beta, (modes, nx, H)
+    pim = beta[:, :, None] / (jhw[None, None, :] - lam[:, :, None])
+    pi = np.einsum("mij,mjh->mih", V, pim)
+    d = t1 - t0
+    T = float(t1[-1])
+
+    def run(xi0: np.ndarray, collect: bool):
+        xi = xi0
+        acc = np.zeros(h.size, dtype=complex)
+        for s in range(t0.size):
+            m = idx[s]
+            e0 = np.exp(jhw * t0[s])
+            c = Vinv[m] @ (xi - pi[m] * e0)  # (n, H)
+            el = np.exp(lam[m] * d[s])
+            if collect:
+                q = Q[m, row]
+                qx, qu = q[:nx], q[nx + CH_SOURCE]
+                # the same-order Fourier integral of eta = (qx pi + qu) e^{jhwt}
+                # + (qx V) e^{lam (t - t0)} c over the segment, times e^{-jhwt}
+                acc += (qx @ pi[m] + qu) * d[s]
+                z = (lam[m][:, None] - jhw[None, :]) * d[s]
+                acc += np.einsum("k,kh->h", qx @ V[m], c * d[s] * _phi1(z)) * np.conj(e0)
+            xi = pi[m] * np.exp(jhw * t1[s]) + V[m] @ (el[:, None] * c)
+        return xi, acc
+
+    xi_T, _ = run(np.zeros((nx, h.size), dtype=complex), False)
+    try:
+        xi0 = np.linalg.solve(np.eye(nx) - tr.phi, xi_T)
+    except np.linalg.LinAlgError:
+        return None
+    _, acc = run(xi0, True)
+    y = np.zeros(max_order + 1, dtype=complex)
+    y[2:] = acc / T
+    return y if np.all(np.isfinite(y)) else None
+
+
+def at_terminals(y_e: np.ndarray, source_r_ohm: float, source_l_h: float,
+                 source_damping_ohm: float, frequency_hz: float) -> np.ndarray:
+    """The admittance seen at the circuit's terminals from the one seen by the source EMF
+    [S]: the source impedance ``Z_s(h) = R + (j h w L || R_damp)`` (the solver's source
+    branch) taken out, ``Y_t = Y_E / (1 - Z_s Y_E)`` (from ``E = V + Z_s I``)."""
+    h = np.arange(y_e.size)
+    if source_l_h > 0:
+        zl = 1j * h * 2 * np.pi * frequency_hz * source_l_h
+        zs = source_r_ohm + zl * source_damping_ohm / (zl + source_damping_ohm)
+    else:  # the solver's 1 uohm link resistor in place of the inductance
+        zs = np.full(h.size, source_r_ohm + 1e-6, dtype=complex)
+    return y_e / (1 - zs * y_e)
