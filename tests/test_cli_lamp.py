@@ -309,3 +309,17 @@ def test_text_output_has_svm_pst_lm_and_the_eu_verdict():
             "--steps", "3", "--on-date", "2025-01-01")
     assert r.exit_code == 0, r.output
     assert "SVM" in r.stdout and "Pst_LM" in r.stdout and "DPF" in r.stdout
+
+
+def test_component_value_outside_real_parts_is_refused():
+    # a 5e-324 ohm switch (the smallest double) made the solver's matrices singular; the
+    # model's parts are held to the range of real parts of their unit
+    # (pqcalc.circuits.ranges.COMPONENT_RANGES, the installation file's ranges)
+    from click.testing import CliRunner
+
+    from pqcalc.cli import main
+
+    r = CliRunner().invoke(main, ["lamp", "--model", "bulk-cap", "--power-w", "9",
+                                  "--param", "r_on_ohm=5e-324"])
+    assert r.exit_code == 2
+    assert "r_on_ohm: expected 1e-06 to 1e+16 [ohm]" in r.output

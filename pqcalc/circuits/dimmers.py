@@ -31,6 +31,7 @@ import numpy as np
 from ..errors import InputError
 from .network import Network
 from .pwl import EPS_I_A, Automaton
+from .ranges import check_component
 from .spec import DimmerSpec, Supply
 
 __all__ = ["dimmer_params", "resolve_dimmer", "build_dimmer", "conduction_from_knob",
@@ -251,6 +252,8 @@ def resolve_dimmer(spec: DimmerSpec, supply: Supply) -> dict:
             raise InputError(f"dimmer {r['name']}: expected a value "
                              f"{'>= 0' if r['name'] in zero_ok else '> 0'} [{r['unit']}], got "
                              f"{val:g}")
+        if r["name"] in given:
+            check_component(f"dimmer {spec.kind}", r["name"], val, r["unit"])
         out[r["name"]] = val
     if spec.uses_triac:
         if "max_conduction_deg" not in given:

@@ -34,6 +34,7 @@ import numpy as np
 from ..errors import InputError
 from .network import Network
 from .pwl import EPS_V_V, Automaton
+from .ranges import check_component
 
 __all__ = ["MODELS", "ModelId", "ParamSpec", "model_params", "resolve_params", "GroupBuild",
            "build_group", "chord_table", "CHORD_RATIO", "DIODE_V_ON_V", "DIODE_R_ON_OHM",
@@ -259,6 +260,8 @@ def resolve_params(model: str, power_w: float, v_rms_v: float, frequency_hz: flo
                 need = ">= 0" if ps.zero_ok else "> 0"
                 raise InputError(f"{model} {name}: expected a value {need} [{ps.unit}], got "
                                  f"{val:g}")
+            if name in overrides:
+                check_component(model, name, val, ps.unit)
         out[name] = val
     if model in ("bulk-cap", "pwm-detect") and out["v_uvlo_off_v"] >= out["v_uvlo_on_v"]:
         raise InputError(f"{model} v_uvlo_off_v: expected below v_uvlo_on_v "

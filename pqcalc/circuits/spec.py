@@ -13,6 +13,7 @@ from ..errors import InputError
 __all__ = ["Supply", "DimmerSpec", "LoadGroup", "DimmerKind", "DIMMER_KINDS", "SwitchKind",
            "SWITCH_KINDS", "freeze_params"]
 
+
 DimmerKind = Literal["leading-edge", "trailing-edge", "none"]
 DIMMER_KINDS: tuple[str, ...] = get_args(DimmerKind)
 #: the leading-edge switch: a triac (latching, holding, RC/trigger-diode firing) or a

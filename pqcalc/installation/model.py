@@ -16,6 +16,7 @@ from typing import Any, ClassVar, Literal, get_args
 
 import numpy as np
 
+from ..circuits.ranges import COMPONENT_RANGES
 from ..circuits.spec import DIMMER_KINDS, SWITCH_KINDS, DimmerKind, SwitchKind
 from ..errors import InputError
 from ..io.capture import CsvOptions
@@ -80,20 +81,10 @@ _L_H = _range(0.0, 0.1, "0.1 H is 31 ohm at 50 Hz, past any supply or cable")
 _AMPS = _range(0.0, 1e5, "a building's conductors", lo_open=True)
 
 #: Component values of the circuit models (fixture ``params``, circuit ``dimmer_params``),
-#: by the unit the model gives each one: the range of real parts. A zero is left to the
-#: model (some parts may be left out with 0).
-PARAM_BOUNDS: dict[str, Bounds] = {
-    "ohm": Bounds(1e-4, 1e10, "0.1 mohm, a switch's on-state, to 10 Gohm, an open part"),
-    "F": Bounds(1e-12, 0.1, "1 pF to 100 mF"),
-    "H": Bounds(1e-9, 10.0, "1 nH to 10 H"),
-    "V": Bounds(0.1, 1000.0, "a diode's threshold to past a rectified mains peak"),
-    "A": Bounds(1e-6, 100.0, "1 uA to 100 A in a lamp or dimmer"),
-    "s": Bounds(1e-9, 1.0, "1 ns to 1 s"),
-    "Hz": Bounds(1.0, 1e7, "1 Hz to 10 MHz"),
-    "W": Bounds(0.0, 1e4, "a lamp's or dimmer's own power"),
-    "deg": Bounds(0.0, 180.0, "a half cycle"),
-    "-": Bounds(0.0, 100.0, "a ratio or a small count"),
-}
+#: by the unit the model gives each one (:data:`pqcalc.circuits.ranges.COMPONENT_RANGES`, the
+#: one declaration the solver also holds given values to).
+PARAM_BOUNDS: dict[str, Bounds] = {unit: Bounds(lo, hi, why)
+                                   for unit, (lo, hi, why) in COMPONENT_RANGES.items()}
 
 #: The most scenarios (settings per circuit) a file may give: each is a whole study
 #: (1,000 took 11.6 s and 431 MB, and the report would be unreadable).
