@@ -225,3 +225,21 @@ def test_model_with_only_full_output_says_why():
                                   "--dimmer", "leading-edge"])
     assert r.exit_code in (0, 1), r.output
     assert "only full output evaluated" in r.output and "constant-power" in r.output
+
+
+def test_eu_ecodesign_failure_alone_fails_the_run(tmp_path):
+    # a 5 W capacitive-dropper lamp: within IEC 61000-3-2 Class C at full output (the
+    # school demo's corridor lamp), but its 100 Hz light ripple gives SVM far above the EU
+    # limit of 0.4 (Commission Regulation (EU) 2019/2020, Annex II, from 1 September 2024):
+    # the run fails on the EU rule alone, and says so
+    (tmp_path / "inst.toml").write_text(
+        '[project]\nname = "invented test site"\n'
+        '[supply]\nsystem = "single-phase"\nvoltage_ln_v = 230\nfrequency_hz = 50\n'
+        '[fixtures.corridor]\nmodel = "dropper"\npower_w = 5.0\n'
+        '[[panels]]\nid = "DB"\n[[panels.circuits]]\nid = "C1"\nline = "L1"\n'
+        'breaker_a = 10\ndimmer = "none"\nfixtures = [{type = "corridor", count = 4}]\n'
+    )
+    r = run("--installation", str(tmp_path / "inst.toml"))
+    assert "EU ecodesign at full output: 1 of 1 fixture types fail: corridor" in r.output
+    assert "failing" not in r.output  # IEC 61000-3-2 passes
+    assert r.exit_code == 1

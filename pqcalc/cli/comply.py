@@ -207,7 +207,8 @@ def comply_cmd(captures, installation, equipment_class, settings_of, power_w, pf
     --strict-dimmed; with --builtin-dimming they are part of the verdict. Below 220 V
     line-to-neutral every line is information only. Class D covers up to 600 W.
 
-    Exit code 0 when every fixture passes, 1 when any fails (the tables are printed), 2 for
+    Exit code 0 when every fixture passes, 1 when any fails (IEC 61000-3-2, or the EU
+    ecodesign rules at full output where the installation applies them), 2 for
     bad input, including a verdict that hinges on option b without a voltage channel, 3
     when the tool fails (the traceback is written to a file in the temporary folder).
     """
@@ -324,11 +325,15 @@ def comply_cmd(captures, installation, equipment_class, settings_of, power_w, pf
         click.echo(f"IEC 61000-3-2 edition {edition}: {counted - len(failed)} of {counted} "
                    "pass" + (f"; failing: {bad}" if failed else "")
                    + (f"; {len(info)} informative (not part of the verdict)" if info else ""))
+        eu_bad = [x["fixture"] for x in ecodesign if x["verdict"] == "fail"]
+        if eu_bad:
+            click.echo(f"EU ecodesign at full output: {len(eu_bad)} of {len(ecodesign)} "
+                       f"fixture types fail: {', '.join(eu_bad)}")
         click.echo(f"caution: {CAUTION}")
     hinge = [r for r in results if r.undetermined]
     if hinge:
         r = hinge[0]
         raise InputError(f"{r.fixture}: {r.undetermined}; options a and c were evaluated "
                          "(see the table); give a capture with a voltage channel")
-    if failed:
+    if failed or any(x["verdict"] == "fail" for x in ecodesign):
         raise SystemExit(1)
