@@ -520,8 +520,8 @@ def _thermal_light(p_w: np.ndarray, rated_w: float, tau_s: float, f_hz: float,
 
 # ---------------------------------------------------------------------- public
 def solve_circuit(supply: Supply, dimmer: DimmerSpec, loads, samples_per_cycle: int =
-                  SAMPLES_PER_CYCLE, extras: bool = True, admittance: bool = False
-                  ) -> Solution:
+                  SAMPLES_PER_CYCLE, extras: bool = True, admittance: bool = False,
+                  memo: bool = True) -> Solution:
     """The periodic steady state of all lamp groups behind one dimmer on one supply.
 
     One solve: the triac or transistor sees the summed current of every group (holding and
@@ -540,6 +540,10 @@ def solve_circuit(supply: Supply, dimmer: DimmerSpec, loads, samples_per_cycle: 
         of models whose rated LED output needs a reference solve. ``False`` is for speed:
         ``inrush_peak_a`` is None, and that normalisation (a solve of the lamp alone on its
         rated supply, memoised per fixture type) runs only when ``light`` is first read.
+    memo
+        Keep the solution in the solver's memo of recent solves (256), so that the same
+        case asked again costs nothing; ``False`` for callers that keep their own (an
+        installation's distinct cases), which saves the memo's memory.
     admittance
         Also compute the harmonic input admittance about the solved state
         (``Solution.input_admittance_s``; a linear model for the supply-interaction step).
@@ -561,8 +565,9 @@ def solve_circuit(supply: Supply, dimmer: DimmerSpec, loads, samples_per_cycle: 
             raise InputError(f"loads: expected LoadGroup items, got {type(g).__name__}")
     if int(samples_per_cycle) < 64:
         raise InputError("samples_per_cycle: expected at least 64")
-    sol = _solve_cached(supply, dimmer, loads, int(samples_per_cycle), bool(extras), False,
-                        bool(admittance))
+    solve = _solve_cached if memo else _solve_cached.__wrapped__
+    sol = solve(supply, dimmer, loads, int(samples_per_cycle), bool(extras), False,
+                bool(admittance))
     assert isinstance(sol, Solution)
     return sol
 

@@ -16,6 +16,7 @@ when the panel voltage sags or distorts.
 from __future__ import annotations
 
 import math
+from collections.abc import Collection
 from concurrent.futures import Executor
 from dataclasses import dataclass, replace
 from typing import Any
@@ -156,6 +157,21 @@ class CaseSolver:
             results, solves = fut.result()
             self.cache.update(results)
             self.solves += solves
+
+    def retain(self, voltages: Collection[PanelVoltage | None]) -> None:
+        """Forget the cases solved under panel voltages other than ``voltages`` (and the
+        stiff supply's): the supply-interaction iteration calls it before each pass, so
+        that the cache holds one pass's cases, not every pass's. A case asked again after
+        it was forgotten is solved again, to the same result."""
+        keep = set(voltages)
+        harm = {(round(v.v1_rms_v, 3), v.harmonics) for v in keep if v is not None}
+        for k in list(self.cache):
+            if isinstance(k, CaseConditions):
+                if k.voltage is not None and k.voltage not in keep:
+                    del self.cache[k]
+            elif isinstance(k, tuple) and k and k[0] == "model" and k[-1] \
+                    and (k[-2], k[-1]) not in harm:
+                del self.cache[k]
 
     def case(self, c: Circuit, scenario: int, voltage: PanelVoltage | None = None) -> CaseResult:
         """The circuit's current at a scenario under ``voltage`` (None: the ideal supply).
@@ -327,8 +343,9 @@ class CaseSolver:
                  for f, n in groups]
         try:
             # the switch-on inrush is the installation's own transient (inrush()), so the
-            # solver's extras are not needed
-            sol = solve_circuit(supply, dimmer_spec(k), loads, extras=False)
+            # solver's extras are not needed; this cache keeps the result, not the solver's
+            # memo
+            sol = solve_circuit(supply, dimmer_spec(k), loads, extras=False, memo=False)
         except (ConvergenceError, InputError) as e:
             what = ", ".join(f"{n} x {f}" for f, n in groups)
             setting = "" if k.dimmer == "none" else (

@@ -150,7 +150,11 @@ def evaluate_scenario(inst: Installation, solver: CaseSolver, scenario: int,
     ideal = _assemble(inst, solver, scenario, cases, sums, 0, False)
     if not (inst.analysis.supply_interaction and inst.has_source_impedance):
         return ideal
-    fp = fixed_point(inst, lambda at: solve_pass(inst, solver, scenario, at), cases, sums)
+    def one_pass(at: dict[str, PanelVoltage]) -> tuple[dict[str, CaseResult], InstallationSums]:
+        solver.retain(at.values())  # the cache holds one pass's cases, not every pass's
+        return solve_pass(inst, solver, scenario, at)
+
+    fp = fixed_point(inst, one_pass, cases, sums)
     opts = inst.analysis
     if fp.diverged:
         # no interacting figures: the ideal-supply result stands, and says why
@@ -173,8 +177,12 @@ def evaluate_scenario(inst: Installation, solver: CaseSolver, scenario: int,
                      f"the supply-interaction iteration diverged (updates grew to "
                      f"{100 * fp.change:.2f} % of V1 after {fp.iterations} iterations){why}: "
                      "the figures are the ideal-supply ones, the distortion at the panels is "
-                     "not computed; check the resonance with the utility and the drivers' "
-                     "maker, or run with supply_interaction = false",
+                     "not computed; " + (
+                         "the circuits named are at the edge of a firing pattern: check those "
+                         "dimmer and lamp pairs (minimum load, holding current) with their "
+                         "makers" if fp.jumps else
+                         "check the resonance with the utility and the drivers' maker")
+                     + ", or run with supply_interaction = false",
                      "fixed-point iteration on the circuits' source voltages (Anderson)",
                      fp.change, opts.tolerance, "-", {"resonance_order": h_r})
         return replace(ideal, checks=ideal.checks + (warn,))
@@ -186,7 +194,7 @@ def evaluate_scenario(inst: Installation, solver: CaseSolver, scenario: int,
             f"the panel voltages had not settled after {fp.iterations} iterations (last update "
             f"{100 * fp.change:.3f} % of V1, tolerance {100 * opts.tolerance:.3f} %): the "
             "interacting figures are approximate; raise analysis.max_iterations",
-            "fixed-point iteration on the panel voltages (under-relaxed)", fp.change,
+            "fixed-point iteration on the circuits' source voltages (Anderson)", fp.change,
             opts.tolerance, "-"),)
     return ScenarioResult(res.name, res.circuits, res.panels, res.feeders, res.transformer,
                           fp.iterations, ideal, extra)
