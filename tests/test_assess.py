@@ -270,3 +270,22 @@ def test_interaction_names_circuits_whose_current_jumps(tmp_path):
     assert flip in dict(fp.jumps)
     assert dict(fp.jumps)[flip] == pytest.approx(1.0, rel=0.05)  # the current doubled
     assert set(dict(fp.jumps)) == {flip}  # the smooth resistive circuits are not named
+
+
+def test_interaction_cache_holds_one_pass():
+    # Memory bound (the design of CaseSolver.retain): after the supply-interaction
+    # iteration, the cache holds the ideal pass and one interacting pass's cases, at most
+    # one per circuit, not every pass's; the figures are those of the final pass.
+    from pathlib import Path
+
+    from pqcalc.installation.cases import CaseConditions, CaseSolver
+    from pqcalc.installation.scenario import evaluate_scenario
+
+    inst = load_installation(Path(__file__).resolve().parents[1] / "demo_installations"
+                             / "harbour_school.toml")
+    solver = CaseSolver(inst)
+    res = evaluate_scenario(inst, solver, 0)
+    assert res.interaction_iterations >= 2  # several passes were made
+    interacting = [k for k in solver.cache
+                   if isinstance(k, CaseConditions) and k.voltage is not None]
+    assert 0 < len(interacting) <= len(inst.circuits)
