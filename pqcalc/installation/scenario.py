@@ -176,8 +176,8 @@ def evaluate_scenario(inst: Installation, solver: CaseSolver, scenario: int,
         warn = Check("supply interaction", "warn",
                      f"the supply-interaction iteration diverged (updates grew to "
                      f"{100 * fp.change:.2f} % of V1 after {fp.iterations} iterations){why}: "
-                     "the figures are the ideal-supply ones, the distortion at the panels is "
-                     "not computed; " + (
+                     "the figures are the ideal-supply ones (the panel voltages are the drops "
+                     "the ideal-supply currents make, without the loads' answer to them); " + (
                          "the circuits named are at the edge of a firing pattern: check those "
                          "dimmer and lamp pairs (minimum load, holding current) with their "
                          "makers" if fp.jumps else
