@@ -130,22 +130,21 @@ def _where_checks(sc: ScenarioResult) -> list[tuple[str, Any]]:
 
 def findings(a: Assessment) -> list[tuple[str, str, str, str]]:
     """(status, where, check, message [scenarios]) of every failed and warned check,
-    merged over the scenarios it occurs in, worst first."""
+    merged over the scenarios it occurs in with the same message (a finding whose figures
+    differ between scenarios is listed once per message, each with its scenarios), worst
+    first."""
     seen: dict[tuple, list[str]] = {}
-    msg: dict[tuple, str] = {}
     for sc in a.scenarios:
         for where, checks in _where_checks(sc):
             for c in checks:
                 if c.status not in ("fail", "warn"):
                     continue
-                key = (c.status, where, c.name)
-                seen.setdefault(key, []).append(sc.name)
-                msg.setdefault(key, c.message)
+                seen.setdefault((c.status, where, c.name, c.message), []).append(sc.name)
     out = []
     for key, scen in seen.items():
         which = "all scenarios" if len(scen) == len(a.scenarios) and len(scen) > 1 else \
             ", ".join(scen)
-        out.append((key[0], key[1], key[2], f"{msg[key]} [{which}]"))
+        out.append((key[0], key[1], key[2], f"{key[3]} [{which}]"))
     out.sort(key=lambda r: (_ORDER[r[0]], r[1], r[2]))
     return out
 
