@@ -1,4 +1,4 @@
-"""A circuit's harmonic input admittance about its periodic steady state (a Norton model).
+"""A circuit's harmonic transfer about its periodic steady state (a Norton model).
 
 A small harmonic ``dV_h`` added to the source voltage of a solved circuit changes its line
 current. Along the solved period the circuit is linear between events, so the change
@@ -10,17 +10,17 @@ solved exactly: ``xi(t) = pi_h exp(j h w t) + V exp(Lambda (t - t0)) V^-1 (xi(t0
 exp(j h w t0))`` with ``pi_h = (j h w - A)^-1 b`` (the same modal form the steady state
 uses, :mod:`pqcalc.circuits.pwl`). The periodic response follows from the monodromy matrix
 ``Phi`` of the steady state: ``xi(0) = (I - Phi)^-1 xi_T`` where ``xi_T`` is the end state
-of a run from zero. The line current's change at the same order, over ``dV_h``, is the
-diagonal of the circuit's harmonic transfer matrix: ``Y_h`` [S].
+of a run from zero. The line current's change at every order ``k`` over ``dV_h`` is a column
+of the circuit's harmonic transfer matrix (:func:`harmonic_transfer`, with the response to
+the conjugate); its diagonal is the input admittance ``Y_h`` [S] (:func:`input_admittance`).
 
 It is the Norton admittance a network harmonic study needs beside the load's harmonic
 currents (the currents at the solved state are the Norton source): how the fixture's
 current answers a harmonic voltage at its terminals. What it leaves out: the shift of event
 times (exact for diodes, whose vector field is continuous across their switching surface,
 and for time events such as a dimmer's firing instant; approximate at a triac's drop-out
-below its holding current and at a converter's lock-out), and the coupling of order ``h``
-to other orders and to the conjugate of its own (a rectifier mixes orders; the diagonal is
-its largest part at the high orders where supply resonances live).
+below its holding current and at a converter's lock-out). The diagonal alone leaves out
+the mixing of orders: a rectifier's sidebands ``h +- 2m`` are as large as its diagonal.
 
 References
 ----------
@@ -36,7 +36,7 @@ import numpy as np
 
 from .network import CH_SOURCE
 
-__all__ = ["input_admittance", "at_terminals"]
+__all__ = ["harmonic_transfer", "input_admittance", "at_terminals"]
 
 
 def _phi1(z: np.ndarray) -> np.ndarray:
@@ -46,11 +46,21 @@ def _phi1(z: np.ndarray) -> np.ndarray:
     return np.where(small, 1.0 + 0.5 * z, np.expm1(zs) / zs)
 
 
-def input_admittance(eng, tr, row: int, max_order: int) -> np.ndarray | None:
-    """The diagonal harmonic admittance of output ``row`` (an element current, the line's)
-    to the source voltage, orders ``0..max_order`` [S] (order 0 and 1 left at 0). None when
-    the source has no fundamental to recover the modes' input vectors from, or the periodic
-    problem is singular."""
+def harmonic_transfer(eng, tr, row: int, max_order: int
+                      ) -> tuple[np.ndarray, np.ndarray] | None:
+    """The harmonic transfer of output ``row`` (an element current, the line's) from the
+    source voltage about the solved state: ``dI_k = A[k, h] dV_h + B[k, h] conj(dV_h)`` for
+    orders ``k = 0..max_order`` out and ``h = 2..max_order`` in (columns 0 and 1 zero), RMS
+    phasors of the project's convention [S]. ``A``'s diagonal is the input admittance; off
+    it, the orders a switching circuit mixes (a rectifier's ``h +- 2m``); ``B`` the response
+    to the conjugate. None when the source has no fundamental to recover the modes' input
+    vectors from, or the periodic problem is singular.
+
+    With ``eta_h`` the output's response to ``exp(j h w t)`` and ``F_k`` the Fourier
+    coefficient of order ``k``: ``A[k, h] = F_k(eta_h)``, ``B[k, h] = -conj(F_-k(eta_h))``
+    (a real input ``Re(U exp(j h w t))`` excites ``eta_h`` and its conjugate; the sign of
+    ``B`` is the sine-basis phasor's factor ``j``, conjugated).
+    """
     net, src = eng.net, eng.src
     nx = net.n_x
     t0, t1, (Q, V, P, _p0, lam, _consts), idx, _C = tr.segment_table()
@@ -62,6 +72,8 @@ def input_admittance(eng, tr, row: int, max_order: int) -> np.ndarray | None:
     w = float(src.omega)
     h = np.arange(2, max_order + 1)
     jhw = 1j * w * h  # (H,)
+    kk = np.arange(-max_order, max_order + 1)  # output orders, both signs
+    jkw = 1j * w * kk  # (K,)
     Vinv = np.linalg.inv(V)  # (modes, n, n)
     # the modes' input vectors in modal coordinates, from the fundamental's particular
     # solution P_1 = V diag(1 / (j w - lam)) beta S_1
@@ -72,10 +84,11 @@ def input_admittance(eng, tr, row: int, max_order: int) -> np.ndarray | None:
     pi = np.einsum("mij,mjh->mih", V, pim)
     d = t1 - t0
     T = float(t1[-1])
+    dk = (jhw[None, :] - jkw[:, None])  # (K, H): the exponent of e^{jhwt} e^{-jkwt}
 
     def run(xi0: np.ndarray, collect: bool):
         xi = xi0
-        acc = np.zeros(h.size, dtype=complex)
+        acc = np.zeros((kk.size, h.size), dtype=complex)
         for s in range(t0.size):
             m = idx[s]
             e0 = np.exp(jhw * t0[s])
@@ -84,11 +97,13 @@ def input_admittance(eng, tr, row: int, max_order: int) -> np.ndarray | None:
             if collect:
                 q = Q[m, row]
                 qx, qu = q[:nx], q[nx + CH_SOURCE]
-                # the same-order Fourier integral of eta = (qx pi + qu) e^{jhwt}
-                # + (qx V) e^{lam (t - t0)} c over the segment, times e^{-jhwt}
-                acc += (qx @ pi[m] + qu) * d[s]
-                z = (lam[m][:, None] - jhw[None, :]) * d[s]
-                acc += np.einsum("k,kh->h", qx @ V[m], c * d[s] * _phi1(z)) * np.conj(e0)
+                # the Fourier integrals of eta = (qx pi + qu) e^{jhwt}
+                # + (qx V) e^{lam (t - t0)} c over the segment, times e^{-jkwt}
+                acc += (qx @ pi[m] + qu)[None, :] * np.exp(dk * t0[s]) * d[s] \
+                    * _phi1(dk * d[s])
+                z = (lam[m][None, :] - jkw[:, None]) * d[s]  # (K, n)
+                acc += (np.exp(-jkw * t0[s])[:, None] * d[s] * _phi1(z)) \
+                    @ ((qx @ V[m])[:, None] * c)
             xi = pi[m] * np.exp(jhw * t1[s]) + V[m] @ (el[:, None] * c)
         return xi, acc
 
@@ -98,9 +113,22 @@ def input_admittance(eng, tr, row: int, max_order: int) -> np.ndarray | None:
     except np.linalg.LinAlgError:
         return None
     _, acc = run(xi0, True)
-    y = np.zeros(max_order + 1, dtype=complex)
-    y[2:] = acc / T
-    return y if np.all(np.isfinite(y)) else None
+    F = acc / T  # F[k + max_order, h - 2] = F_k(eta_h)
+    A = np.zeros((max_order + 1, max_order + 1), dtype=complex)
+    B = np.zeros_like(A)
+    A[:, 2:] = F[max_order:]
+    B[:, 2:] = -np.conj(F[max_order::-1])
+    if not (np.all(np.isfinite(A)) and np.all(np.isfinite(B))):
+        return None
+    return A, B
+
+
+def input_admittance(eng, tr, row: int, max_order: int) -> np.ndarray | None:
+    """The diagonal harmonic admittance of output ``row`` (an element current, the line's)
+    to the source voltage, orders ``0..max_order`` [S] (order 0 and 1 left at 0): the
+    diagonal of :func:`harmonic_transfer`'s ``A``; None where that is."""
+    t = harmonic_transfer(eng, tr, row, max_order)
+    return None if t is None else np.diagonal(t[0]).copy()
 
 
 def at_terminals(y_e: np.ndarray, source_r_ohm: float, source_l_h: float,

@@ -182,6 +182,11 @@ class Solution:
     #: (:func:`pqcalc.circuits.smallsignal.input_admittance`); None otherwise, or where the
     #: state has no one-cycle period
     input_admittance_s: np.ndarray | None = None
+    #: with ``admittance=True``: the full harmonic transfer ``(A, B)`` of the line current,
+    #: ``dI_k = A[k, h] dV_h + B[k, h] conj(dV_h)``, orders 0..50 (rows out, columns in) [S]
+    #: (:func:`pqcalc.circuits.smallsignal.harmonic_transfer`); ``input_admittance_s`` is
+    #: ``A``'s diagonal
+    harmonic_transfer_s: tuple[np.ndarray, np.ndarray] | None = None
 
     @property
     def interharmonic_fraction(self) -> float:
@@ -640,10 +645,12 @@ def _solve_cached(supply, dimmer, loads, spc, extras, reference,
     sol = _assemble(supply, dimmer, dp, loads, gparams, levels, case, tr, period, iters, ok,
                     spc, extras, measured, fires, nolatch, cond_set, reference)
     if admittance and period == 1 and not long:
-        from .smallsignal import input_admittance
+        from .smallsignal import harmonic_transfer
 
-        sol = replace(sol, input_admittance_s=input_admittance(
-            case.eng, tr, case.eng.net.index["A_line"], MAX_ORDER))
+        ht = harmonic_transfer(case.eng, tr, case.eng.net.index["A_line"], MAX_ORDER)
+        if ht is not None:
+            sol = replace(sol, input_admittance_s=np.diagonal(ht[0]).copy(),
+                          harmonic_transfer_s=ht)
     notes: tuple[str, ...] = ()
     if dimmer.conduction_deg is not None and cond_set is not None and \
             cond_set < dimmer.conduction_deg:
