@@ -321,3 +321,24 @@ def test_recorded_figures_follow_scaling_and_shifts():
     # a sum of records is a new record: its peak is its own samples'
     both = w + w
     assert both.recorded is None and both.i_peak_a == np.max(np.abs(both.current_a))
+
+
+def test_a_capture_is_read_once_until_it_changes(tmp_path):
+    # the design of load_capture's memo: an installation's capture is read once although
+    # three stages ask for it; a changed file (size or time) is read again; the samples
+    # of a shared record cannot be written by accident
+    import os
+
+    from pqcalc.io.capture import load_capture
+
+    t = np.arange(2000) / 10_000.0
+    p = tmp_path / "c.csv"
+    write_csv(p, t, np.sin(2 * np.pi * 50 * t))
+    a, b = load_capture(p), load_capture(p)
+    assert a is b
+    with pytest.raises(ValueError):
+        a.current_a[0] = 1.0
+    write_csv(p, t, 2 * np.sin(2 * np.pi * 50 * t))
+    os.utime(p, ns=(1, 1))  # a different modification time whatever the clock's grain
+    c = load_capture(p)
+    assert c is not a and np.max(c.current_a) == pytest.approx(2 * np.max(a.current_a))

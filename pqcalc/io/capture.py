@@ -11,6 +11,7 @@ Formats: delimited text (CSV, semicolon, tab; decimal comma) here, COMTRADE in
 from __future__ import annotations
 
 import csv
+import functools
 import os
 import re
 import warnings
@@ -497,10 +498,33 @@ def read_csv(path: str | os.PathLike, options: CsvOptions | None = None) -> RawR
 
 def load_capture(path: str | os.PathLike, options: CsvOptions | None = None) -> RawRecord:
     """Read a capture, choosing the reader by file ending (``.cfg``/``.dat``: COMTRADE,
-    anything else: delimited text)."""
+    anything else: delimited text).
+
+    The last few records read are kept, keyed by the file's path, size and modification
+    time and the options: an installation's capture is read once although the file check,
+    the circuits and the fixture lineup each ask for it. Their samples are read-only."""
     p = Path(path)
     if p.is_dir():
         raise InputError(f"{p}: is a directory; expected a capture file")
+    try:
+        st = p.stat()
+    except OSError:
+        return _load_capture(p, options)  # the reader says what is wrong, as ever
+    return _load_capture_memo(str(p), str(p.resolve()), st.st_size, st.st_mtime_ns, options)
+
+
+@functools.lru_cache(maxsize=8)
+def _load_capture_memo(path: str, real: str, size: int, mtime_ns: int,
+                       options: CsvOptions | None) -> RawRecord:
+    del real, size, mtime_ns  # in the key only: a changed file is read again
+    rec = _load_capture(Path(path), options)  # as given: messages name the path as written
+    for x in (rec.current_a, rec.voltage_v):
+        if x is not None:
+            x.setflags(write=False)
+    return rec
+
+
+def _load_capture(p: Path, options: CsvOptions | None) -> RawRecord:
     if _is_comtrade(p):
         o = options or CsvOptions()
         return read_comtrade(
