@@ -39,13 +39,21 @@ from .kernels import (
 )
 from .network import CH_ONE, CH_SOURCE
 
-__all__ = ["Expansion", "Figures", "SolvedWaveform", "expand", "figures", "MAX_ORDER"]
+__all__ = ["Expansion", "Figures", "SolvedWaveform", "expand", "figures", "phi1",
+           "MAX_ORDER"]
 
 #: highest harmonic order of the exact phasors (the project's spectra go to 50)
 MAX_ORDER = 50
 #: points per segment of the peak search before refinement: an even spread and a geometric
 #: one from the segment's start (a transient decays from the event that starts a segment)
 PEAK_EVEN, PEAK_GEOM = 12, 16
+
+
+def phi1(z: np.ndarray) -> np.ndarray:
+    """``(exp(z) - 1) / z`` elementwise, its series below ``|z| = 1e-8``."""
+    small = np.abs(z) < 1e-8
+    zs = np.where(small, 1.0, z)
+    return np.where(small, 1.0 + 0.5 * z, np.expm1(zs) / zs)
 
 
 @dataclass(frozen=True)
@@ -82,11 +90,7 @@ class Expansion:
         """``int y_r dt`` over each segment: (S,)."""
         a, mu, g, t0, t1 = self._row(r)
         d = (t1 - t0)[:, None]
-        z = mu * d
-        small = np.abs(z) < 1e-8
-        ph = np.where(small, 1.0 + 0.5 * z, np.expm1(np.where(small, 1.0, z))
-                      / np.where(small, 1.0, z))
-        return np.real(np.sum(a * d * ph, axis=1)) + g * (t1 - t0)
+        return np.real(np.sum(a * d * phi1(mu * d), axis=1)) + g * (t1 - t0)
 
     def cell_means(self, n: int, rows: int | None = None) -> np.ndarray:
         """Mean of outputs ``0..rows-1`` (all without ``rows``) over the ``n`` cells

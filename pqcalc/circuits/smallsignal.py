@@ -12,7 +12,7 @@ uses, :mod:`pqcalc.circuits.pwl`). The periodic response follows from the monodr
 ``Phi`` of the steady state: ``xi(0) = (I - Phi)^-1 xi_T`` where ``xi_T`` is the end state
 of a run from zero. The line current's change at every order ``k`` over ``dV_h`` is a column
 of the circuit's harmonic transfer matrix (:func:`harmonic_transfer`, with the response to
-the conjugate); its diagonal is the input admittance ``Y_h`` [S] (:func:`input_admittance`).
+the conjugate); its diagonal is the input admittance ``Y_h`` [S].
 
 It is the Norton admittance a network harmonic study needs beside the load's harmonic
 currents (the currents at the solved state are the Norton source): how the fixture's
@@ -34,16 +34,10 @@ from __future__ import annotations
 
 import numpy as np
 
+from .exact import phi1
 from .network import CH_SOURCE
 
-__all__ = ["harmonic_transfer", "input_admittance", "at_terminals"]
-
-
-def _phi1(z: np.ndarray) -> np.ndarray:
-    """``(exp(z) - 1) / z``, its series near 0."""
-    small = np.abs(z) < 1e-6
-    zs = np.where(small, 1.0, z)
-    return np.where(small, 1.0 + 0.5 * z, np.expm1(zs) / zs)
+__all__ = ["harmonic_transfer", "at_terminals"]
 
 
 def harmonic_transfer(eng, tr, row: int, max_order: int
@@ -100,9 +94,9 @@ def harmonic_transfer(eng, tr, row: int, max_order: int
                 # the Fourier integrals of eta = (qx pi + qu) e^{jhwt}
                 # + (qx V) e^{lam (t - t0)} c over the segment, times e^{-jkwt}
                 acc += (qx @ pi[m] + qu)[None, :] * np.exp(dk * t0[s]) * d[s] \
-                    * _phi1(dk * d[s])
+                    * phi1(dk * d[s])
                 z = (lam[m][None, :] - jkw[:, None]) * d[s]  # (K, n)
-                acc += (np.exp(-jkw * t0[s])[:, None] * d[s] * _phi1(z)) \
+                acc += (np.exp(-jkw * t0[s])[:, None] * d[s] * phi1(z)) \
                     @ ((qx @ V[m])[:, None] * c)
             xi = pi[m] * np.exp(jhw * t1[s]) + V[m] @ (el[:, None] * c)
         return xi, acc
@@ -121,14 +115,6 @@ def harmonic_transfer(eng, tr, row: int, max_order: int
     if not (np.all(np.isfinite(A)) and np.all(np.isfinite(B))):
         return None
     return A, B
-
-
-def input_admittance(eng, tr, row: int, max_order: int) -> np.ndarray | None:
-    """The diagonal harmonic admittance of output ``row`` (an element current, the line's)
-    to the source voltage, orders ``0..max_order`` [S] (order 0 and 1 left at 0): the
-    diagonal of :func:`harmonic_transfer`'s ``A``; None where that is."""
-    t = harmonic_transfer(eng, tr, row, max_order)
-    return None if t is None else np.diagonal(t[0]).copy()
 
 
 def at_terminals(y_e: np.ndarray, source_r_ohm: float, source_l_h: float,

@@ -177,16 +177,19 @@ class Solution:
     interharmonic_a: float = 0.0
     record_cycles: int = 0
     notes: tuple[str, ...] = ()
-    #: with ``admittance=True``: the line current's diagonal harmonic admittance to the
-    #: source voltage about this state, orders 0..50 [S]
-    #: (:func:`pqcalc.circuits.smallsignal.input_admittance`); None otherwise, or where the
+    #: with ``admittance=True``: the harmonic transfer ``(A, B)`` of the line current from
+    #: the source voltage about this state, ``dI_k = A[k, h] dV_h + B[k, h] conj(dV_h)``,
+    #: orders 0..50 (rows out, columns in) [S]
+    #: (:func:`pqcalc.circuits.smallsignal.harmonic_transfer`); None otherwise, or where the
     #: state has no one-cycle period
-    input_admittance_s: np.ndarray | None = None
-    #: with ``admittance=True``: the full harmonic transfer ``(A, B)`` of the line current,
-    #: ``dI_k = A[k, h] dV_h + B[k, h] conj(dV_h)``, orders 0..50 (rows out, columns in) [S]
-    #: (:func:`pqcalc.circuits.smallsignal.harmonic_transfer`); ``input_admittance_s`` is
-    #: ``A``'s diagonal
     harmonic_transfer_s: tuple[np.ndarray, np.ndarray] | None = None
+
+    @property
+    def input_admittance_s(self) -> np.ndarray | None:
+        """The diagonal of ``harmonic_transfer_s``'s ``A``: the input admittance per order
+        [S] (None without the transfer)."""
+        t = self.harmonic_transfer_s
+        return None if t is None else np.diagonal(t[0]).copy()
 
     @property
     def interharmonic_fraction(self) -> float:
@@ -550,8 +553,9 @@ def solve_circuit(supply: Supply, dimmer: DimmerSpec, loads, samples_per_cycle: 
         case asked again costs nothing; ``False`` for callers that keep their own (an
         installation's distinct cases), which saves the memo's memory.
     admittance
-        Also compute the harmonic input admittance about the solved state
-        (``Solution.input_admittance_s``; a linear model for the supply-interaction step).
+        Also compute the harmonic transfer about the solved state
+        (``Solution.harmonic_transfer_s`` and its diagonal ``input_admittance_s``: the
+        lamps' Norton model for a network harmonic study).
 
     Raises
     ------
@@ -648,9 +652,7 @@ def _solve_cached(supply, dimmer, loads, spc, extras, reference,
         from .smallsignal import harmonic_transfer
 
         ht = harmonic_transfer(case.eng, tr, case.eng.net.index["A_line"], MAX_ORDER)
-        if ht is not None:
-            sol = replace(sol, input_admittance_s=np.diagonal(ht[0]).copy(),
-                          harmonic_transfer_s=ht)
+        sol = replace(sol, harmonic_transfer_s=ht)
     notes: tuple[str, ...] = ()
     if dimmer.conduction_deg is not None and cond_set is not None and \
             cond_set < dimmer.conduction_deg:
@@ -884,7 +886,6 @@ def _assemble(supply, dimmer, dp, loads, gparams, levels, case, tr, period, iter
             res = tuple((r.removeprefix(b.prefix),
                          ex.mean_product(s0 + nc + j, s0 + nc + nr + j) / m)
                         for j, r in enumerate(b.resistors))
-
         inrush = _inrush(supply, dimmer, dp, loads, gparams, levels, k) if extras else None
         st = Stresses(gfig.i_peak_a, inrush, caps, res)
         if "conv" in b.extra:

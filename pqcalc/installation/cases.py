@@ -169,9 +169,9 @@ class CaseSolver:
             if isinstance(k, CaseConditions):
                 if k.voltage is not None and k.voltage not in keep:
                     del self.cache[k]
-            elif isinstance(k, tuple) and k and k[0] == "model" and k[-1] \
-                    and (k[-2], k[-1]) not in harm:
-                del self.cache[k]
+            elif isinstance(k, tuple) and k and k[0] == "model" and k[-1][1] \
+                    and k[-1] not in harm:
+                del self.cache[k]  # a distorted panel voltage of an earlier pass
 
     def case(self, c: Circuit, scenario: int, voltage: PanelVoltage | None = None) -> CaseResult:
         """The circuit's current at a scenario under ``voltage`` (None: the ideal supply).
@@ -273,8 +273,9 @@ class CaseSolver:
         # solved at the key's own values (1 mV on the fundamental), so that which case is
         # met first never changes a result (workers meet them in another order)
         v1 = round(v1, 3)
+        # the panel voltage's part of the key last, as one item (retain() reads it)
         key = ("model", k.dimmer, k.dimmer_switch, k.conduction_deg, k.knob, k.dimmer_params,
-               r_src, l_src, groups, v1, harm)
+               r_src, l_src, groups, (v1, harm))
         hit = self.cache.get(key)
         if hit is None:
             hit = self._solve(k, groups, v1, harm, r_src, l_src, cid)
