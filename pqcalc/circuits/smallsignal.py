@@ -44,11 +44,15 @@ def harmonic_transfer(eng, tr, row: int, max_order: int
                       ) -> tuple[np.ndarray, np.ndarray] | None:
     """The harmonic transfer of output ``row`` (an element current, the line's) from the
     source voltage about the solved state: ``dI_k = A[k, h] dV_h + B[k, h] conj(dV_h)`` for
-    orders ``k = 0..max_order`` out and ``h = 2..max_order`` in (columns 0 and 1 zero), RMS
+    orders ``k = 0..max_order`` out and ``h = 1..max_order`` in (column 0 zero), RMS
     phasors of the project's convention [S]. ``A``'s diagonal is the input admittance; off
     it, the orders a switching circuit mixes (a rectifier's ``h +- 2m``); ``B`` the response
     to the conjugate. None when the source has no fundamental to recover the modes' input
-    vectors from, or the periodic problem is singular.
+    vectors from, or the periodic problem is singular. Every column holds the events' times
+    fixed (see the module's note); for the fundamental's column that is its magnitude's
+    effect with the firing instants kept, while a change of its angle moves every time
+    event with it (the whole state turns: ``dI_k = j k I_k d(angle)``), which the caller
+    composes (:meth:`pqcalc.installation.cases.CaseResult` does).
 
     With ``eta_h`` the output's response to ``exp(j h w t)`` and ``F_k`` the Fourier
     coefficient of order ``k``: ``A[k, h] = F_k(eta_h)``, ``B[k, h] = -conj(F_-k(eta_h))``
@@ -60,14 +64,17 @@ def harmonic_transfer(eng, tr, row: int, max_order: int
     t0, t1, (Q, V, P, _p0, lam, _consts), idx, _C = tr.segment_table()
     orders = np.asarray(src.orders)
     at1 = np.nonzero(orders == 1)[0]
-    if nx == 0 or not at1.size or abs(src.amplitudes[at1[0]]) == 0:
+    if not at1.size or abs(src.amplitudes[at1[0]]) == 0:
         return None
     k1 = int(at1[0])
     w = float(src.omega)
-    h = np.arange(2, max_order + 1)
+    h = np.arange(1, max_order + 1)
     jhw = 1j * w * h  # (H,)
     kk = np.arange(-max_order, max_order + 1)  # output orders, both signs
     jkw = 1j * w * kk  # (K,)
+    if nx == 0:
+        # no state: the current answers the voltage at once, with each segment's gain
+        return _compose(_static(Q, idx, t0, t1, row, jhw, jkw), max_order)
     Vinv = np.linalg.inv(V)  # (modes, n, n)
     # the modes' input vectors in modal coordinates, from the fundamental's particular
     # solution P_1 = V diag(1 / (j w - lam)) beta S_1
@@ -78,11 +85,12 @@ def harmonic_transfer(eng, tr, row: int, max_order: int
     pi = np.einsum("mij,mjh->mih", V, pim)
     d = t1 - t0
     T = float(t1[-1])
-    dk = (jhw[None, :] - jkw[:, None])  # (K, H): the exponent of e^{jhwt} e^{-jkwt}
+    outer, same, inv_dk = _integral(jhw, jkw)
 
     def run(xi0: np.ndarray, collect: bool):
         xi = xi0
         acc = np.zeros((kk.size, h.size), dtype=complex)
+        e_start, t_start = None, None
         for s in range(t0.size):
             m = idx[s]
             e0 = np.exp(jhw * t0[s])
@@ -91,10 +99,14 @@ def harmonic_transfer(eng, tr, row: int, max_order: int
             if collect:
                 q = Q[m, row]
                 qx, qu = q[:nx], q[nx + CH_SOURCE]
+                if t_start != t0[s]:  # segments are contiguous: the last end is this start
+                    e_start = outer(float(t0[s]))
+                e_end = outer(float(t1[s]))
                 # the Fourier integrals of eta = (qx pi + qu) e^{jhwt}
                 # + (qx V) e^{lam (t - t0)} c over the segment, times e^{-jkwt}
-                acc += (qx @ pi[m] + qu)[None, :] * np.exp(dk * t0[s]) * d[s] \
-                    * phi1(dk * d[s])
+                acc += (qx @ pi[m] + qu)[None, :] * np.where(
+                    same, d[s], (e_end - e_start) * inv_dk)
+                e_start, t_start = e_end, t1[s]
                 z = (lam[m][None, :] - jkw[:, None]) * d[s]  # (K, n)
                 acc += (np.exp(-jkw * t0[s])[:, None] * d[s] * phi1(z)) \
                     @ ((qx @ V[m])[:, None] * c)
@@ -107,11 +119,42 @@ def harmonic_transfer(eng, tr, row: int, max_order: int
     except np.linalg.LinAlgError:
         return None
     _, acc = run(xi0, True)
-    F = acc / T  # F[k + max_order, h - 2] = F_k(eta_h)
+    return _compose(acc / T, max_order)
+
+
+def _integral(jhw: np.ndarray, jkw: np.ndarray):
+    """``t0, t1 -> int_t0^t1 exp((j h w - j k w) t) dt`` for every (k, h) [s]: the difference
+    of an outer product of exponentials over the exponent (K + H exponentials, not K H), the
+    segment's length where the exponent is zero (h = k)."""
+    dk = jhw[None, :] - jkw[:, None]
+    same = dk == 0
+    inv_dk = np.where(same, 0.0, 1.0 / np.where(same, 1.0, dk))
+
+    def outer(t: float) -> np.ndarray:
+        return np.exp(-jkw * t)[:, None] * np.exp(jhw * t)[None, :]
+
+    return outer, same, inv_dk
+
+
+def _static(Q, idx, t0, t1, row: int, jhw: np.ndarray, jkw: np.ndarray) -> np.ndarray:
+    """Fourier coefficients ``F_k`` of a stateless circuit's answer to ``exp(j h w t)``: the
+    output's gain on the source, per segment, integrated against ``exp(-j k w t)``."""
+    outer, same, inv_dk = _integral(jhw, jkw)
+    acc = np.zeros((jkw.size, jhw.size), dtype=complex)
+    for s in range(t0.size):
+        qu = Q[idx[s], row][CH_SOURCE]
+        if qu != 0:
+            acc += qu * np.where(same, t1[s] - t0[s], (outer(float(t1[s])) - outer(float(t0[s])))
+                                 * inv_dk)
+    return acc / float(t1[-1])
+
+
+def _compose(F: np.ndarray, max_order: int) -> tuple[np.ndarray, np.ndarray] | None:
+    """``A[k, h] = F_k``, ``B[k, h] = -conj(F_-k)`` from ``F[k + max_order, h - 1]``."""
     A = np.zeros((max_order + 1, max_order + 1), dtype=complex)
     B = np.zeros_like(A)
-    A[:, 2:] = F[max_order:]
-    B[:, 2:] = -np.conj(F[max_order::-1])
+    A[:, 1:] = F[max_order:]
+    B[:, 1:] = -np.conj(F[max_order::-1])
     if not (np.all(np.isfinite(A)) and np.all(np.isfinite(B))):
         return None
     return A, B

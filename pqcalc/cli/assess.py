@@ -242,8 +242,8 @@ def print_assessment(a, scenarios, others: bool = False) -> None:
         for c in sc.checks:
             out(f"{c.status.upper()} {c.name}: {c.message} [{c.source}]", indent=2, hang=4)
         out()
-        out(f"scenario {sc.name}: {sc.verdict.upper()}, {_counts(sc.all_checks())}", indent=2,
-            hang=4)
+        out(f"scenario {sc.name}: {sc.verdict.upper()}{sc.basis_note}, "
+            f"{_counts(sc.all_checks())}", indent=2, hang=4)
         if sc.unsolved:
             out(f"not assessed: {plural(len(sc.unsolved), 'circuit')} without a solution "
                 f"({', '.join(sc.unsolved)}); the totals above are incomplete", indent=2, hang=4)
@@ -253,7 +253,7 @@ def print_assessment(a, scenarios, others: bool = False) -> None:
         out()
         out("== other scenarios (pqcalc assess --scenario NAME for the details)", hang=3)
         for sc in rest:
-            out(f"{sc.name}: {sc.verdict.upper()}, {_counts(sc.all_checks())}; "
+            out(f"{sc.name}: {sc.verdict.upper()}{sc.basis_note}, {_counts(sc.all_checks())}; "
                 f"{_worst_finding(sc)}", indent=2, hang=4)
     if a.diversity is not None:
         div = a.diversity.to_dict()
@@ -268,8 +268,11 @@ def print_assessment(a, scenarios, others: bool = False) -> None:
             out(f"{p['id']}" + (" (p50/p95/max A)" if mc else " (A)") + f": {items}",
                 indent=2, hang=4)
     out()
+    unsettled = [sc.name for sc in a.scenarios if sc.basis_note]
     out(f"verdict: {a.verdict.upper()} over {plural(len(a.scenarios), 'scenario')} "
-        f"({_counts(c for sc in a.scenarios for c in sc.all_checks())})", hang=2)
+        f"({_counts(c for sc in a.scenarios for c in sc.all_checks())})" + (
+            f"; {', '.join(unsettled)} on the ideal-supply figures: the supply interaction "
+            "did not settle there" if unsettled else ""), hang=2)
     out(f"caution: {CAUTION}", hang=2)
 
 

@@ -38,7 +38,8 @@ def assess(inst: Installation, progress: Progress | None = None,
     solves the distinct circuit cases of each pass in parallel (see :func:`workers`); the
     results equal the in-process ones.
     """
-    solver = CaseSolver(inst, executor)
+    solver = CaseSolver(inst, executor, transfer=inst.analysis.supply_interaction
+                        and inst.has_source_impedance)
     scen = tuple(evaluate_scenario(inst, solver, k, progress) for k in range(inst.n_scenarios))
     design = max(range(len(scen)), key=lambda k: max(
         (p.neutral.i_rms_a if p.neutral else 0.0) + p.max_line_a for p in scen[k].panels))

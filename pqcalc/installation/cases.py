@@ -27,10 +27,10 @@ from ..errors import ConvergenceError, InputError
 from ..spectrum import period_phasors
 from ..waveform import shift_periodic
 from .model import Circuit, Installation, MeasuredFixture, ModelledFixture
-from .sums import GRID_SAMPLES, common_period, to_grid
+from .sums import GRID_SAMPLES, MAX_ORDER, common_period, to_grid
 
 __all__ = ["FULL_CONDUCTION_DEG", "PanelVoltage", "CaseConditions", "GroupStress",
-           "CaseResult", "CaseSolver"]
+           "CaseResult", "CaseSolver", "with_fundamental"]
 
 #: A setting at or above this conduction angle [deg] is a dimmer fully on.
 FULL_CONDUCTION_DEG = 179.5
@@ -99,13 +99,32 @@ class CaseResult:
     #: the worst lamp's light: ``mean`` [-, 1 = full output], ``pst_lm``, ``svm`` [-]
     #: (None for measured records and where the lamp is dark)
     light: dict[str, float] | None = None
+    #: the harmonic transfer ``(A, B)`` of the current from the voltage about this state,
+    #: in this result's frame, orders 0..MAX_ORDER (rows out, columns in; the fundamental's
+    #: column zero) [S]: asked for by the supply interaction
+    #: (:func:`pqcalc.circuits.smallsignal.harmonic_transfer`); zero for measured records,
+    #: None where not asked for or the state has no one-cycle period
+    transfer: tuple[np.ndarray, np.ndarray] | None = None
 
     @property
     def phasors(self) -> np.ndarray:
         return period_phasors(self.current_a, self.cycles)
 
     def scaled(self, count: int) -> CaseResult:
-        return replace(self, current_a=self.current_a * count, p_w=self.p_w * count)
+        t = self.transfer
+        return replace(self, current_a=self.current_a * count, p_w=self.p_w * count,
+                       transfer=None if t is None else (t[0] * count, t[1] * count))
+
+    def turned(self, angle_rad: float) -> CaseResult:
+        """The result moved ahead by ``angle_rad`` of the fundamental (every order-h phasor
+        turned by ``h * angle_rad``), its transfer with it: ``A[k, h]`` by ``k - h``,
+        ``B[k, h]`` by ``k + h`` times the angle."""
+        t = self.transfer
+        if t is not None:
+            e = np.exp(1j * angle_rad * np.arange(t[0].shape[0]))
+            t = (e[:, None] * t[0] * np.conj(e)[None, :], e[:, None] * t[1] * e[None, :])
+        return replace(self, current_a=shift_periodic(self.current_a, -angle_rad, self.cycles),
+                       transfer=t)
 
 
 def _sum_cases(parts: list[CaseResult], notes: tuple[str, ...] = ()) -> CaseResult:
@@ -116,16 +135,25 @@ def _sum_cases(parts: list[CaseResult], notes: tuple[str, ...] = ()) -> CaseResu
     flags = tuple(dict.fromkeys(f for p in parts for f in p.flags))
     lights = [p.light for p in parts if p.light is not None]
     light = max(lights, key=lambda d: d.get("pst_lm") or 0.0) if lights else None
+    ts = [p.transfer for p in parts if p.transfer is not None]
+    transfer = None
+    if ts:
+        transfer = (np.sum([t[0] for t in ts], axis=0), np.sum([t[1] for t in ts], axis=0))
     return CaseResult(cur, cyc, sum(p.p_w for p in parts), flags,
                       tuple(g for p in parts for g in p.groups),
-                      tuple(dict.fromkeys(n for p in parts for n in p.notes + notes)), light)
+                      tuple(dict.fromkeys(n for p in parts for n in p.notes + notes)), light,
+                      transfer)
 
 
 class CaseSolver:
     """Solves and caches the circuit cases of one installation."""
 
-    def __init__(self, inst: Installation, executor: Executor | None = None):
+    def __init__(self, inst: Installation, executor: Executor | None = None,
+                 transfer: bool = False):
         self.inst = inst
+        #: solve the harmonic transfer beside each modelled case (the supply interaction's
+        #: linear part); a measured record's is zero (used as recorded at any voltage)
+        self.transfer = transfer
         self.cache: dict[Any, Any] = {}
         self.captures: dict[str, tuple[np.ndarray, float, tuple[str, ...]]] = {}
         self.solves = 0
@@ -151,7 +179,8 @@ class CaseSolver:
             return
         items = list(todo.items())
         size = max(1, math.ceil(len(items) / BATCHES))  # a few tasks per worker, not one each
-        futures = [self.executor.submit(_solve_remote, self.inst, items[i:i + size])
+        futures = [self.executor.submit(_solve_remote, self.inst, items[i:i + size],
+                                        self.transfer)
                    for i in range(0, len(items), size)]
         for fut in futures:
             results, solves = fut.result()
@@ -258,9 +287,11 @@ class CaseSolver:
         x, p1, got = self.captures[fid]
         # a steady-state record holds no switch-on inrush: unknown (NaN), not its peak
         g = GroupStress(fid, count, float(np.sqrt(np.mean(x**2))))
+        zero = np.zeros((MAX_ORDER + 1, MAX_ORDER + 1), dtype=complex)
         return CaseResult(x * count, 1, p1 * count, (), (g,),
                           got + (f"fixture {fid}: measured record used at its recorded "
-                                   "conditions (dimmer setting not applied)",))
+                                   "conditions (dimmer setting not applied)",),
+                          transfer=(zero, zero) if self.transfer else None)
 
     def _model_case(self, k: CaseConditions, groups: tuple[tuple[str, int], ...],
                     cid: str) -> CaseResult:
@@ -280,9 +311,7 @@ class CaseSolver:
         if hit is None:
             hit = self._solve(k, groups, v1, harm, r_src, l_src, cid)
             self.cache[key] = hit
-        if delta:
-            return replace(hit, current_a=shift_periodic(hit.current_a, -delta, hit.cycles))
-        return hit
+        return hit.turned(delta) if delta else hit
 
     def shunt_capacitance_f(self) -> dict[str, float]:
         """Per line, the fixtures' input (EMI) capacitance across the supply [F]: every
@@ -346,7 +375,8 @@ class CaseSolver:
             # the switch-on inrush is the installation's own transient (inrush()), so the
             # solver's extras are not needed; this cache keeps the result, not the solver's
             # memo
-            sol = solve_circuit(supply, dimmer_spec(k), loads, extras=False, memo=False)
+            sol = solve_circuit(supply, dimmer_spec(k), loads, extras=False, memo=False,
+                                admittance=self.transfer)
         except (ConvergenceError, InputError) as e:
             what = ", ".join(f"{n} x {f}" for f, n in groups)
             setting = "" if k.dimmer == "none" else (
@@ -363,8 +393,11 @@ class CaseSolver:
         # the solver's notes, except its dimmer-top note: the case was clamped to the top
         # already, and says so itself
         notes = tuple(n for n in sol.notes if "conducts at most" not in n)
+        t = sol.harmonic_transfer_s
+        if t is not None:
+            t = with_fundamental(t, period_phasors(x, w.cycles, MAX_ORDER), v1)
         return CaseResult(x, w.cycles, p, tuple(sol.flags), gs, notes,
-                          _worst_light(sol, inst.supply.frequency_hz))
+                          _worst_light(sol, inst.supply.frequency_hz), t)
 
     def inrush(self, c: Circuit, scenario: int) -> tuple[Any, tuple[str, ...]]:
         """The switch-on transient of the circuit's modelled lamps at the scenario's
@@ -404,14 +437,31 @@ class CaseSolver:
         return hit, tuple(f for f, _ in groups)
 
 
+def with_fundamental(t: tuple[np.ndarray, np.ndarray], phasors: np.ndarray, v1_v: float
+                     ) -> tuple[np.ndarray, np.ndarray]:
+    """A solve's harmonic transfer (events held at their times) with the fundamental's
+    column made whole: its magnitude's part as solved (the firing instants stay where they
+    are when the voltage only scales), its angle's part the whole state turning with it
+    (``dI_k = j k I_k d(angle)``: every time event follows the fundamental's zero crossing).
+    With ``V_1 = v1_v`` real (the solve's frame), ``dV_1 = v1_v (da + j d(angle))``:
+    ``A[k, 1] = (A_1 + B_1)_k / 2 + k I_k / (2 V_1)``, ``B[k, 1] = (A_1 + B_1)_k / 2 - k I_k /
+    (2 V_1)``."""
+    a, b = t[0].copy(), t[1].copy()
+    k = np.arange(a.shape[0])
+    mag = (a[:, 1] + b[:, 1]) / 2
+    turn = k * phasors[: a.shape[0]] / (2 * v1_v)
+    a[:, 1], b[:, 1] = mag + turn, mag - turn
+    return a, b
+
+
 #: Tasks a pass's distinct cases are split into for the workers.
 BATCHES = 16
 
 
-def _solve_remote(inst: Installation, items: list[tuple[CaseConditions, str]]
-                  ) -> tuple[dict[CaseConditions, CaseResult], int]:
+def _solve_remote(inst: Installation, items: list[tuple[CaseConditions, str]],
+                  transfer: bool = False) -> tuple[dict[CaseConditions, CaseResult], int]:
     """Distinct cases solved in a worker: the results by key and the solves they took."""
-    solver = CaseSolver(inst)
+    solver = CaseSolver(inst, transfer=transfer)
     return {key: solver._case_or_missing(key, cid) for key, cid in items}, solver.solves
 
 

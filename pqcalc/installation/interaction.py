@@ -10,6 +10,7 @@ high orders and lower the drop's phase angle slightly).
 
 from __future__ import annotations
 
+import logging
 from collections.abc import Callable, Mapping
 from dataclasses import dataclass
 
@@ -27,11 +28,11 @@ __all__ = [
     "harmonic_impedance",
     "voltage_drop",
     "ideal_voltage",
-    "circuit_sources",
     "node_voltages",
     "own_frame",
+    "node_of",
     "Interaction",
-    "fixed_point",
+    "settle",
     "resonance_order",
 ]
 
@@ -122,34 +123,6 @@ def _loop(inst: Installation, feeder: str | None) -> tuple[float, float]:
     return round(r, 9), round(l_h, 12)
 
 
-def circuit_sources(inst: Installation, cases: Mapping[str, CaseResult],
-                    sums: InstallationSums) -> dict[str, np.ndarray]:
-    """The Thevenin EMF each circuit sees at its panel (L1 frame) [V rms phasors].
-
-    The loop impedance of the source and feeder (line and neutral) goes into the circuit's
-    own solve, so a circuit's own switching transients meet the impedance exactly; the drop
-    that the *other* circuits' currents cause across the shared impedances distorts its EMF:
-    ``E_c = E - Z_tr (I_tr - I_c) - Z_trN (I_trN - I_c) - Z_f (I_f - I_c) - Z_fN (I_fN - I_c)``.
-    """
-    sup = inst.supply
-    f = sup.frequency_hz
-    angles = LINE_ANGLES_DEG[sup.system]
-    tot_l, tot_n = sums.total.phasors(sums.cycles)
-    fdr = {k: v.phasors(sums.cycles) for k, v in sums.feeders.items()}
-    out = {}
-    for p in inst.panels:
-        for c in p.circuits:
-            ic = rotate_phasors(cases[c.id].phasors, np.radians(angles[c.line]))
-            ln = c.line
-            v = ideal_voltage(inst, ln) - voltage_drop(sup.impedance, tot_l[ln] - ic,
-                                                       tot_n - ic, f)
-            if p.feeder is not None:
-                fl, fn = fdr[p.feeder]
-                v = v - voltage_drop(inst.feeders[p.feeder].impedance, fl[ln] - ic, fn - ic, f)
-            out[c.id] = v
-    return out
-
-
 def node_voltages(inst: Installation, sums: InstallationSums
                   ) -> dict[tuple[str, str, str], np.ndarray]:
     """Harmonic voltage at each panel, feeder end and the service, per line (L1 frame)
@@ -176,24 +149,24 @@ def node_voltages(inst: Installation, sums: InstallationSums
 
 
 #: Quantisation of a solve's source harmonics: fraction of V1 and angle [deg]. Circuits
-#: whose sources differ by less share one solve (identical circuits on the three lines of a
-#: balanced panel see the same voltage in their own frames).
+#: whose sources differ by less share one solve.
 HARMONIC_STEP = 1e-5
 ANGLE_STEP_DEG = 0.1
-#: A circuit whose current moves by more than JUMP_FRACTION of its fundamental (at any
-#: order) from one pass to the next, and by more than JUMP_GAIN times the change of its EMF
-#: (both as fractions, of I1 and V1), has changed its firing pattern (a triac that re-fires
-#: once more or once less per half cycle): a jump, not a smooth response (a bulk-capacitor
-#: lamp's harmonic currents move by about 20 times a voltage harmonic's fraction).
+#: A circuit whose current lands further than JUMP_FRACTION of its fundamental (at any
+#: order) from the linear prediction of its harmonic transfer has changed its firing
+#: pattern (a triac that fires once more or once less per half cycle, or drops out): a jump,
+#: not a smooth response. The transfer predicts a smooth circuit's answer to within a few
+#: per cent of the change. A jump also explains most of the change itself (more than
+#: JUMP_SHARE of it), which a smooth circuit's error of linearisation after a large step
+#: does not (about a fifth of the change, measured on the demos' rectifier lamps). A
+#: circuit that jumps HOLD_AFTER times has no steady firing pattern near these voltages:
+#: it is held (its source kept, its current a fixed injection) so that the rest can settle.
 JUMP_FRACTION = 0.25
-JUMP_GAIN = 200.0
-#: Damping of the fixed-point step (1 = undamped) and the number of earlier steps
-#: Anderson's method combines (0 = plain damped substitution). Eight steps, not three: a
-#: panel of rectifier loads at the end of a long feeder (the campus demo's RES-B2 alone)
-#: diverged with three and settles in 11 iterations with eight (SPC-1: 15 -> 9); the demos
-#: that settle within four iterations are unchanged.
-RELAX = 0.8
-MEMORY = 8
+JUMP_SHARE = 0.5
+HOLD_AFTER = 2
+
+
+log = logging.getLogger(__name__)
 
 
 def _quantise(x: float, step: float) -> float:
@@ -220,118 +193,258 @@ def own_frame(inst: Installation, line: str, v: np.ndarray,
 
 @dataclass(frozen=True)
 class Interaction:
-    """The fixed point of one scenario: the cases and sums under the settled voltages."""
+    """The settled state of one scenario: the cases and sums under the settled voltages."""
 
     cases: dict[str, CaseResult]
     sums: InstallationSums
     iterations: int
+    #: the largest mismatch left between the node voltages the circuits were solved under
+    #: and those their currents make [fraction of V1]
     change: float
-    #: the updates grew instead of shrinking (the iteration was stopped)
+    #: the mismatch grew instead of shrinking (the iteration was stopped)
     diverged: bool = False
-    #: the largest update of every iteration [fraction of V1]
+    #: the largest mismatch after every pass [fraction of V1]
     history: tuple[float, ...] = ()
-    #: where the last update was largest: (circuit id, order)
-    worst: tuple[str, int] | None = None
-    #: circuits whose current jumped between two passes (a change of firing pattern):
-    #: (id, the largest jump [fraction of I1])
+    #: where the last mismatch was largest: (node id, line, order)
+    worst: tuple[str, str, int] | None = None
+    #: circuits whose current jumped away from its linear prediction in a pass (a change of
+    #: firing pattern): (id, the largest jump [fraction of I1])
     jumps: tuple[tuple[str, float], ...] = ()
+    #: node (``"service"`` or a feeder id) -> line -> the voltage phasors the circuits were
+    #: solved under (L1 frame) [V rms]
+    voltages: dict[str, dict[str, np.ndarray]] | None = None
+    #: circuits held in the pattern last solved after jumping HOLD_AFTER times (no steady
+    #: firing pattern of their own near the settled voltages), and the largest mismatch
+    #: their terminals were left with [fraction of V1]
+    held: tuple[str, ...] = ()
+    held_mismatch: float = 0.0
 
 
-def fixed_point(inst: Installation,
-                solve_pass: Callable[[dict[str, PanelVoltage]],
-                                     tuple[dict[str, CaseResult], InstallationSums]],
-                cases: dict[str, CaseResult], sums: InstallationSums,
-                relax: float | None = None, memory: int | None = None) -> Interaction:
-    """Fixed point on the circuits' source EMFs ``E = G(E)``, starting from the
-    ideal-supply currents, with Anderson acceleration.
+def node_of(inst: Installation, panel_feeder: str | None) -> str:
+    """The network node a panel hangs on: its feeder's end, or the service."""
+    return "service" if panel_feeder is None else panel_feeder
 
-    ``G`` solves every circuit under its EMF and returns the EMFs the new currents make.
-    Plain substitution converges slowly or not at all where dimmed circuits respond
-    strongly to the distortion; Anderson's method (type II, the last ``memory`` steps,
-    damped by ``relax``) takes the combination of recent steps that minimises the
-    residual: ``E_{k+1} = E_k + b f_k - (dE + b dF) gamma`` with ``gamma`` the least-squares
-    solution of ``dF gamma = f_k``, ``f = G(E) - E``. It stops when the update is below
-    ``analysis.tolerance`` [fraction of V1] on every circuit, after
-    ``analysis.max_iterations``, or when two updates in a row grow (``diverged``).
+
+def _real(a: np.ndarray, b: np.ndarray) -> np.ndarray:
+    """``z -> A z + B conj(z)`` as a real matrix on ``[Re z; Im z]``."""
+    return np.block([[a.real + b.real, b.imag - a.imag], [a.imag + b.imag, a.real - b.real]])
+
+
+def _drop_operator(z: SourceImpedance, lines: int, frequency_hz: float) -> np.ndarray:
+    """The voltage drop of a shared impedance as a real matrix on the stacked line currents
+    (orders 1..MAX_ORDER per line): ``dV_l,h = Z_l(h) I_l,h + Z_N(h) sum_l' I_l',h``."""
+    zl = harmonic_impedance(z.r_ohm, z.l_h, frequency_hz, MAX_ORDER)[1:]
+    zn = harmonic_impedance(z.neutral_r_ohm, z.neutral_l_h, frequency_hz, MAX_ORDER)[1:]
+    d = np.kron(np.eye(lines), np.diag(zl)) + np.kron(np.ones((lines, lines)), np.diag(zn))
+    return _real(d, np.zeros_like(d))
+
+
+def _transfer(c: CaseResult, angle_rad: float) -> np.ndarray | None:
+    """A case's harmonic transfer turned to the L1 frame (orders 1..MAX_ORDER) as a real
+    matrix; None without one."""
+    if c.transfer is None:
+        return None
+    e = np.exp(1j * angle_rad * np.arange(MAX_ORDER + 1))
+    a = (e[:, None] * c.transfer[0] * np.conj(e)[None, :])[1:, 1:]
+    b = (e[:, None] * c.transfer[1] * e[None, :])[1:, 1:]
+    return _real(a, b)
+
+
+def _stack(z: np.ndarray) -> np.ndarray:
+    return np.concatenate([z[1:].real, z[1:].imag])
+
+
+def _unstack(x: np.ndarray) -> np.ndarray:
+    m = x.size // 2
+    return np.concatenate([[0.0], x[:m] + 1j * x[m:]])
+
+
+def settle(inst: Installation,
+           solve_pass: Callable[[dict[str, PanelVoltage]],
+                                tuple[dict[str, CaseResult], InstallationSums]],
+           cases: dict[str, CaseResult], sums: InstallationSums) -> Interaction:
+    """The panel voltages and the currents they draw, consistent with each other: Newton's
+    method in the harmonic domain, each circuit's harmonic transfer its Jacobian.
+
+    Every circuit is solved with the loop impedance of the source and its feeder (line and
+    neutral) in series, so that its own switching meets that impedance exactly, under the
+    EMF ``x_c`` that makes its terminal voltage ``u_c = x_c - Z_loop I_c`` its node's (the
+    service or its feeder's end; every panel on a feeder sees its end). The mismatch of a
+    circuit, ``F_c = u_c - G_n``, is what its terminals saw less what the currents make at
+    its node (:func:`node_voltages`, orders 1..MAX_ORDER). Its current answers a change at its
+    terminals through its terminal admittance ``Y_c = T_c (1 - Z_loop T_c)^-1``, ``T_c`` the
+    transfer from its EMF (:mod:`pqcalc.circuits.smallsignal`, the fundamental's column made
+    whole by :func:`~pqcalc.installation.cases.with_fundamental`). Newton's step asks every
+    terminal to land on its node's new voltage, ``du_c = dG_n - F_c``, where
+    ``dG = -D sum_c Y_c du_c`` over the shared impedances ``D``: per node
+    ``(1 + D J) dG = D sum_c Y_c F_c`` with ``J = sum_c Y_c``. The network's tree shape
+    (feeders off one service) reduces it to one small dense system per feeder and one for
+    the service (a Schur complement). The next EMF is ``x_c = G_n + dG_n + Z_loop (I_c + Y_c
+    du_c)``. Circuits that are the same case on the same node and line share their EMF and
+    their solve. Where every circuit answers smoothly the mismatch falls quadratically; a
+    circuit that lands far from its linear prediction has changed its firing pattern (a
+    jump) and is named; one that jumps again (it has no steady firing pattern near these
+    voltages: it alternates) is held in the pattern last solved, its source kept and its
+    current a fixed injection, so that the rest can settle around it; the result says so.
+
+    It stops when the mismatch is below ``analysis.tolerance`` [fraction of V1] on every
+    circuit, after ``analysis.max_iterations`` passes, or when it grows twice in a row
+    (``diverged``; a pass that holds a circuit does not count as growing).
 
     References
     ----------
-    D. G. Anderson, "Iterative procedures for nonlinear integral equations", J. ACM 12(4),
-    547-560, 1965; H. F. Walker and P. Ni, "Anderson acceleration for fixed-point
-    iterations", SIAM J. Numer. Anal. 49(4), 1715-1735, 2011.
+    J. Arrillaga, N. R. Watson, *Power System Harmonics*, 2nd ed., Wiley 2003, ch. 6 and 7
+    (the harmonic domain, Newton's method with the loads' harmonic Norton equivalents; from
+    memory); E. Mollerstedt, B. Bernhardsson, IEEE Control Systems 20(4), 2000 (harmonic
+    transfer matrices of switched circuits).
     """
     opts = inst.analysis
-    beta = RELAX if relax is None else relax
-    m = MEMORY if memory is None else memory
-    line_of = {c.id: c.line for c in inst.circuits}
+    sup = inst.supply
+    f = sup.frequency_hz
+    lines = list(sup.lines)
+    nl = len(lines)
+    m = MAX_ORDER
+    angles = {ln: np.radians(LINE_ANGLES_DEG[sup.system][ln]) for ln in lines}
+    where = {c.id: (node_of(inst, p.feeder), c.line) for p in inst.panels for c in p.circuits}
     loops = {c.id: _loop(inst, p.feeder) for p in inst.panels for c in p.circuits}
-    src = circuit_sources(inst, cases, sums)
-    ids = list(src)
-    scale = np.array([abs(src[cid][1]) for cid in ids])
-
-    def pack(d: dict[str, np.ndarray]) -> np.ndarray:
-        z = np.stack([d[cid] / s for cid, s in zip(ids, scale, strict=True)])
-        return np.concatenate([z.real.ravel(), z.imag.ravel()])
-
-    def unpack(x: np.ndarray) -> dict[str, np.ndarray]:
-        n = x.size // 2
-        z = (x[:n] + 1j * x[n:]).reshape(len(ids), -1)
-        return {cid: z[k] * scale[k] for k, cid in enumerate(ids)}
-
-    x = pack(src)
-    xs: list[np.ndarray] = []
-    fs: list[np.ndarray] = []
+    nodes = ["service"] + list(inst.feeders)
+    d_s = _drop_operator(sup.impedance, nl, f)
+    d_f = {fid: _drop_operator(fd.impedance, nl, f) for fid, fd in inst.feeders.items()}
+    eye_n = np.eye(2 * nl * m)
+    eye_c = np.eye(2 * m)
+    hw = harmonic_impedance(0.0, 1.0, f, m)  # j h w
+    zloop = {lp: lp[0] + lp[1] * hw for lp in set(loops.values())}
+    # what each circuit's terminals saw in the pass just solved (the ideal pass: the
+    # stiff supply, no loop in the solve)
+    u = {cid: ideal_voltage(inst, ln) for cid, (_n, ln) in where.items()}
+    in_loop = False
     history: list[float] = []
-    change = float("inf")
-    it = 0
     jumps: dict[str, float] = {}
-    worst: tuple[str, int] | None = None
-    last = x
+    times: dict[str, int] = {}
+    held: set[str] = set()
+    prev: dict[str, np.ndarray] = {}
+    worst = None
+    change = float("inf")
+    predicted: dict[str, np.ndarray] = {}
+    x: dict[str, np.ndarray] = {}
+    growing: list[bool] = []
+    _jumped_now: dict[str, int] = {}
+    held_mismatch = 0.0
+    it = 0
     for it in range(1, opts.max_iterations + 1):  # noqa: B007 (reported after the loop)
-        cur = unpack(x)
-        at = {cid: own_frame(inst, line_of[cid], v, loops[cid]) for cid, v in cur.items()}
-        before = cases
-        cases, sums = solve_pass(at)
-        # how far each circuit's EMF moved for this pass [fraction of V1]: the first pass
-        # from the stiff supply, the others from the pass before
-        dx = np.abs(x - last) if it > 1 else np.abs(x - pack({
-            cid: ideal_voltage(inst, line_of[cid]) for cid in ids}))
-        half = dx.size // 2
-        moved = np.max(np.hypot(dx[:half], dx[half:]).reshape(len(ids), -1), axis=1)
-        last = x
-        for k, cid in enumerate(ids):
-            a, b = before[cid].phasors, cases[cid].phasors
-            i1 = abs(a[1])
-            jump = float(np.max(np.abs(b - a))) / i1 if i1 > 0 else 0.0
-            if jump > JUMP_FRACTION and jump > JUMP_GAIN * moved[k]:
-                jumps[cid] = max(jump, jumps.get(cid, 0.0))
-        g = pack(circuit_sources(inst, cases, sums))
-        f = g - x
-        fz = np.abs(f[:half] + 1j * f[half:]).reshape(len(ids), -1)
-        change = float(np.max(fz))
-        kw, hw = np.unravel_index(int(np.argmax(fz)), fz.shape)
-        worst = (ids[int(kw)], int(hw))
+        if it > 1:
+            at = {cid: own_frame(inst, where[cid][1], x[cid], loops[cid]) for cid in where}
+            cases, sums = solve_pass(at)
+            in_loop = True
+        cur = {cid: rotate_phasors(cases[cid].phasors, angles[ln])
+               for cid, (_n, ln) in where.items()}
+        if in_loop:
+            u = {cid: x[cid] - zloop[loops[cid]] * cur[cid] for cid in where}
+        # circuits that did not land where their transfer said: a change of firing pattern
+        new_holds = False
+        for cid, pred in predicted.items():
+            i1 = abs(pred[1])
+            err = float(np.max(np.abs(cur[cid] - pred)))
+            moved = float(np.max(np.abs(cur[cid] - prev[cid])))
+            if i1 > 0 and err > JUMP_FRACTION * i1 and err > JUMP_SHARE * moved:
+                jumps[cid] = max(err / i1, jumps.get(cid, 0.0))
+                _jumped_now[cid] = it
+                times[cid] = times.get(cid, 0) + 1
+                if times[cid] >= HOLD_AFTER:
+                    held.add(cid)
+                    new_holds = True
+        if log.isEnabledFor(logging.DEBUG) and predicted:
+            errs = sorted(((float(np.max(np.abs(cur[c] - predicted[c]))), c,
+                            int(np.argmax(np.abs(cur[c] - predicted[c]))),
+                            float(np.max(np.abs(cur[c] - prev[c])))) for c in predicted),
+                          reverse=True)
+            log.debug("largest prediction errors [A] (error, circuit, order, change): %s",
+                      [(round(e, 4), c, k, round(mv, 4)) for e, c, k, mv in errs[:8]])
+        prev = cur
+        g = node_voltages(inst, sums)
+        gn = {(n, ln): g[("transformer", "service", ln) if n == "service"
+                         else ("feeder", n, ln)] for n in nodes for ln in lines}
+        mis = {cid: u[cid] - gn[nln] for cid, nln in where.items()}
+        size = {cid: float(np.max(np.abs(r[1:]))) / abs(u[cid][1]) for cid, r in mis.items()}
+        free = [cid for cid in where if cid not in held]
+        change, worst = 0.0, None
+        if free:
+            top = max(free, key=lambda cid: size[cid])
+            change = size[top]
+            worst = (*where[top], 1 + int(np.argmax(np.abs(mis[top][1:]))))
+        held_mismatch = max((size[cid] for cid in held), default=0.0)
         history.append(change)
-        if change < opts.tolerance:
+        log.debug("pass %d: mismatch %.3g of V1 at %s; %d jumped in this pass, %d held",
+                  it, change, worst, sum(1 for c in predicted if jumps.get(c) and c in times
+                                         and _jumped_now.get(c) == it), len(held))
+        growing[:] = growing[-1:] + [len(history) >= 2 and history[-1] > history[-2]
+                                     and not new_holds]
+        if change < opts.tolerance or it == opts.max_iterations:
             break
-        if len(history) >= 3 and history[-1] > history[-2] > history[-3]:
-            # two growing updates in a row: not converging (a resonance, or circuits that
-            # change their firing pattern); more iterations cost many solves and would
-            # only report a wrong number
+        if all(growing) and len(growing) == 2:
             return Interaction(cases, sums, it, change, True, tuple(history), worst,
-                               tuple(jumps.items()))
-        xs.append(x)
-        fs.append(f)
-        xs, fs = xs[-(m + 1):], fs[-(m + 1):]
-        if len(fs) > 1:
-            dF = np.stack([fs[k + 1] - fs[k] for k in range(len(fs) - 1)], axis=1)
-            dX = np.stack([xs[k + 1] - xs[k] for k in range(len(xs) - 1)], axis=1)
-            gamma = np.linalg.lstsq(dF, f, rcond=None)[0]
-            x = x + beta * f - (dX + beta * dF) @ gamma
-        else:
-            x = x + beta * f
+                               tuple(jumps.items()), _node_map(gn), tuple(sorted(held)),
+                               held_mismatch)
+        # each distinct circuit's terminal admittance (identical circuits share it)
+        ys: dict[tuple, np.ndarray | None] = {}
+        yc = {}
+        for cid, (_n, ln) in where.items():
+            key = (id(cases[cid]), ln, loops[cid] if in_loop else None)
+            if key not in ys:
+                t = _transfer(cases[cid], angles[ln])
+                if t is not None and in_loop:
+                    zr = _real(np.diag(zloop[loops[cid]][1:]), np.zeros((m, m)))
+                    t = np.linalg.solve((eye_c - zr @ t).T, t.T).T
+                ys[key] = t
+            yc[cid] = None if cid in held else ys[key]
+        jac = {n: np.zeros((2 * nl * m, 2 * nl * m)) for n in nodes}
+        inj = {n: np.zeros(2 * nl * m) for n in nodes}
+        for cid, (n, ln) in where.items():
+            y = yc[cid]
+            if y is None:
+                continue
+            i = lines.index(ln)
+            sel = np.r_[i * m:(i + 1) * m, nl * m + i * m:nl * m + (i + 1) * m]
+            jac[n][np.ix_(sel, sel)] += y
+            inj[n][sel] += y @ _stack(mis[cid])
+        # feeders: (1 + D_f J_f) dG_f = dG_s + D_f s_f; the service:
+        # (1 + D_s J_s + D_s sum_f K_f) dG_s = D_s (s_s + sum_f (s_f - K_f D_f s_f)),
+        # K_f = J_f (1 + D_f J_f)^-1 (the feeders eliminated: a Schur complement)
+        lhs = eye_n + d_s @ jac["service"]
+        rhs = inj["service"].copy()
+        mats = {}
+        for fid in inst.feeders:
+            mf = eye_n + d_f[fid] @ jac[fid]
+            kf = np.linalg.solve(mf.T, jac[fid].T).T
+            mats[fid] = mf
+            lhs = lhs + d_s @ kf
+            rhs = rhs + inj[fid] - kf @ (d_f[fid] @ inj[fid])
+        dg = {"service": np.linalg.solve(lhs, d_s @ rhs)}
+        for fid, mf in mats.items():
+            dg[fid] = np.linalg.solve(mf, dg["service"] + d_f[fid] @ inj[fid])
+        predicted = {}
+        for cid, (n, ln) in where.items():
+            i = lines.index(ln)
+            sel = np.r_[i * m:(i + 1) * m, nl * m + i * m:nl * m + (i + 1) * m]
+            dgc = _unstack(dg[n][sel])
+            du = dgc - mis[cid]
+            pred = cur[cid].copy()
+            if yc[cid] is not None:
+                pred = pred + _unstack(yc[cid] @ _stack(du))
+                predicted[cid] = pred
+            if cid in held and cid in x:
+                continue  # held: its source stays, and so does its solve
+            x[cid] = gn[(n, ln)] + dgc + zloop[loops[cid]] * pred
+            x[cid][0] = 0.0
     return Interaction(cases, sums, it, change, False, tuple(history), worst,
-                       tuple(jumps.items()))
+                       tuple(jumps.items()), _node_map(gn), tuple(sorted(held)), held_mismatch)
+
+
+def _node_map(gn: dict[tuple[str, str], np.ndarray]) -> dict[str, dict[str, np.ndarray]]:
+    out: dict[str, dict[str, np.ndarray]] = {}
+    for (n, ln), v in gn.items():
+        out.setdefault(n, {})[ln] = v
+    return out
 
 
 def resonance_order(inst: Installation, shunt_c_f: Mapping[str, float]) -> tuple[float, float]:

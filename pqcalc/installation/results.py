@@ -24,6 +24,9 @@ __all__ = ["CAUTION", "Status", "Check", "Verdict", "CircuitResult", "LineResult
            "NodeResult", "ScenarioResult", "Assessment"]
 
 
+#: The basis of a scenario whose supply interaction was asked for and did not settle.
+UNSETTLED = "ideal supply, interaction unsettled"
+
 #: The verdict of a scenario or a study.
 Verdict = Literal["pass", "fail", "not assessed"]
 
@@ -157,6 +160,17 @@ class ScenarioResult:
     interaction_iterations: int
     ideal: ScenarioResult | None = None
     checks: tuple[Check, ...] = ()
+    #: what the figures stand on: ``"interacting supply"``, ``"ideal supply"`` (no
+    #: interaction asked for, or no source impedance) or ``"ideal supply, interaction
+    #: unsettled"`` (asked for, but the iteration diverged: the verdict is the
+    #: ideal-supply figures', and says so)
+    basis: str = "ideal supply"
+
+    @property
+    def basis_note(self) -> str:
+        """A few words for a verdict line when the figures are not what was asked for."""
+        return (" on the ideal-supply figures (the supply interaction did not settle)"
+                if self.basis == UNSETTLED else "")
 
     @property
     def unsolved(self) -> tuple[str, ...]:
@@ -183,6 +197,7 @@ class ScenarioResult:
             "feeders": [p.to_dict() for p in self.feeders],
             "transformer": self.transformer.to_dict(),
             "supply_interaction_iterations": self.interaction_iterations,
+            "basis": self.basis,
             "checks": [c.to_dict() for c in self.checks]}
         if self.ideal is not None:
             d["ideal_supply"] = {"panels": [p.to_dict() for p in self.ideal.panels],

@@ -1,8 +1,8 @@
 """One scenario: solve every circuit, sum, interact with the supply, build the results.
 
 The ideal-supply pass is always made and kept; with supply interaction on and a source
-impedance known, the fixed point of :func:`~pqcalc.installation.interaction.fixed_point`
-gives the interacting result, and the ideal one stays beside it.
+impedance known, :func:`~pqcalc.installation.interaction.settle` gives the interacting
+result, and the ideal one stays beside it.
 """
 
 from __future__ import annotations
@@ -15,12 +15,15 @@ import numpy as np
 from ..metrics import harmonic_loss_factor, k_factor, thd
 from .cases import CaseResult, CaseSolver, PanelVoltage
 from .checks import circuit_checks, node_checks, pcc_checks, rules_of
-from .interaction import fixed_point, ideal_voltage, node_voltages, own_frame, resonance_order
+from .interaction import Interaction, ideal_voltage, node_voltages, own_frame, resonance_order, settle
 from .model import Circuit, Installation, Panel
-from .results import Check, CircuitResult, NodeResult, ScenarioResult
+from .results import UNSETTLED, Check, CircuitResult, NodeResult, ScenarioResult
 from .sums import InstallationSums, NodeSum, line_result, neutral_result, sum_installation
 
 __all__ = ["solve_pass", "evaluate_scenario"]
+
+SETTLE_METHOD = ("Newton's method on the node voltages with the circuits' harmonic transfers "
+                 "(harmonic domain)")
 
 Progress = Callable[[int], None]
 
@@ -142,6 +145,18 @@ def resonance_check(inst: Installation, solver: CaseSolver) -> Check:
                  50.0, "order", {"c_per_line_f": c_f}, bound="min")
 
 
+def _jump_text(fp: Interaction) -> str:
+    """The circuits that changed firing pattern during the iteration, for a warning."""
+    if not fp.jumps:
+        return ""
+    big = sorted(fp.jumps, key=lambda j: -j[1])
+    names = ", ".join(cid for cid, _ in big[:6]) + (
+        f" and {len(big) - 6} more" if len(big) > 6 else "")
+    return (f"; {len(big)} {'circuit changes' if len(big) == 1 else 'circuits change'} "
+            f"firing pattern under the distortion (the current lands up to "
+            f"{100 * big[0][1]:.0f} % of its fundamental away from the smooth answer): {names}")
+
+
 def evaluate_scenario(inst: Installation, solver: CaseSolver, scenario: int,
                       progress: Progress | None = None) -> ScenarioResult:
     """Solve, sum and check one scenario; with supply interaction, the ideal-supply result
@@ -154,7 +169,7 @@ def evaluate_scenario(inst: Installation, solver: CaseSolver, scenario: int,
         solver.retain(at.values())  # the cache holds one pass's cases, not every pass's
         return solve_pass(inst, solver, scenario, at)
 
-    fp = fixed_point(inst, one_pass, cases, sums)
+    fp = settle(inst, one_pass, cases, sums)
     opts = inst.analysis
     if fp.diverged:
         # no interacting figures: the ideal-supply result stands, and says why
@@ -163,18 +178,12 @@ def evaluate_scenario(inst: Installation, solver: CaseSolver, scenario: int,
                f"resonates with the source inductance near order {h_r:.0f}, which amplifies "
                "the harmonic voltages there" if h_r <= 60 else "")
         if fp.worst is not None:
-            c = next(c for c in inst.circuits if c.id == fp.worst[0])
-            why += (f"; the largest update was at order {fp.worst[1]} on panel {c.panel}, "
-                    f"line {c.line}")
-        if fp.jumps:
-            big = sorted(fp.jumps, key=lambda j: -j[1])
-            names = ", ".join(cid for cid, _ in big[:6]) + (
-                f" and {len(big) - 6} more" if len(big) > 6 else "")
-            why += (f"; {len(big)} dimmed {'circuit changes' if len(big) == 1 else 'circuits change'}"
-                    f" firing pattern under the distortion (the current jumps by up to "
-                    f"{100 * big[0][1]:.0f} % of its fundamental): {names}")
+            n, ln, h = fp.worst
+            where = "the service" if n == "service" else f"the end of feeder {n}"
+            why += f"; the largest mismatch was at order {h} at {where}, line {ln}"
+        why += _jump_text(fp)
         warn = Check("supply interaction", "warn",
-                     f"the supply-interaction iteration diverged (updates grew to "
+                     f"the supply-interaction iteration diverged (the mismatch grew to "
                      f"{100 * fp.change:.2f} % of V1 after {fp.iterations} iterations){why}: "
                      "the figures are the ideal-supply ones (the panel voltages are the drops "
                      "the ideal-supply currents make, without the loads' answer to them); " + (
@@ -183,19 +192,34 @@ def evaluate_scenario(inst: Installation, solver: CaseSolver, scenario: int,
                          "makers" if fp.jumps else
                          "check the resonance with the utility and the drivers' maker")
                      + ", or run with supply_interaction = false",
-                     "fixed-point iteration on the circuits' source voltages (Anderson)",
-                     fp.change, opts.tolerance, "-", {"resonance_order": h_r})
-        return replace(ideal, checks=ideal.checks + (warn,))
+                     SETTLE_METHOD, fp.change, opts.tolerance, "-", {"resonance_order": h_r})
+        return replace(ideal, checks=ideal.checks + (warn,), basis=UNSETTLED)
     res = _assemble(inst, solver, scenario, fp.cases, fp.sums, fp.iterations, True)
     extra = res.checks
     if fp.change >= opts.tolerance:
         extra = extra + (Check(
             "supply interaction", "warn",
-            f"the panel voltages had not settled after {fp.iterations} iterations (last update "
+            f"the panel voltages had not settled after {fp.iterations} iterations (mismatch "
             f"{100 * fp.change:.3f} % of V1, tolerance {100 * opts.tolerance:.3f} %): the "
-            "interacting figures are approximate; raise analysis.max_iterations",
-            "fixed-point iteration on the circuits' source voltages (Anderson)", fp.change,
-            opts.tolerance, "-"),)
+            f"interacting figures are approximate{_jump_text(fp)}; raise "
+            "analysis.max_iterations" + (", and check the circuits named (minimum load, "
+                                         "holding current) with the makers" if fp.jumps else ""),
+            SETTLE_METHOD, fp.change, opts.tolerance, "-"),)
+    if fp.held:
+        names = ", ".join(fp.held[:8]) + (f" and {len(fp.held) - 8} more"
+                                           if len(fp.held) > 8 else "")
+        extra = extra + (Check(
+            "supply interaction", "warn",
+            f"{len(fp.held)} {'circuit has' if len(fp.held) == 1 else 'circuits have'} no "
+            "steady firing pattern near the settled panel voltages (the current changed "
+            "pattern twice under changes of the voltage far too small for a smooth answer): "
+            f"{names}; held in the pattern last solved, with up to "
+            f"{100 * fp.held_mismatch:.3f} % of V1 between their terminals and their panel; "
+            "their figures are one of the patterns they alternate between, and such a "
+            "dimmer and lamp pair is likely to flicker on this supply: check it (minimum "
+            "load, holding current) with the makers",
+            SETTLE_METHOD, fp.held_mismatch, opts.tolerance, "-",
+            {"held": list(fp.held)}),)
     return ScenarioResult(res.name, res.circuits, res.panels, res.feeders, res.transformer,
-                          fp.iterations, ideal, extra)
+                          fp.iterations, ideal, extra, "interacting supply")
 

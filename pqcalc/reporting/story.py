@@ -206,9 +206,13 @@ def summary(a: Assessment, lineup: Sequence[LineupEntry], notes: Sequence[str]
             ) -> list[Flowable]:
     out = heading(SECTION_TITLES[0], 1, new_page=True)
     every = [c for s in a.scenarios for c in s.all_checks()]
+    unsettled = [sc.name for sc in a.scenarios if sc.basis_note]
     out.append(para(f"<b>Installation checks: {a.verdict.upper()}</b> - {_counts(every)} over "
                     f"{plural(len(a.scenarios), 'scenario')}. Design scenario (highest panel "
-                    f"currents): {_x(a.design.name)}.", markup=True))
+                    f"currents): {_x(a.design.name)}." + (
+                        f" {_x(', '.join(unsettled))}: judged on the ideal-supply figures, "
+                        "the supply interaction did not settle there (see its warning)."
+                        if unsettled else ""), markup=True))
     if lineup:
         out.append(para(lineup_summary(a, lineup), "bold"))
         extra = _dimmed_summary(lineup)
@@ -221,7 +225,8 @@ def summary(a: Assessment, lineup: Sequence[LineupEntry], notes: Sequence[str]
         bad = [c for c in sc.all_checks() if c.status in ("fail", "warn")]
         bad.sort(key=lambda c: _ORDER[c.status])
         worst = f"{bad[0].status.upper()} {bad[0].name}" if bad else "no findings"
-        rows.append((sc.name + (" (design)" if sc is a.design else ""), sc.verdict.upper(),
+        rows.append((sc.name + (" (design)" if sc is a.design else ""),
+                     sc.verdict.upper() + (" (ideal supply)" if sc.basis_note else ""),
                      sum(c.status == "fail" for c in sc.all_checks()),
                      sum(c.status == "warn" for c in sc.all_checks()), worst,
                      ", ".join(sc.unsolved) or "-"))
