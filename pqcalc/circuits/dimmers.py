@@ -29,6 +29,7 @@ import math
 import numpy as np
 
 from ..errors import InputError
+from .kernels import rc_crossing
 from .network import Network
 from .pwl import EPS_I_A, Automaton
 from .ranges import check_component
@@ -69,29 +70,11 @@ def network_delay_s(r_ohm: float, c_f: float, v_pk_v: float, frequency_hz: float
     half = 0.5 / frequency_hz
     if t0_s >= half:
         return None
-    a = v_pk_v / np.sqrt(1.0 + (w * tau) ** 2)
-    phi = np.arctan(w * tau)
-    k0 = v0_v - a * np.sin(w * t0_s - phi)
-
-    def v(t):
-        return a * math.sin(w * t - phi) + k0 * math.exp(-(t - t0_s) / tau)
-
-    ts = np.linspace(t0_s, half, 4097)
-    above = np.nonzero(a * np.sin(w * ts - phi) + k0 * np.exp(-(ts - t0_s) / tau)
-                       >= breakover_v)[0]
-    if not above.size:
-        return None
-    i = int(above[0])
-    if i == 0:
-        return float(t0_s)
-    lo, hi = float(ts[i - 1]), float(ts[i])
-    for _ in range(60):
-        mid = 0.5 * (lo + hi)
-        if v(mid) >= breakover_v:
-            hi = mid
-        else:
-            lo = mid
-    return hi
+    a = v_pk_v / math.sqrt(1.0 + (w * tau) ** 2)
+    phi = math.atan(w * tau)
+    k0 = v0_v - a * math.sin(w * t0_s - phi)
+    t = rc_crossing(a, phi, k0, w, tau, float(t0_s), half, float(breakover_v), 4096)
+    return None if t < 0 else float(t)
 
 
 def _top_deg(r_min, c, v_pk, f, vbo) -> float:

@@ -213,14 +213,17 @@ def reference_phase(cv: np.ndarray) -> float:
 
 
 def figures(ex: Expansion, ri: int, rv: int, cv: np.ndarray, ci: np.ndarray,
-            frequency_hz: float, v_peak_v: float, scale: float = 1.0) -> Figures:
+            frequency_hz: float, v_peak_v: float, scale: float = 1.0,
+            v_rms_v: float | None = None) -> Figures:
     """Exact figures of output ``ri`` (a current, times ``scale``) against output ``rv``
-    (its voltage), from the expansion and their Fourier coefficients ``ci``, ``cv``."""
+    (its voltage), from the expansion and their Fourier coefficients ``ci``, ``cv``;
+    ``v_rms_v`` when the voltage's is known already (several currents on one voltage)."""
     psi1 = reference_phase(cv)
     ms_i = max(ex.mean_product(ri, ri), 0.0)
-    ms_v = max(ex.mean_product(rv, rv), 0.0)
+    if v_rms_v is None:
+        v_rms_v = float(np.sqrt(max(ex.mean_product(rv, rv), 0.0)))
     return Figures(to_phasors(ci, psi1) * scale, to_phasors(cv, psi1),
-                   float(np.sqrt(ms_i)) * abs(scale), float(np.sqrt(ms_v)),
+                   float(np.sqrt(ms_i)) * abs(scale), v_rms_v,
                    ex.mean_product(ri, rv) * scale, ex.peak(ri) * abs(scale), v_peak_v,
                    float(frequency_hz))
 

@@ -598,3 +598,28 @@ def rows_fourier(a, mu, g, t0, t1, omega, max_order):
             eh *= step
             rot *= rstep
     return out
+
+
+@njit(cache=True)
+def rc_crossing(a, phi, k0, w, tau, t0, half, level, steps):
+    """First time in ``[t0, half]`` at which ``a sin(w t - phi) + k0 exp(-(t - t0) / tau)``
+    reaches ``level``: bracketed on ``steps`` equal steps, then bisected 60 times (to far
+    below a picosecond); -1 when it does not (the firing network of
+    :func:`pqcalc.circuits.dimmers.network_delay_s`)."""
+    dt = (half - t0) / steps
+    prev = t0
+    for i in range(steps + 1):
+        t = t0 + i * dt
+        if a * math.sin(w * t - phi) + k0 * math.exp(-(t - t0) / tau) >= level:
+            if i == 0:
+                return t0
+            lo, hi = prev, t
+            for _ in range(60):
+                mid = 0.5 * (lo + hi)
+                if a * math.sin(w * mid - phi) + k0 * math.exp(-(mid - t0) / tau) >= level:
+                    hi = mid
+                else:
+                    lo = mid
+            return hi
+        prev = t
+    return -1.0

@@ -870,7 +870,8 @@ def _assemble(supply, dimmer, dp, loads, gparams, levels, case, tr, period, iter
     groups = []
     for k, (b, g, p) in enumerate(zip(case.builds, loads, gparams, strict=True)):
         m = b.m
-        gfig = figures(ex, 2 + k, 1, coef[1], coef[2 + k], f, v_peak, scale=1.0 / m)
+        gfig = figures(ex, 2 + k, 1, coef[1], coef[2 + k], f, v_peak, scale=1.0 / m,
+                       v_rms_v=fig.v_rms_v)
         gw = SolvedWaveform(means[2 + k] / m, fs, f, voltage_v=vline, cycles=period,
                             label=f"{g.model} {g.power_w:g} W", figures=gfig)
         # extras=False: the light's normalisation (a reference solve) waits until it is

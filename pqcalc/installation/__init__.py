@@ -5,7 +5,7 @@
 ``file``           :func:`load_installation`: TOML, validation with file, line and field
 ``cases``          distinct circuit cases, solved once and shared
 ``sums``           one summing path: circuits, panel lines, feeders, the service, the neutral
-``interaction``    source impedance and the supply-interaction fixed point
+``interaction``    source impedance and the supply interaction (Newton, harmonic domain)
 ``checks``         every check: breakers, dimmers, conductors, transformer, IEEE 519 at the PCC
 ``diversity``      summation law and Monte Carlo
 ``results``        the result types and their JSON form

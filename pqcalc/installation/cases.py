@@ -30,7 +30,7 @@ from .model import Circuit, Installation, MeasuredFixture, ModelledFixture
 from .sums import GRID_SAMPLES, MAX_ORDER, common_period, to_grid
 
 __all__ = ["FULL_CONDUCTION_DEG", "PanelVoltage", "CaseConditions", "GroupStress",
-           "CaseResult", "CaseSolver", "with_fundamental"]
+           "CaseResult", "CaseSolver", "with_fundamental", "turn_transfer"]
 
 #: A setting at or above this conduction angle [deg] is a dimmer fully on.
 FULL_CONDUCTION_DEG = 179.5
@@ -102,9 +102,12 @@ class CaseResult:
     #: the harmonic transfer ``(A, B)`` of the current from the voltage about this state,
     #: in this result's frame, orders 0..MAX_ORDER (rows out, columns in; the fundamental's
     #: column zero) [S]: asked for by the supply interaction
-    #: (:func:`pqcalc.circuits.smallsignal.harmonic_transfer`); zero for measured records,
-    #: None where not asked for or the state has no one-cycle period
+    #: (:func:`pqcalc.circuits.smallsignal.harmonic_transfer`, single precision: a
+    #: Jacobian); None where not asked for, for measured records (used as recorded at any
+    #: voltage: no answer) or where the state has no one-cycle period. It is still to be
+    #: turned by ``turn_rad`` (see :meth:`turned`)
     transfer: tuple[np.ndarray, np.ndarray] | None = None
+    turn_rad: float = 0.0
 
     @property
     def phasors(self) -> np.ndarray:
@@ -117,14 +120,10 @@ class CaseResult:
 
     def turned(self, angle_rad: float) -> CaseResult:
         """The result moved ahead by ``angle_rad`` of the fundamental (every order-h phasor
-        turned by ``h * angle_rad``), its transfer with it: ``A[k, h]`` by ``k - h``,
-        ``B[k, h]`` by ``k + h`` times the angle."""
-        t = self.transfer
-        if t is not None:
-            e = np.exp(1j * angle_rad * np.arange(t[0].shape[0]))
-            t = (e[:, None] * t[0] * np.conj(e)[None, :], e[:, None] * t[1] * e[None, :])
+        turned by ``h * angle_rad``); its transfer keeps its matrices and adds the angle to
+        ``turn_rad`` (:func:`turn_transfer` turns them)."""
         return replace(self, current_a=shift_periodic(self.current_a, -angle_rad, self.cycles),
-                       transfer=t)
+                       turn_rad=self.turn_rad + angle_rad)
 
 
 def _sum_cases(parts: list[CaseResult], notes: tuple[str, ...] = ()) -> CaseResult:
@@ -135,14 +134,19 @@ def _sum_cases(parts: list[CaseResult], notes: tuple[str, ...] = ()) -> CaseResu
     flags = tuple(dict.fromkeys(f for p in parts for f in p.flags))
     lights = [p.light for p in parts if p.light is not None]
     light = max(lights, key=lambda d: d.get("pst_lm") or 0.0) if lights else None
-    ts = [p.transfer for p in parts if p.transfer is not None]
-    transfer = None
-    if ts:
-        transfer = (np.sum([t[0] for t in ts], axis=0), np.sum([t[1] for t in ts], axis=0))
+    ts = [(p.transfer, p.turn_rad) for p in parts if p.transfer is not None]
+    transfer, turn = None, 0.0
+    if len(ts) == 1 or len({a for _, a in ts}) == 1:
+        turn = ts[0][1]
+        transfer = (np.sum([t[0] for t, _ in ts], axis=0), np.sum([t[1] for t, _ in ts], axis=0))
+    elif ts:
+        turned = [turn_transfer(t, a) for t, a in ts]
+        transfer = (np.sum([t[0] for t in turned], axis=0),
+                    np.sum([t[1] for t in turned], axis=0))
     return CaseResult(cur, cyc, sum(p.p_w for p in parts), flags,
                       tuple(g for p in parts for g in p.groups),
                       tuple(dict.fromkeys(n for p in parts for n in p.notes + notes)), light,
-                      transfer)
+                      transfer, turn)
 
 
 class CaseSolver:
@@ -287,11 +291,9 @@ class CaseSolver:
         x, p1, got = self.captures[fid]
         # a steady-state record holds no switch-on inrush: unknown (NaN), not its peak
         g = GroupStress(fid, count, float(np.sqrt(np.mean(x**2))))
-        zero = np.zeros((MAX_ORDER + 1, MAX_ORDER + 1), dtype=complex)
         return CaseResult(x * count, 1, p1 * count, (), (g,),
                           got + (f"fixture {fid}: measured record used at its recorded "
-                                   "conditions (dimmer setting not applied)",),
-                          transfer=(zero, zero) if self.transfer else None)
+                                   "conditions (dimmer setting not applied)",))
 
     def _model_case(self, k: CaseConditions, groups: tuple[tuple[str, int], ...],
                     cid: str) -> CaseResult:
@@ -395,7 +397,8 @@ class CaseSolver:
         notes = tuple(n for n in sol.notes if "conducts at most" not in n)
         t = sol.harmonic_transfer_s
         if t is not None:
-            t = with_fundamental(t, period_phasors(x, w.cycles, MAX_ORDER), v1)
+            a, b = with_fundamental(t, period_phasors(x, w.cycles, MAX_ORDER), v1)
+            t = (a.astype(np.complex64), b.astype(np.complex64))
         return CaseResult(x, w.cycles, p, tuple(sol.flags), gs, notes,
                           _worst_light(sol, inst.supply.frequency_hz), t)
 
@@ -452,6 +455,15 @@ def with_fundamental(t: tuple[np.ndarray, np.ndarray], phasors: np.ndarray, v1_v
     turn = k * phasors[: a.shape[0]] / (2 * v1_v)
     a[:, 1], b[:, 1] = mag + turn, mag - turn
     return a, b
+
+
+def turn_transfer(t: tuple[np.ndarray, np.ndarray], angle_rad: float
+                  ) -> tuple[np.ndarray, np.ndarray]:
+    """A harmonic transfer for currents and voltages turned ahead by ``angle_rad`` of the
+    fundamental (order h by ``h * angle_rad``): ``A[k, h]`` turns by ``(k - h)`` times the
+    angle, ``B[k, h]`` by ``(k + h)``."""
+    e = np.exp(1j * angle_rad * np.arange(t[0].shape[0]))
+    return e[:, None] * t[0] * np.conj(e)[None, :], e[:, None] * t[1] * e[None, :]
 
 
 #: Tasks a pass's distinct cases are split into for the workers.

@@ -18,7 +18,7 @@ import numpy as np
 
 from ..errors import InputError
 from ..spectrum import rotate_phasors
-from .cases import CaseResult, PanelVoltage
+from .cases import CaseResult, PanelVoltage, turn_transfer
 from .model import LINE_ANGLES_DEG, Installation, SourceImpedance
 from .sums import MAX_ORDER, InstallationSums
 
@@ -244,10 +244,8 @@ def _transfer(c: CaseResult, angle_rad: float) -> np.ndarray | None:
     matrix; None without one."""
     if c.transfer is None:
         return None
-    e = np.exp(1j * angle_rad * np.arange(MAX_ORDER + 1))
-    a = (e[:, None] * c.transfer[0] * np.conj(e)[None, :])[1:, 1:]
-    b = (e[:, None] * c.transfer[1] * e[None, :])[1:, 1:]
-    return _real(a, b)
+    a, b = turn_transfer(c.transfer, c.turn_rad + angle_rad)
+    return _real(a[1:, 1:], b[1:, 1:])
 
 
 def _stack(z: np.ndarray) -> np.ndarray:
@@ -328,7 +326,6 @@ def settle(inst: Installation,
     predicted: dict[str, np.ndarray] = {}
     x: dict[str, np.ndarray] = {}
     growing: list[bool] = []
-    _jumped_now: dict[str, int] = {}
     held_mismatch = 0.0
     it = 0
     for it in range(1, opts.max_iterations + 1):  # noqa: B007 (reported after the loop)
@@ -342,13 +339,14 @@ def settle(inst: Installation,
             u = {cid: x[cid] - zloop[loops[cid]] * cur[cid] for cid in where}
         # circuits that did not land where their transfer said: a change of firing pattern
         new_holds = False
+        jumped = 0
         for cid, pred in predicted.items():
             i1 = abs(pred[1])
             err = float(np.max(np.abs(cur[cid] - pred)))
             moved = float(np.max(np.abs(cur[cid] - prev[cid])))
             if i1 > 0 and err > JUMP_FRACTION * i1 and err > JUMP_SHARE * moved:
                 jumps[cid] = max(err / i1, jumps.get(cid, 0.0))
-                _jumped_now[cid] = it
+                jumped += 1
                 times[cid] = times.get(cid, 0) + 1
                 if times[cid] >= HOLD_AFTER:
                     held.add(cid)
@@ -375,8 +373,7 @@ def settle(inst: Installation,
         held_mismatch = max((size[cid] for cid in held), default=0.0)
         history.append(change)
         log.debug("pass %d: mismatch %.3g of V1 at %s; %d jumped in this pass, %d held",
-                  it, change, worst, sum(1 for c in predicted if jumps.get(c) and c in times
-                                         and _jumped_now.get(c) == it), len(held))
+                  it, change, worst, jumped, len(held))
         growing[:] = growing[-1:] + [len(history) >= 2 and history[-1] > history[-2]
                                      and not new_holds]
         if change < opts.tolerance or it == opts.max_iterations:
