@@ -164,6 +164,10 @@ ANGLE_STEP_DEG = 0.1
 JUMP_FRACTION = 0.25
 JUMP_SHARE = 0.5
 HOLD_AFTER = 2
+#: A circuit whose EMF would move by less than SKIP_STEP times the tolerance (a fraction of
+#: V1) keeps its solve: its mismatch stays below the tolerance, and is measured as it is
+#: at the next pass like every other (late passes re-solve only what still moves).
+SKIP_STEP = 0.25
 
 
 log = logging.getLogger(__name__)
@@ -420,6 +424,7 @@ def settle(inst: Installation,
         for fid, mf in mats.items():
             dg[fid] = np.linalg.solve(mf, dg["service"] + d_f[fid] @ inj[fid])
         predicted = {}
+        kept = 0
         for cid, (n, ln) in where.items():
             i = lines.index(ln)
             sel = np.r_[i * m:(i + 1) * m, nl * m + i * m:nl * m + (i + 1) * m]
@@ -431,8 +436,15 @@ def settle(inst: Installation,
                 predicted[cid] = pred
             if cid in held and cid in x:
                 continue  # held: its source stays, and so does its solve
-            x[cid] = gn[(n, ln)] + dgc + zloop[loops[cid]] * pred
-            x[cid][0] = 0.0
+            new = gn[(n, ln)] + dgc + zloop[loops[cid]] * pred
+            new[0] = 0.0
+            if cid in x and np.max(np.abs(new - x[cid])) < SKIP_STEP * opts.tolerance * abs(
+                    new[1]):
+                kept += 1
+                continue  # a step far below the tolerance: its solve stands
+            x[cid] = new
+        log.debug("%d circuits keep their solve (a step below %g of the tolerance)", kept,
+                  SKIP_STEP)
     return Interaction(cases, sums, it, change, False, tuple(history), worst,
                        tuple(jumps.items()), _node_map(gn), tuple(sorted(held)), held_mismatch)
 
