@@ -23,6 +23,7 @@ holds the exact figures of one current and the voltage it is referred to.
 
 from __future__ import annotations
 
+from collections.abc import Callable
 from dataclasses import dataclass, field, replace
 
 import numpy as np
@@ -160,29 +161,94 @@ def expand(eng, tr, rows: list[int]) -> Expansion:
                      np.ascontiguousarray(gm[idx], dtype=float), float(t1[-1]))
 
 
-@dataclass(frozen=True)
+#: a figure given as its value or as a function that computes it when first read
+Lazy = float | Callable[[], float]
+
+
 class Figures:
     """Exact figures of one current and the voltage it is referred to, over one period.
 
     Phasors follow :mod:`pqcalc.spectrum`: RMS, sine basis, time origin at the
     positive-going zero crossing of the voltage's fundamental; index = order 0..MAX_ORDER,
     index 0 the (real) mean.
+
+    The rms values, the power and the peaks are computed when first read (each is an
+    integral or a search over every segment of the solution, and a caller such as an
+    installation study reads two of the seven): pass a value or a function of no argument.
+    Pickling computes what was not read yet, so a copy in another process is whole.
     """
 
-    current_phasors_a: np.ndarray  # [A rms]
-    voltage_phasors_v: np.ndarray  # [V rms]
-    i_rms_a: float  # [A]
-    v_rms_v: float  # [V]
-    p_w: float  # mean of v i [W]
-    i_peak_a: float  # largest |i| [A]
-    v_peak_v: float  # largest |v| [V]
-    frequency_hz: float
+    __slots__ = ("current_phasors_a", "voltage_phasors_v", "frequency_hz", "_v")
+    _NAMES = ("i_rms_a", "v_rms_v", "p_w", "i_peak_a", "v_peak_v")
+
+    def __init__(self, current_phasors_a: np.ndarray, voltage_phasors_v: np.ndarray,
+                 i_rms_a: Lazy, v_rms_v: Lazy, p_w: Lazy, i_peak_a: Lazy, v_peak_v: Lazy,
+                 frequency_hz: float):
+        self.current_phasors_a = current_phasors_a  # [A rms]
+        self.voltage_phasors_v = voltage_phasors_v  # [V rms]
+        self.frequency_hz = frequency_hz
+        self._v: dict[str, Lazy] = dict(zip(self._NAMES, (i_rms_a, v_rms_v, p_w, i_peak_a,
+                                                          v_peak_v), strict=True))
+
+    def _get(self, name: str) -> float:
+        v = self._v[name]
+        if callable(v):
+            v = float(v())
+            self._v[name] = v
+        return v
+
+    @property
+    def i_rms_a(self) -> float:
+        """[A]"""
+        return self._get("i_rms_a")
+
+    @property
+    def v_rms_v(self) -> float:
+        """[V]"""
+        return self._get("v_rms_v")
+
+    @property
+    def p_w(self) -> float:
+        """Mean of v i [W]."""
+        return self._get("p_w")
+
+    @property
+    def i_peak_a(self) -> float:
+        """Largest |i| [A]."""
+        return self._get("i_peak_a")
+
+    @property
+    def v_peak_v(self) -> float:
+        """Largest |v| [V]."""
+        return self._get("v_peak_v")
+
+    def resolve(self) -> Figures:
+        """Compute every figure not read yet (and drop what they were computed from)."""
+        for n in self._NAMES:
+            self._get(n)
+        return self
+
+    def __getstate__(self) -> dict:
+        return {"current_phasors_a": self.current_phasors_a,
+                "voltage_phasors_v": self.voltage_phasors_v,
+                "frequency_hz": self.frequency_hz,
+                "_v": {n: self._get(n) for n in self._NAMES}}
+
+    def __setstate__(self, state: dict) -> None:
+        for k, v in state.items():
+            object.__setattr__(self, k, v)
+
+    def __repr__(self) -> str:
+        return (f"Figures(i_rms_a={self.i_rms_a!r}, p_w={self.p_w!r}, "
+                f"frequency_hz={self.frequency_hz!r})")
 
     def scaled(self, factor: float) -> Figures:
         """The figures of ``factor`` identical currents in parallel (same voltage)."""
+        k = abs(factor)
         return Figures(self.current_phasors_a * factor, self.voltage_phasors_v,
-                       self.i_rms_a * abs(factor), self.v_rms_v, self.p_w * factor,
-                       self.i_peak_a * abs(factor), self.v_peak_v, self.frequency_hz)
+                       lambda: self.i_rms_a * k, lambda: self.v_rms_v,
+                       lambda: self.p_w * factor, lambda: self.i_peak_a * k,
+                       lambda: self.v_peak_v, self.frequency_hz)
 
     def spectrum(self, max_order: int = MAX_ORDER, label: str = ""):
         """As a :class:`pqcalc.spectrum.Spectrum` (orders 0..``max_order`` <= MAX_ORDER)."""
@@ -213,18 +279,24 @@ def reference_phase(cv: np.ndarray) -> float:
 
 
 def figures(ex: Expansion, ri: int, rv: int, cv: np.ndarray, ci: np.ndarray,
-            frequency_hz: float, v_peak_v: float, scale: float = 1.0,
-            v_rms_v: float | None = None) -> Figures:
+            frequency_hz: float, v_peak_v: Lazy, scale: float = 1.0,
+            v_rms_v: Lazy | None = None) -> Figures:
     """Exact figures of output ``ri`` (a current, times ``scale``) against output ``rv``
     (its voltage), from the expansion and their Fourier coefficients ``ci``, ``cv``;
-    ``v_rms_v`` when the voltage's is known already (several currents on one voltage)."""
+    ``v_rms_v`` when the voltage's is known already (several currents on one voltage).
+    The integrals and the peak search run when their figure is first read."""
     psi1 = reference_phase(cv)
-    ms_i = max(ex.mean_product(ri, ri), 0.0)
-    if v_rms_v is None:
-        v_rms_v = float(np.sqrt(max(ex.mean_product(rv, rv), 0.0)))
-    return Figures(to_phasors(ci, psi1) * scale, to_phasors(cv, psi1),
-                   float(np.sqrt(ms_i)) * abs(scale), v_rms_v,
-                   ex.mean_product(ri, rv) * scale, ex.peak(ri) * abs(scale), v_peak_v,
+    k = abs(scale)
+
+    def i_rms() -> float:
+        return float(np.sqrt(max(ex.mean_product(ri, ri), 0.0))) * k
+
+    def v_rms() -> float:
+        return float(np.sqrt(max(ex.mean_product(rv, rv), 0.0)))
+
+    return Figures(to_phasors(ci, psi1) * scale, to_phasors(cv, psi1), i_rms,
+                   v_rms if v_rms_v is None else v_rms_v,
+                   lambda: ex.mean_product(ri, rv) * scale, lambda: ex.peak(ri) * k, v_peak_v,
                    float(frequency_hz))
 
 

@@ -578,6 +578,12 @@ def solve_circuit(supply: Supply, dimmer: DimmerSpec, loads, samples_per_cycle: 
     sol = solve(supply, dimmer, loads, int(samples_per_cycle), bool(extras), False,
                 bool(admittance))
     assert isinstance(sol, Solution)
+    if memo:
+        # a kept solution keeps no expansion alive: its figures are computed now (a caller
+        # that keeps its own results, memo=False, computes only those it reads)
+        for w in [sol.waveform] + [g.waveform for g in sol.groups]:
+            if w.figures is not None:
+                w.figures.resolve()
     return sol
 
 
@@ -847,7 +853,7 @@ def _assemble(supply, dimmer, dp, loads, gparams, levels, case, tr, period, iter
     coef = ex.fourier(eng.src.omega, MAX_ORDER, nw)
     means = corrected_samples(ex.cell_means(n, nw), coef, period)
     vline = means[1]
-    v_peak = ex.peak(1)
+    v_peak = functools.cache(lambda: ex.peak(1))  # read when first asked for
     fig = figures(ex, 0, 1, coef[1], coef[0], f, v_peak)
     wf = SolvedWaveform(means[0], fs, f, voltage_v=vline, cycles=period, label="dimmer input",
                         figures=fig)
@@ -871,7 +877,7 @@ def _assemble(supply, dimmer, dp, loads, gparams, levels, case, tr, period, iter
     for k, (b, g, p) in enumerate(zip(case.builds, loads, gparams, strict=True)):
         m = b.m
         gfig = figures(ex, 2 + k, 1, coef[1], coef[2 + k], f, v_peak, scale=1.0 / m,
-                       v_rms_v=fig.v_rms_v)
+                       v_rms_v=lambda: fig.v_rms_v)
         gw = SolvedWaveform(means[2 + k] / m, fs, f, voltage_v=vline, cycles=period,
                             label=f"{g.model} {g.power_w:g} W", figures=gfig)
         # extras=False: the light's normalisation (a reference solve) waits until it is
