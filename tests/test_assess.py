@@ -356,3 +356,20 @@ def test_settled_interaction_equals_the_substitution_fixed_point(demo_file, scen
     ga, gb = node_voltages(inst, fp.sums), node_voltages(inst, sm)
     for k in gb:
         assert np.max(np.abs(ga[k] - gb[k])) <= 5e-4 * sup.voltage_ln_v, k
+
+
+def test_progress_reports_every_unit_it_announces():
+    # The progress bar's contract (pqcalc.installation.assess.progress_units): the units
+    # reported over a whole assessment, supply interaction on, add up to the announced
+    # total, never beyond it, so the bar ends full.
+    from pathlib import Path
+
+    from pqcalc.installation.assess import progress_units
+
+    inst = load_installation(Path(__file__).resolve().parents[1] / "demo_installations"
+                             / "cedar_row_offices.toml")
+    seen: list[int] = []
+    assess(inst, progress=seen.append)
+    assert all(n >= 0 for n in seen)
+    assert sum(seen) == progress_units(inst) == len(inst.circuits) * inst.n_scenarios * (
+        1 + inst.analysis.max_iterations)

@@ -326,6 +326,26 @@ class Progress:
             self.bar.__exit__(None, None, None)
 
 
+def assess_with_progress(inst: Any, executor: Any) -> Any:
+    """``pqcalc.installation.assess`` with a progress bar on a terminal when the run is
+    long (every circuit of every scenario's passes)."""
+    from ..installation import assess
+    from ..installation.assess import progress_units
+
+    total = progress_units(inst)
+    prog = Progress("solving circuits", min_total=50)
+    done = [0]
+
+    def step(n: int) -> None:
+        done[0] += n
+        prog(min(done[0], total), total)
+
+    try:
+        return assess(inst, progress=step, executor=executor)
+    finally:
+        prog.close()
+
+
 def worker_options(f: Any) -> Any:
     """``--workers N`` and ``--scheduler ADDRESS``: where the distinct circuit cases are
     solved (pqcalc.installation.assess.workers)."""

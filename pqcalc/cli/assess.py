@@ -8,10 +8,10 @@ import textwrap
 
 import click
 
-from ..installation import assess, load_installation
+from ..installation import load_installation
 from ..installation.assess import workers
 from ..installation.results import CAUTION
-from ._common import Progress, echo_json, fmt, main, user_errors, worker_options
+from ._common import assess_with_progress, echo_json, fmt, main, user_errors, worker_options
 
 
 @main.command("assess")
@@ -40,19 +40,8 @@ def assess_cmd(installation, as_json, which, no_interaction, n_workers, schedule
         from dataclasses import replace
 
         inst = replace(inst, analysis=replace(inst.analysis, supply_interaction=False))
-    total = len(inst.circuits) * inst.n_scenarios
-    prog = Progress("solving circuits", min_total=50)
-    done = [0]
-
-    def step(n: int) -> None:
-        done[0] += n
-        prog(min(done[0], total), total)
-
-    try:
-        with workers(n_workers, scheduler) as ex:
-            a = assess(inst, progress=step, executor=ex)
-    finally:
-        prog.close()
+    with workers(n_workers, scheduler) as ex:
+        a = assess_with_progress(inst, ex)
     if as_json:
         echo_json(a.to_dict())
     else:

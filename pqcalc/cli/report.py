@@ -12,7 +12,7 @@ from ..installation.assess import workers
 from ..installation.export import CSV_TABLES
 from ..io.atomic import is_stdout, write_stdout
 from ..io.export import EXPORT_FORMATS, check_output_path, write_bytes_atomic
-from ._common import main, refuse_binary_terminal, user_errors, worker_options
+from ._common import assess_with_progress, main, refuse_binary_terminal, user_errors, worker_options
 
 #: Output suffix -> format, when --format is not given.
 _BY_SUFFIX = {".pdf": "pdf", ".json": "json", ".nc": "netcdf", ".zip": "csv", "": "csv"}
@@ -87,7 +87,7 @@ def report_cmd(installation, output, fmt, table, paper, no_interaction, n_worker
     2 for bad input, 3 when the tool fails (the traceback is written to a file in the
     temporary folder).
     """
-    from ..installation import assess, export, load_installation
+    from ..installation import export, load_installation
 
     out = Path(output)
     to_stdout = is_stdout(out)
@@ -125,7 +125,7 @@ def report_cmd(installation, output, fmt, table, paper, no_interaction, n_worker
         except InputError as e:
             raise InputError(f"--{e}") from None
     with workers(n_workers, scheduler) as ex:
-        a = assess(inst, executor=ex)
+        a = assess_with_progress(inst, ex)
     extra = ""
     if kind in ("pdf", "json"):
         from ..installation import evaluate_lineup

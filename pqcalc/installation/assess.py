@@ -26,14 +26,25 @@ from .model import Installation
 from .results import Assessment
 from .scenario import Progress, evaluate_scenario
 
-__all__ = ["assess", "workers"]
+__all__ = ["assess", "progress_units", "workers"]
+
+
+def progress_units(inst: Installation) -> int:
+    """The units ``assess`` reports to its ``progress`` callback in all: one per circuit
+    solved in each scenario's ideal pass and, with supply interaction, in each of its
+    passes up to ``analysis.max_iterations`` (a scenario that settles sooner reports the
+    passes it did not need at once)."""
+    passes = 1 + (inst.analysis.max_iterations if inst.analysis.supply_interaction
+                  and inst.has_source_impedance else 0)
+    return len(inst.circuits) * inst.n_scenarios * passes
 
 
 def assess(inst: Installation, progress: Progress | None = None,
            executor: Executor | None = None) -> Assessment:
     """Solve, sum and check every scenario of an installation.
 
-    ``progress`` is called with the number of circuits done (for a progress bar). The design
+    ``progress`` is called with the units of work done since its last call (circuits
+    solved; :func:`progress_units` gives the total, for a progress bar). The design
     scenario is the one with the highest panel line-plus-neutral current. ``executor``
     solves the distinct circuit cases of each pass in parallel (see :func:`workers`); the
     results equal the in-process ones.

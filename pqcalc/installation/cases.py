@@ -30,7 +30,7 @@ from .model import Circuit, Installation, MeasuredFixture, ModelledFixture
 from .sums import GRID_SAMPLES, MAX_ORDER, common_period, to_grid
 
 __all__ = ["FULL_CONDUCTION_DEG", "PanelVoltage", "CaseConditions", "GroupStress",
-           "CaseResult", "CaseSolver", "with_fundamental", "turn_transfer"]
+           "CaseResult", "CaseSolver", "LampLight", "with_fundamental", "turn_transfer"]
 
 #: A setting at or above this conduction angle [deg] is a dimmer fully on.
 FULL_CONDUCTION_DEG = 179.5
@@ -96,9 +96,8 @@ class CaseResult:
     flags: tuple[str, ...]
     groups: tuple[GroupStress, ...]
     notes: tuple[str, ...] = ()
-    #: the worst lamp's light: ``mean`` [-, 1 = full output], ``pst_lm``, ``svm`` [-]
-    #: (None for measured records and where the lamp is dark)
-    light: dict[str, float] | None = None
+    #: the lamps' light, its figures computed when first read (:attr:`light`)
+    light_of: LampLight | None = None
     #: the harmonic transfer ``(A, B)`` of the current from the voltage about this state,
     #: in this result's frame, orders 0..MAX_ORDER (rows out, columns in; the fundamental's
     #: column zero) [S]: asked for by the supply interaction
@@ -112,6 +111,12 @@ class CaseResult:
     @property
     def phasors(self) -> np.ndarray:
         return period_phasors(self.current_a, self.cycles)
+
+    @property
+    def light(self) -> dict[str, float] | None:
+        """The worst lamp's light: ``mean`` [-, 1 = full output], ``pst_lm``, ``svm`` [-]
+        (None for measured records and where every lamp is dark)."""
+        return None if self.light_of is None else self.light_of.worst()
 
     def scaled(self, count: int) -> CaseResult:
         t = self.transfer
@@ -132,8 +137,8 @@ def _sum_cases(parts: list[CaseResult], notes: tuple[str, ...] = ()) -> CaseResu
     for p in parts:  # in order, as the reference sums were made
         cur = cur + np.tile(p.current_a, cyc // p.cycles)
     flags = tuple(dict.fromkeys(f for p in parts for f in p.flags))
-    lights = [p.light for p in parts if p.light is not None]
-    light = max(lights, key=lambda d: d.get("pst_lm") or 0.0) if lights else None
+    lights = tuple(p.light_of for p in parts if p.light_of is not None)
+    light = None if not lights else lights[0] if len(lights) == 1 else LampLight((), 1.0, lights)
     ts = [(p.transfer, p.turn_rad) for p in parts if p.transfer is not None]
     transfer, turn = None, 0.0
     if len(ts) == 1 or len({a for _, a in ts}) == 1:
@@ -400,7 +405,8 @@ class CaseSolver:
             a, b = with_fundamental(t, period_phasors(x, w.cycles, MAX_ORDER), v1)
             t = (a.astype(np.complex64), b.astype(np.complex64))
         return CaseResult(x, w.cycles, p, tuple(sol.flags), gs, notes,
-                          _worst_light(sol, inst.supply.frequency_hz), t)
+                          LampLight(tuple(np.asarray(g.light, dtype=float) for g in sol.groups),
+                                    sol.period_cycles / inst.supply.frequency_hz), t)
 
     def inrush(self, c: Circuit, scenario: int) -> tuple[Any, tuple[str, ...]]:
         """The switch-on transient of the circuit's modelled lamps at the scenario's
@@ -477,21 +483,49 @@ def _solve_remote(inst: Installation, items: list[tuple[CaseConditions, str]],
     return {key: solver._case_or_missing(key, cid) for key, cid in items}, solver.solves
 
 
-def _worst_light(sol: Any, frequency_hz: float) -> dict[str, float] | None:
-    """The light figures of the solution's worst lamp (highest Pst_LM): mean light [-],
-    Pst_LM and SVM [-]; None when every lamp is dark."""
-    from ..light.metrics import light_metrics
+class LampLight:
+    """The light of a case's lamps (one waveform per fixture group over ``period_s``), and
+    of the cases summed into it (``parts``); the worst lamp's figures are computed when
+    first read: the flickermeter is the dearest part of a case, and a supply-interaction
+    pass that is not the last never reads it."""
 
-    worst: dict[str, float] | None = None
-    for g in sol.groups:
-        m = light_metrics(g.light, sol.period_cycles / frequency_hz, dark_below=0.02)
-        if m.pst_lm is None:
-            continue
-        d = {"mean": float(np.mean(g.light)), "pst_lm": float(m.pst_lm),
-             "svm": float(m.svm) if m.svm is not None else math.nan}
-        if worst is None or d["pst_lm"] > worst["pst_lm"]:
-            worst = d
-    return worst
+    __slots__ = ("waves", "period_s", "parts", "_worst")
+
+    def __init__(self, waves: tuple[np.ndarray, ...], period_s: float,
+                 parts: tuple[LampLight, ...] = ()):
+        self.waves = waves
+        self.period_s = period_s
+        self.parts = parts
+        self._worst: tuple[dict[str, float] | None] | None = None
+
+    def __getstate__(self) -> dict:
+        return {"waves": self.waves, "period_s": self.period_s, "parts": self.parts,
+                "_worst": self._worst}
+
+    def __setstate__(self, state: dict) -> None:
+        for k, v in state.items():
+            setattr(self, k, v)
+
+    def worst(self) -> dict[str, float] | None:
+        """The figures of the worst lamp (highest Pst_LM): mean light [-], Pst_LM and SVM
+        [-]; None when every lamp is dark."""
+        if self._worst is None:
+            from ..light.metrics import light_metrics
+
+            cands: list[dict[str, float]] = []
+            for w in self.waves:
+                m = light_metrics(w, self.period_s, dark_below=0.02)
+                if m.pst_lm is not None:
+                    cands.append({"mean": float(np.mean(w)), "pst_lm": float(m.pst_lm),
+                                  "svm": float(m.svm) if m.svm is not None else math.nan})
+            cands += [d for d in (p.worst() for p in self.parts) if d is not None]
+            # the first of equals, as the figures were read in order before
+            best = None
+            for d in cands:
+                if best is None or d["pst_lm"] > best["pst_lm"]:
+                    best = d
+            self._worst = (best,)
+        return self._worst[0]
 
 
 def dimmer_spec(k: CaseConditions) -> Any:

@@ -167,10 +167,12 @@ def evaluate_scenario(inst: Installation, solver: CaseSolver, scenario: int,
         return ideal
     def one_pass(at: dict[str, PanelVoltage]) -> tuple[dict[str, CaseResult], InstallationSums]:
         solver.retain(at.values())  # the cache holds one pass's cases, not every pass's
-        return solve_pass(inst, solver, scenario, at)
+        return solve_pass(inst, solver, scenario, at, progress)
 
     fp = settle(inst, one_pass, cases, sums)
     opts = inst.analysis
+    if progress is not None:  # the passes this scenario did not need (progress_units)
+        progress(len(inst.circuits) * (opts.max_iterations - (fp.iterations - 1)))
     if fp.diverged:
         # no interacting figures: the ideal-supply result stands, and says why
         h_r, c_f = resonance_order(inst, solver.shunt_capacitance_f())
