@@ -373,3 +373,26 @@ def test_progress_reports_every_unit_it_announces():
     assert all(n >= 0 for n in seen)
     assert sum(seen) == progress_units(inst) == len(inst.circuits) * inst.n_scenarios * (
         1 + inst.analysis.max_iterations)
+
+
+def test_interaction_of_a_linear_load_is_the_voltage_divider(tmp_path):
+    # Closed form (Ohm's law, the voltage divider): a linear resistive load R behind a
+    # source of EMF E draws I = E / (R + Z_s), and the panel sees V = E - Z I. Here R is
+    # ten 529-ohm lamps in parallel and the switch's 0.05 ohm (the model's values: the
+    # lamps of a circuit behind a loop impedance are solved together, the switch once);
+    # Z = R_s + j w L_s over line and neutral; the solver's own source branch Z_s damps the
+    # inductance with 100 ohm in parallel (Supply.source_damping_ohm; 0.006 % here). Newton's
+    # method on a linear network lands on it in one step: two passes, the second confirming.
+    from pqcalc.circuits import Supply
+
+    inst = build(tmp_path, [("L1", "none", 180, 10)],
+                 "source_r_ohm = 0.4\nsource_l_h = 2e-3\nneutral_r_ohm = 0.3", "true")
+    a = assess(inst).design
+    r = 529.0 / 10 + 0.05
+    zl = 1j * 2 * np.pi * 50 * 2e-3
+    damp = Supply(v_rms_v=230.0, frequency_hz=50.0).source_damping_ohm
+    i = 230.0 / (r + 0.7 + zl * damp / (zl + damp))
+    v = 230.0 - (0.7 + zl) * i
+    assert a.basis == "interacting supply" and a.interaction_iterations <= 2
+    assert a.circuits[0].i1_a == pytest.approx(abs(i), rel=1e-6)
+    assert a.transformer.lines["L1"].v_rms_v == pytest.approx(abs(v), rel=1e-6)

@@ -288,6 +288,9 @@ def settle(inst: Installation,
     jump) and is named; one that jumps again (it has no steady firing pattern near these
     voltages: it alternates) is held in the pattern last solved, its source kept and its
     current a fixed injection, so that the rest can settle around it; the result says so.
+    The first step starts from the stiff-supply pass (no loop in those solves: their
+    transfer is their terminal admittance). A circuit whose EMF would move by less than
+    ``SKIP_STEP`` of the tolerance keeps its solve.
 
     It stops when the mismatch is below ``analysis.tolerance`` [fraction of V1] on every
     circuit, after ``analysis.max_iterations`` passes, or when it grows twice in a row
