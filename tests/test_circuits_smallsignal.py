@@ -86,3 +86,25 @@ def test_rectifier_mixes_orders_as_the_perturbed_solve_does():
             assert abs(pred - di[k]) <= 0.03 * abs(di[k]), (k, ang, pred, di[k])
     # the sidebands are as large as the diagonal (why a diagonal model cannot stand for it)
     assert abs(A[35, h]) > 0.5 * abs(A[h, h]) and abs(A[39, h]) > 0.5 * abs(A[h, h])
+
+
+def test_odd_orders_are_the_full_transfers_odd_part():
+    # Consistency of the two ways to compute it (pqcalc.circuits.smallsignal): the transfer
+    # on odd orders only equals the full transfer's odd rows and columns.
+    import numpy as np
+
+    from pqcalc.circuits import DimmerSpec, LoadGroup, Supply, solve_circuit
+
+    sup = Supply(v_rms_v=230.0, frequency_hz=50.0, source_r_ohm=0.2, source_l_h=1e-4)
+    loads = [LoadGroup(model="bulk-cap", power_w=9.0, count=8)]
+    dim = DimmerSpec(kind="leading-edge", conduction_deg=120.0)
+    full = solve_circuit(sup, dim, loads, extras=False, memo=False, admittance=True)
+    odd = solve_circuit(sup, dim, loads, extras=False, memo=False, admittance="odd")
+    a, b = full.harmonic_transfer_s
+    ao, bo = odd.harmonic_transfer_s
+    o = np.arange(1, 51, 2)
+    scale = np.max(np.abs(a))
+    assert np.max(np.abs(ao[np.ix_(o, o)] - a[np.ix_(o, o)])) < 1e-9 * scale
+    assert np.max(np.abs(bo[np.ix_(o, o)] - b[np.ix_(o, o)])) < 1e-9 * scale
+    e = np.arange(0, 51, 2)
+    assert not ao[e].any() and not ao[:, e].any() and not bo[e].any()

@@ -40,7 +40,7 @@ from .network import CH_SOURCE
 __all__ = ["harmonic_transfer", "at_terminals"]
 
 
-def harmonic_transfer(eng, tr, row: int, max_order: int
+def harmonic_transfer(eng, tr, row: int, max_order: int, odd: bool = False
                       ) -> tuple[np.ndarray, np.ndarray] | None:
     """The harmonic transfer of output ``row`` (an element current, the line's) from the
     source voltage about the solved state: ``dI_k = A[k, h] dV_h + B[k, h] conj(dV_h)`` for
@@ -58,6 +58,11 @@ def harmonic_transfer(eng, tr, row: int, max_order: int
     coefficient of order ``k``: ``A[k, h] = F_k(eta_h)``, ``B[k, h] = -conj(F_-k(eta_h))``
     (a real input ``Re(U exp(j h w t))`` excites ``eta_h`` and its conjugate; the sign of
     ``B`` is the sine-basis phasor's factor ``j``, conjugated).
+
+    ``odd``: the odd orders only, in and out (the rest zero), a quarter of the work: what a
+    network study's Jacobian needs where the voltages carry odd harmonics (a half-wave
+    symmetric circuit maps odd orders to odd orders; an asymmetric one's even answer is
+    then left out of the Jacobian, which slows a Newton iteration, not its result).
     """
     net, src = eng.net, eng.src
     nx = net.n_x
@@ -68,13 +73,15 @@ def harmonic_transfer(eng, tr, row: int, max_order: int
         return None
     k1 = int(at1[0])
     w = float(src.omega)
-    h = np.arange(1, max_order + 1)
+    step = 2 if odd else 1
+    h = np.arange(1, max_order + 1, step)
     jhw = 1j * w * h  # (H,)
-    kk = np.arange(-max_order, max_order + 1)  # output orders, both signs
+    kpos = np.arange(1 if odd else 0, max_order + 1, step)
+    kk = np.concatenate([-kpos[::-1], kpos[1:] if kpos[0] == 0 else kpos])  # both signs
     jkw = 1j * w * kk  # (K,)
     if nx == 0:
         # no state: the current answers the voltage at once, with each segment's gain
-        return _compose(_static(Q, idx, t0, t1, row, jhw, jkw), max_order)
+        return _compose(_static(Q, idx, t0, t1, row, jhw, jkw), kk, h, max_order)
     Vinv = np.linalg.inv(V)  # (modes, n, n)
     # the modes' input vectors in modal coordinates, from the fundamental's particular
     # solution P_1 = V diag(1 / (j w - lam)) beta S_1
@@ -119,7 +126,7 @@ def harmonic_transfer(eng, tr, row: int, max_order: int
     except np.linalg.LinAlgError:
         return None
     _, acc = run(xi0, True)
-    return _compose(acc / T, max_order)
+    return _compose(acc / T, kk, h, max_order)
 
 
 def _integral(jhw: np.ndarray, jkw: np.ndarray):
@@ -149,12 +156,15 @@ def _static(Q, idx, t0, t1, row: int, jhw: np.ndarray, jkw: np.ndarray) -> np.nd
     return acc / float(t1[-1])
 
 
-def _compose(F: np.ndarray, max_order: int) -> tuple[np.ndarray, np.ndarray] | None:
-    """``A[k, h] = F_k``, ``B[k, h] = -conj(F_-k)`` from ``F[k + max_order, h - 1]``."""
+def _compose(F: np.ndarray, kk: np.ndarray, h: np.ndarray, max_order: int
+             ) -> tuple[np.ndarray, np.ndarray] | None:
+    """``A[k, h] = F_k``, ``B[k, h] = -conj(F_-k)`` from ``F`` on the output orders ``kk``
+    (ascending, both signs) and the input orders ``h``."""
     A = np.zeros((max_order + 1, max_order + 1), dtype=complex)
     B = np.zeros_like(A)
-    A[:, 1:] = F[max_order:]
-    B[:, 1:] = -np.conj(F[max_order::-1])
+    kpos = kk[kk >= 0]
+    A[np.ix_(kpos, h)] = F[np.searchsorted(kk, kpos)]
+    B[np.ix_(kpos, h)] = -np.conj(F[np.searchsorted(kk, -kpos)])
     if not (np.all(np.isfinite(A)) and np.all(np.isfinite(B))):
         return None
     return A, B

@@ -528,7 +528,7 @@ def _thermal_light(p_w: np.ndarray, rated_w: float, tau_s: float, f_hz: float,
 
 # ---------------------------------------------------------------------- public
 def solve_circuit(supply: Supply, dimmer: DimmerSpec, loads, samples_per_cycle: int =
-                  SAMPLES_PER_CYCLE, extras: bool = True, admittance: bool = False,
+                  SAMPLES_PER_CYCLE, extras: bool = True, admittance: bool | str = False,
                   memo: bool = True) -> Solution:
     """The periodic steady state of all lamp groups behind one dimmer on one supply.
 
@@ -555,7 +555,8 @@ def solve_circuit(supply: Supply, dimmer: DimmerSpec, loads, samples_per_cycle: 
     admittance
         Also compute the harmonic transfer about the solved state
         (``Solution.harmonic_transfer_s`` and its diagonal ``input_admittance_s``: the
-        lamps' Norton model for a network harmonic study).
+        lamps' Norton model for a network harmonic study); ``"odd"``: the odd orders only
+        (a quarter of the work; :func:`pqcalc.circuits.smallsignal.harmonic_transfer`).
 
     Raises
     ------
@@ -576,7 +577,7 @@ def solve_circuit(supply: Supply, dimmer: DimmerSpec, loads, samples_per_cycle: 
         raise InputError("samples_per_cycle: expected at least 64")
     solve = _solve_cached if memo else _solve_cached.__wrapped__
     sol = solve(supply, dimmer, loads, int(samples_per_cycle), bool(extras), False,
-                bool(admittance))
+                "odd" if admittance == "odd" else bool(admittance))
     assert isinstance(sol, Solution)
     if memo:
         # a kept solution keeps no expansion alive: its figures are computed now (a caller
@@ -589,7 +590,7 @@ def solve_circuit(supply: Supply, dimmer: DimmerSpec, loads, samples_per_cycle: 
 
 @functools.lru_cache(maxsize=256)
 def _solve_cached(supply, dimmer, loads, spc, extras, reference,
-                  admittance: bool = False) -> Solution | float:
+                  admittance: bool | str = False) -> Solution | float:
     """One solve (memoised); with ``reference`` the mean LED power [W] of its one lamp."""
     dp = resolve_dimmer(dimmer, supply)
     gparams = [resolve_params(g.model, g.power_w, supply.v_rms_v, supply.frequency_hz,
@@ -657,7 +658,8 @@ def _solve_cached(supply, dimmer, loads, spc, extras, reference,
     if admittance and period == 1 and not long:
         from .smallsignal import harmonic_transfer
 
-        ht = harmonic_transfer(case.eng, tr, case.eng.net.index["A_line"], MAX_ORDER)
+        ht = harmonic_transfer(case.eng, tr, case.eng.net.index["A_line"], MAX_ORDER,
+                               odd=admittance == "odd")
         sol = replace(sol, harmonic_transfer_s=ht)
     notes: tuple[str, ...] = ()
     if dimmer.conduction_deg is not None and cond_set is not None and \

@@ -383,7 +383,7 @@ class CaseSolver:
             # solver's extras are not needed; this cache keeps the result, not the solver's
             # memo
             sol = solve_circuit(supply, dimmer_spec(k), loads, extras=False, memo=False,
-                                admittance=self.transfer)
+                                admittance="odd" if self.transfer else False)
         except (ConvergenceError, InputError) as e:
             what = ", ".join(f"{n} x {f}" for f, n in groups)
             setting = "" if k.dimmer == "none" else (
