@@ -628,10 +628,17 @@ def assumptions_section(a: Assessment, version: str) -> list[Flowable]:
     if s.transformer_kva is not None:
         rows.append(("transformer", f"{s.transformer_kva:g} kVA, eddy-loss factor "
                                     f"{s.eddy_loss_pu:g} pu, rated {s.rated_current_a:.0f} A"))
-    rows += [("supply interaction", ("re-solved under the distorted panel voltage, tolerance "
-                                     f"{100 * an.tolerance:g} % of V1, at most "
-                                     f"{plural(an.max_iterations, 'iteration')}")
-              if an.supply_interaction else "off (stiff supply)"),
+    passes = "; ".join(f"{sc.name}: " + (
+        plural(sc.interaction_iterations, "iteration") if sc.basis == "interacting supply"
+        else "did not settle (ideal-supply figures)") for sc in a.scenarios)
+    rows += [("supply interaction", ("each circuit solved behind its own loop impedance under "
+                                     "its panel's distorted voltage; Newton's method on the "
+                                     "node voltages with the circuits' harmonic transfers, "
+                                     f"tolerance {100 * an.tolerance:g} % of V1, at most "
+                                     f"{plural(an.max_iterations, 'iteration')} ({passes})")
+              if an.supply_interaction and inst.has_source_impedance else
+              "off (stiff supply)" if not an.supply_interaction else
+              "on, but no source impedance is given: stiff supply"),
              ("harmonic orders", "0..50 per circuit and node; THD over 2..40"),
              ("diversity", a.diversity.method if a.diversity is not None else inst.diversity.mode),
              ("distinct circuit solves", str(a.solves)), ("pqcalc", version)]
