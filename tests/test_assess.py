@@ -241,8 +241,9 @@ def test_interaction_names_circuits_whose_current_jumps(tmp_path):
     # The iteration's own diagnostic (pqcalc.installation.interaction, JUMP_FRACTION): a
     # circuit whose current lands far from what its harmonic transfer predicted for the
     # voltage change is named as having changed its firing pattern. The solves are the real
-    # ones; one circuit's current is doubled by hand on alternate passes, as a triac at the
-    # edge of re-firing answers a small voltage change.
+    # ones; one circuit's current is doubled by hand on alternate passes, its discrete
+    # pattern changed with it, as a triac at the edge of re-firing answers a small voltage
+    # change.
     from dataclasses import replace
 
     from pqcalc.installation.cases import CaseSolver
@@ -258,7 +259,8 @@ def test_interaction_names_circuits_whose_current_jumps(tmp_path):
     def flipping(at):
         cs, _ = solve_pass(inst, solver, 0, at)
         cs = dict(cs)
-        cs[flip] = cs[flip].scaled(1 if len(fp_calls) % 2 else 2)
+        if not len(fp_calls) % 2:  # a re-fire: twice the current, another pattern
+            cs[flip] = replace(cs[flip].scaled(2), pattern=("re-fire",))
         fp_calls.append(len(fp_calls))
         from pqcalc.installation.sums import sum_installation
         return cs, sum_installation(inst, {k: (v.current_a, v.cycles, v.p_w)

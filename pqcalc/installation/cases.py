@@ -107,6 +107,10 @@ class CaseResult:
     #: turned by ``turn_rad`` (see :meth:`turned`)
     transfer: tuple[np.ndarray, np.ndarray] | None = None
     turn_rad: float = 0.0
+    #: the discrete pattern of the solved state: per solve, its trigger pulses per half cycle
+    #: (a triac's firings and re-fires) and its flags; a change of it between two voltages
+    #: is a change of firing pattern, not a smooth answer
+    pattern: tuple = ()
 
     @property
     def phasors(self) -> np.ndarray:
@@ -151,7 +155,7 @@ def _sum_cases(parts: list[CaseResult], notes: tuple[str, ...] = ()) -> CaseResu
     return CaseResult(cur, cyc, sum(p.p_w for p in parts), flags,
                       tuple(g for p in parts for g in p.groups),
                       tuple(dict.fromkeys(n for p in parts for n in p.notes + notes)), light,
-                      transfer, turn)
+                      transfer, turn, tuple(p.pattern for p in parts))
 
 
 class CaseSolver:
@@ -406,7 +410,8 @@ class CaseSolver:
             t = (a.astype(np.complex64), b.astype(np.complex64))
         return CaseResult(x, w.cycles, p, tuple(sol.flags), gs, notes,
                           LampLight(tuple(np.asarray(g.light, dtype=float) for g in sol.groups),
-                                    sol.period_cycles / inst.supply.frequency_hz), t)
+                                    sol.period_cycles / inst.supply.frequency_hz), t,
+                          pattern=(tuple(sol.firings), tuple(sorted(sol.flags))))
 
     def inrush(self, c: Circuit, scenario: int) -> tuple[Any, tuple[str, ...]]:
         """The switch-on transient of the circuit's modelled lamps at the scenario's

@@ -153,12 +153,14 @@ def node_voltages(inst: Installation, sums: InstallationSums
 HARMONIC_STEP = 1e-5
 ANGLE_STEP_DEG = 0.1
 #: A circuit whose current lands further than JUMP_FRACTION of its fundamental (at any
-#: order) from the linear prediction of its harmonic transfer has changed its firing
-#: pattern (a triac that fires once more or once less per half cycle, or drops out): a jump,
-#: not a smooth response. The transfer predicts a smooth circuit's answer to within a few
-#: per cent of the change. A jump also explains most of the change itself (more than
-#: JUMP_SHARE of it), which a smooth circuit's error of linearisation after a large step
-#: does not (about a fifth of the change, measured on the demos' rectifier lamps). A
+#: order) from the linear prediction of its harmonic transfer, and whose solved state's
+#: discrete pattern changed (:attr:`CaseResult.pattern`: a triac that fires once more or
+#: once less per half cycle, drops out, misfires), has changed its firing pattern: a jump,
+#: not a smooth response (a small capacitor-input lamp's current can move by a fifth of
+#: its fundamental for a 0.2 % harmonic at order 39, smoothly). A jump also explains most
+#: of the change itself (more than JUMP_SHARE of it), which a smooth circuit's error of
+#: linearisation after a large step does not (about a fifth of the change, measured on the
+#: demos' rectifier lamps). A
 #: circuit that jumps HOLD_AFTER times has no steady firing pattern near these voltages:
 #: it is held (its source kept, its current a fixed injection) so that the rest can settle.
 JUMP_FRACTION = 0.25
@@ -328,6 +330,7 @@ def settle(inst: Installation,
     times: dict[str, int] = {}
     held: set[str] = set()
     prev: dict[str, np.ndarray] = {}
+    shape: dict[str, tuple] = {}
     worst = None
     change = float("inf")
     predicted: dict[str, np.ndarray] = {}
@@ -351,7 +354,8 @@ def settle(inst: Installation,
             i1 = abs(pred[1])
             err = float(np.max(np.abs(cur[cid] - pred)))
             moved = float(np.max(np.abs(cur[cid] - prev[cid])))
-            if i1 > 0 and err > JUMP_FRACTION * i1 and err > JUMP_SHARE * moved:
+            if i1 > 0 and err > JUMP_FRACTION * i1 and err > JUMP_SHARE * moved and \
+                    cases[cid].pattern != shape[cid]:
                 jumps[cid] = max(err / i1, jumps.get(cid, 0.0))
                 jumped += 1
                 times[cid] = times.get(cid, 0) + 1
@@ -366,6 +370,7 @@ def settle(inst: Installation,
             log.debug("largest prediction errors [A] (error, circuit, order, change): %s",
                       [(round(e, 4), c, k, round(mv, 4)) for e, c, k, mv in errs[:8]])
         prev = cur
+        shape = {cid: cases[cid].pattern for cid in where}
         g = node_voltages(inst, sums)
         gn = {(n, ln): g[("transformer", "service", ln) if n == "service"
                          else ("feeder", n, ln)] for n in nodes for ln in lines}
