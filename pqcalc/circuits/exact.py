@@ -165,6 +165,19 @@ def expand(eng, tr, rows: list[int]) -> Expansion:
 Lazy = float | Callable[[], float]
 
 
+class _Figure:
+    """A figure of :class:`Figures`, computed on first read and kept."""
+
+    def __init__(self, doc: str):
+        self.__doc__ = doc
+
+    def __set_name__(self, owner: type, name: str) -> None:
+        self.name = name
+
+    def __get__(self, obj: Figures | None, owner: type | None = None):
+        return self if obj is None else obj._get(self.name)
+
+
 class Figures:
     """Exact figures of one current and the voltage it is referred to, over one period.
 
@@ -197,30 +210,11 @@ class Figures:
             self._v[name] = v
         return v
 
-    @property
-    def i_rms_a(self) -> float:
-        """[A]"""
-        return self._get("i_rms_a")
-
-    @property
-    def v_rms_v(self) -> float:
-        """[V]"""
-        return self._get("v_rms_v")
-
-    @property
-    def p_w(self) -> float:
-        """Mean of v i [W]."""
-        return self._get("p_w")
-
-    @property
-    def i_peak_a(self) -> float:
-        """Largest |i| [A]."""
-        return self._get("i_peak_a")
-
-    @property
-    def v_peak_v(self) -> float:
-        """Largest |v| [V]."""
-        return self._get("v_peak_v")
+    i_rms_a = _Figure("[A]")
+    v_rms_v = _Figure("[V]")
+    p_w = _Figure("Mean of v i [W].")
+    i_peak_a = _Figure("Largest |i| [A].")
+    v_peak_v = _Figure("Largest |v| [V].")
 
     def resolve(self) -> Figures:
         """Compute every figure not read yet (and drop what they were computed from)."""

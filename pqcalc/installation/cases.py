@@ -99,8 +99,8 @@ class CaseResult:
     #: the lamps' light, its figures computed when first read (:attr:`light`)
     light_of: LampLight | None = None
     #: the harmonic transfer ``(A, B)`` of the current from the voltage about this state,
-    #: in this result's frame, orders 0..MAX_ORDER (rows out, columns in; the fundamental's
-    #: column zero) [S]: asked for by the supply interaction
+    #: orders 0..MAX_ORDER (rows out, columns in; the fundamental's column made whole by
+    #: :func:`with_fundamental`) [S]: asked for by the supply interaction
     #: (:func:`pqcalc.circuits.smallsignal.harmonic_transfer`, single precision: a
     #: Jacobian); None where not asked for, for measured records (used as recorded at any
     #: voltage: no answer) or where the state has no one-cycle period. It is still to be
@@ -165,7 +165,7 @@ class CaseSolver:
                  transfer: bool = False):
         self.inst = inst
         #: solve the harmonic transfer beside each modelled case (the supply interaction's
-        #: linear part); a measured record's is zero (used as recorded at any voltage)
+        #: linear part); a measured record has none (used as recorded at any voltage)
         self.transfer = transfer
         self.cache: dict[Any, Any] = {}
         self.captures: dict[str, tuple[np.ndarray, float, tuple[str, ...]]] = {}

@@ -30,7 +30,6 @@ __all__ = [
     "ideal_voltage",
     "node_voltages",
     "own_frame",
-    "node_of",
     "Interaction",
     "settle",
     "resonance_order",
@@ -211,24 +210,20 @@ class Interaction:
     diverged: bool = False
     #: the largest mismatch after every pass [fraction of V1]
     history: tuple[float, ...] = ()
-    #: where the last mismatch was largest: (node id, line, order)
-    worst: tuple[str, str, int] | None = None
+    #: where the last mismatch was largest: (kind, node id, line, order), the node as
+    #: :func:`node_voltages` keys it (``"transformer", "service"`` or ``"feeder", id``)
+    worst: tuple[str, str, str, int] | None = None
     #: circuits whose current jumped away from its linear prediction in a pass (a change of
     #: firing pattern): (id, the largest jump [fraction of I1])
     jumps: tuple[tuple[str, float], ...] = ()
-    #: node (``"service"`` or a feeder id) -> line -> the voltage phasors the circuits were
-    #: solved under (L1 frame) [V rms]
-    voltages: dict[str, dict[str, np.ndarray]] | None = None
+    #: the voltage phasors the last pass's currents make at every node
+    #: (:func:`node_voltages`, L1 frame) [V rms]
+    voltages: dict[tuple[str, str, str], np.ndarray] | None = None
     #: circuits held in the pattern last solved after jumping HOLD_AFTER times (no steady
     #: firing pattern of their own near the settled voltages), and the largest mismatch
     #: their terminals were left with [fraction of V1]
     held: tuple[str, ...] = ()
     held_mismatch: float = 0.0
-
-
-def node_of(inst: Installation, panel_feeder: str | None) -> str:
-    """The network node a panel hangs on: its feeder's end, or the service."""
-    return "service" if panel_feeder is None else panel_feeder
 
 
 def _real(a: np.ndarray, b: np.ndarray) -> np.ndarray:
@@ -312,9 +307,13 @@ def settle(inst: Installation,
     nl = len(lines)
     m = MAX_ORDER
     angles = {ln: np.radians(LINE_ANGLES_DEG[sup.system][ln]) for ln in lines}
-    where = {c.id: (node_of(inst, p.feeder), c.line) for p in inst.panels for c in p.circuits}
+    # a network node as node_voltages keys it: the service, or a feeder's end (every panel
+    # on a feeder sees its end)
+    service = ("transformer", "service")
+    where = {c.id: (service if p.feeder is None else ("feeder", p.feeder), c.line)
+             for p in inst.panels for c in p.circuits}
     loops = {c.id: _loop(inst, p.feeder) for p in inst.panels for c in p.circuits}
-    nodes = ["service"] + list(inst.feeders)
+    nodes = [service] + [("feeder", fid) for fid in inst.feeders]
     d_s = _drop_operator(sup.impedance, nl, f)
     d_f = {fid: _drop_operator(fd.impedance, nl, f) for fid, fd in inst.feeders.items()}
     eye_n = np.eye(2 * nl * m)
@@ -372,8 +371,7 @@ def settle(inst: Installation,
         prev = cur
         shape = {cid: cases[cid].pattern for cid in where}
         g = node_voltages(inst, sums)
-        gn = {(n, ln): g[("transformer", "service", ln) if n == "service"
-                         else ("feeder", n, ln)] for n in nodes for ln in lines}
+        gn = {(n, ln): g[n + (ln,)] for n in nodes for ln in lines}
         mis = {cid: u[cid] - gn[nln] for cid, nln in where.items()}
         size = {cid: float(np.max(np.abs(r[1:]))) / abs(u[cid][1]) for cid, r in mis.items()}
         free = [cid for cid in where if cid not in held]
@@ -381,7 +379,8 @@ def settle(inst: Installation,
         if free:
             top = max(free, key=lambda cid: size[cid])
             change = size[top]
-            worst = (*where[top], 1 + int(np.argmax(np.abs(mis[top][1:]))))
+            n, ln = where[top]
+            worst = n + (ln, 1 + int(np.argmax(np.abs(mis[top][1:]))))
         held_mismatch = max((size[cid] for cid in held), default=0.0)
         history.append(change)
         log.debug("pass %d: mismatch %.3g of V1 at %s; %d jumped in this pass, %d held",
@@ -392,8 +391,7 @@ def settle(inst: Installation,
             break
         if all(growing) and len(growing) == 2:
             return Interaction(cases, sums, it, change, True, tuple(history), worst,
-                               tuple(jumps.items()), _node_map(gn), tuple(sorted(held)),
-                               held_mismatch)
+                               tuple(jumps.items()), g, tuple(sorted(held)), held_mismatch)
         # each distinct circuit's terminal admittance (identical circuits share it)
         ys: dict[tuple, np.ndarray | None] = {}
         yc = {}
@@ -419,18 +417,19 @@ def settle(inst: Installation,
         # feeders: (1 + D_f J_f) dG_f = dG_s + D_f s_f; the service:
         # (1 + D_s J_s + D_s sum_f K_f) dG_s = D_s (s_s + sum_f (s_f - K_f D_f s_f)),
         # K_f = J_f (1 + D_f J_f)^-1 (the feeders eliminated: a Schur complement)
-        lhs = eye_n + d_s @ jac["service"]
-        rhs = inj["service"].copy()
+        lhs = eye_n + d_s @ jac[service]
+        rhs = inj[service].copy()
         mats = {}
-        for fid in inst.feeders:
-            mf = eye_n + d_f[fid] @ jac[fid]
-            kf = np.linalg.solve(mf.T, jac[fid].T).T
-            mats[fid] = mf
+        for n in nodes[1:]:
+            fid = n[1]
+            mf = eye_n + d_f[fid] @ jac[n]
+            kf = np.linalg.solve(mf.T, jac[n].T).T
+            mats[n] = mf
             lhs = lhs + d_s @ kf
-            rhs = rhs + inj[fid] - kf @ (d_f[fid] @ inj[fid])
-        dg = {"service": np.linalg.solve(lhs, d_s @ rhs)}
-        for fid, mf in mats.items():
-            dg[fid] = np.linalg.solve(mf, dg["service"] + d_f[fid] @ inj[fid])
+            rhs = rhs + inj[n] - kf @ (d_f[fid] @ inj[n])
+        dg = {service: np.linalg.solve(lhs, d_s @ rhs)}
+        for n, mf in mats.items():
+            dg[n] = np.linalg.solve(mf, dg[service] + d_f[n[1]] @ inj[n])
         predicted = {}
         kept = 0
         for cid, (n, ln) in where.items():
@@ -454,14 +453,7 @@ def settle(inst: Installation,
         log.debug("%d circuits keep their solve (a step below %g of the tolerance)", kept,
                   SKIP_STEP)
     return Interaction(cases, sums, it, change, False, tuple(history), worst,
-                       tuple(jumps.items()), _node_map(gn), tuple(sorted(held)), held_mismatch)
-
-
-def _node_map(gn: dict[tuple[str, str], np.ndarray]) -> dict[str, dict[str, np.ndarray]]:
-    out: dict[str, dict[str, np.ndarray]] = {}
-    for (n, ln), v in gn.items():
-        out.setdefault(n, {})[ln] = v
-    return out
+                       tuple(jumps.items()), g, tuple(sorted(held)), held_mismatch)
 
 
 def resonance_order(inst: Installation, shunt_c_f: Mapping[str, float]) -> tuple[float, float]:

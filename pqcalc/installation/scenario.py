@@ -7,7 +7,7 @@ result, and the ideal one stays beside it.
 
 from __future__ import annotations
 
-from collections.abc import Callable
+from collections.abc import Callable, Sequence
 from dataclasses import replace
 
 import numpy as np
@@ -145,13 +145,17 @@ def resonance_check(inst: Installation, solver: CaseSolver) -> Check:
                  50.0, "order", {"c_per_line_f": c_f}, bound="min")
 
 
+def _named(ids: Sequence[str], most: int) -> str:
+    """``a, b, c and 4 more``: the first ``most`` ids of a list for a message."""
+    return ", ".join(ids[:most]) + (f" and {len(ids) - most} more" if len(ids) > most else "")
+
+
 def _jump_text(fp: Interaction) -> str:
     """The circuits that changed firing pattern during the iteration, for a warning."""
     if not fp.jumps:
         return ""
     big = sorted(fp.jumps, key=lambda j: -j[1])
-    names = ", ".join(cid for cid, _ in big[:6]) + (
-        f" and {len(big) - 6} more" if len(big) > 6 else "")
+    names = _named([cid for cid, _ in big], 6)
     return (f"; {len(big)} {'circuit changes' if len(big) == 1 else 'circuits change'} "
             f"firing pattern under the distortion (the current lands up to "
             f"{100 * big[0][1]:.0f} % of its fundamental away from the smooth answer): {names}")
@@ -180,8 +184,8 @@ def evaluate_scenario(inst: Installation, solver: CaseSolver, scenario: int,
                f"resonates with the source inductance near order {h_r:.0f}, which amplifies "
                "the harmonic voltages there" if h_r <= 60 else "")
         if fp.worst is not None:
-            n, ln, h = fp.worst
-            where = "the service" if n == "service" else f"the end of feeder {n}"
+            kind, n, ln, h = fp.worst
+            where = "the service" if kind == "transformer" else f"the end of feeder {n}"
             why += f"; the largest mismatch was at order {h} at {where}, line {ln}"
         why += _jump_text(fp)
         warn = Check("supply interaction", "warn",
@@ -208,8 +212,7 @@ def evaluate_scenario(inst: Installation, solver: CaseSolver, scenario: int,
                                          "holding current) with the makers" if fp.jumps else ""),
             SETTLE_METHOD, fp.change, opts.tolerance, "-"),)
     if fp.held:
-        names = ", ".join(fp.held[:8]) + (f" and {len(fp.held) - 8} more"
-                                           if len(fp.held) > 8 else "")
+        names = _named(fp.held, 8)
         extra = extra + (Check(
             "supply interaction", "warn",
             f"{len(fp.held)} {'circuit has' if len(fp.held) == 1 else 'circuits have'} no "
