@@ -101,10 +101,17 @@ class Stresses:
     integrated with the solver's extras only (None without: an installation's solves never
     read them, and they cost a product integral per component)."""
 
-    i_peak_a: float  # largest input current in steady state [A]
-    inrush_peak_a: float | None  # largest input current when switched on at the crest [A]
-    cap_rms_a: tuple[tuple[str, float], ...] | None  # capacitor rms currents [A]
-    resistor_w: tuple[tuple[str, float], ...] | None  # resistor dissipation [W]
+    # largest input current in steady state [A] (a search over every segment, made when
+    # first read; a descriptor without a class default, which the type checker cannot see)
+    i_peak_a: float = _Deferred()  # type: ignore[assignment]
+    # largest input current when switched on at the crest [A]
+    inrush_peak_a: float | None  # type: ignore[misc]
+    cap_rms_a: tuple[tuple[str, float], ...] | None  # type: ignore[misc]  # capacitor rms [A]
+    resistor_w: tuple[tuple[str, float], ...] | None  # type: ignore[misc]  # dissipation [W]
+
+    def __getstate__(self):
+        self.i_peak_a  # noqa: B018  (a deferred peak is found before pickling)
+        return self.__dict__
 
 
 @dataclass(frozen=True)
@@ -896,7 +903,7 @@ def _assemble(supply, dimmer, dp, loads, gparams, levels, case, tr, period, iter
                          ex.mean_product(s0 + nc + j, s0 + nc + nr + j) / m)
                         for j, r in enumerate(b.resistors))
         inrush = _inrush(supply, dimmer, dp, loads, gparams, levels, k) if extras else None
-        st = Stresses(gfig.i_peak_a, inrush, caps, res)
+        st = Stresses(lambda gfig=gfig: gfig.i_peak_a, inrush, caps, res)  # type: ignore[arg-type]
         if "conv" in b.extra:
             ia = [i for i, a in enumerate(eng.automata) if isinstance(a, ConverterUVLO)
                   and a.el == b.extra["conv"]][0]
@@ -907,7 +914,9 @@ def _assemble(supply, dimmer, dp, loads, gparams, levels, case, tr, period, iter
             flags.add("glow-when-off")
         pub = tuple((kk, v) for kk, v in p.items() if not kk.startswith("_"))
         groups.append(GroupResult(g, pub, gw, led, light, st))
-    for arr in [wf.current_a, coef, np.array([fig.i_rms_a, fig.p_w, fig.i_peak_a])] + \
+    # (the peaks are searched for when read: a search over finite states finds a finite
+    # peak)
+    for arr in [wf.current_a, coef, np.array([fig.i_rms_a, fig.p_w])] + \
             [gr.led_current_a for gr in groups] + \
             [gr.__dict__["_deferred_light"] for gr in groups
              if not callable(gr.__dict__["_deferred_light"])]:

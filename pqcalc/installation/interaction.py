@@ -169,6 +169,11 @@ HOLD_AFTER = 2
 #: V1) keeps its solve: its mismatch stays below the tolerance, and is measured as it is
 #: at the next pass like every other (late passes re-solve only what still moves).
 SKIP_STEP = 0.25
+#: A circuit whose linear prediction is expected to land within STAND_IN times the
+#: tolerance of its solve (the error of its last linear prediction, grown with the square of
+#: the step) is not re-solved in a pass: its current is that prediction (a stand-in), until
+#: the mismatch is below the tolerance, when every stand-in is solved to confirm.
+STAND_IN = 0.1
 
 
 log = logging.getLogger(__name__)
@@ -249,6 +254,19 @@ def _transfer(c: CaseResult, angle_rad: float) -> np.ndarray | None:
     return _real(a[1:, 1:], b[1:, 1:])
 
 
+def _admittance(c: CaseResult, angle_rad: float, zloop: np.ndarray | None) -> np.ndarray:
+    """A case's terminal admittance (L1 frame, orders 1..MAX_ORDER, real form): its transfer
+    ``T`` from the source's EMF made ``T (1 - Z_loop T)^-1`` where the loop was in its solve
+    (its terminals see the EMF less the loop's drop)."""
+    t = _transfer(c, angle_rad)
+    assert t is not None
+    if zloop is None:
+        return t
+    m = MAX_ORDER
+    zr = _real(np.diag(zloop[1:]), np.zeros((m, m)))
+    return np.linalg.solve((np.eye(2 * m) - zr @ t).T, t.T).T
+
+
 def _stack(z: np.ndarray) -> np.ndarray:
     return np.concatenate([z[1:].real, z[1:].imag])
 
@@ -256,6 +274,33 @@ def _stack(z: np.ndarray) -> np.ndarray:
 def _unstack(x: np.ndarray) -> np.ndarray:
     m = x.size // 2
     return np.concatenate([[0.0], x[:m] + 1j * x[m:]])
+
+
+def _voltages_of(inst: Installation, cur: Mapping[str, np.ndarray],
+                 where: Mapping[str, tuple[tuple[str, str], str]]
+                 ) -> dict[tuple[str, str, str], np.ndarray]:
+    """:func:`node_voltages` from circuit current phasors (L1 frame) instead of sums."""
+    sup = inst.supply
+    f = sup.frequency_hz
+    zero = np.zeros(MAX_ORDER + 1, dtype=complex)
+    per: dict[tuple[str, str], dict[str, np.ndarray]] = {}
+    for cid, (n, ln) in where.items():
+        at = per.setdefault(n, {k: zero for k in sup.lines})
+        at[ln] = at[ln] + cur[cid]
+    service = ("transformer", "service")
+    tot = {ln: sum((v[ln] for v in per.values()), zero) for ln in sup.lines}
+    tot_n = sum(tot.values(), zero)
+    out = {}
+    for ln in sup.lines:
+        out[service + (ln,)] = ideal_voltage(inst, ln) - voltage_drop(
+            sup.impedance, tot[ln], tot_n, f)
+    for fid in inst.feeders:
+        fl = per.get(("feeder", fid), {k: zero for k in sup.lines})
+        fn = sum(fl.values(), zero)
+        for ln in sup.lines:
+            out[("feeder", fid, ln)] = out[service + (ln,)] - voltage_drop(
+                inst.feeders[fid].impedance, fl[ln], fn, f)
+    return out
 
 
 def settle(inst: Installation,
@@ -287,7 +332,14 @@ def settle(inst: Installation,
     current a fixed injection, so that the rest can settle around it; the result says so.
     The first step starts from the stiff-supply pass (no loop in those solves: their
     transfer is their terminal admittance). A circuit whose EMF would move by less than
-    ``SKIP_STEP`` of the tolerance keeps its solve.
+    ``SKIP_STEP`` of the tolerance keeps its solve. A circuit whose last linear prediction
+    erred little for its step (the error, as a voltage over its loop, grown with the square
+    of the step, below ``STAND_IN`` of the tolerance) is not re-solved: its linear
+    prediction stands in for its current (inexact Newton), and the node voltages are those
+    the circuits' currents make (:func:`node_voltages` on their sum). A pass that may be the
+    last (the mismatch below the tolerance, every circuit's expected error below it, or the
+    last allowed) solves every circuit that moves, and the mismatch is measured again on
+    solved currents only: the result never holds a prediction.
 
     It stops when the mismatch is below ``analysis.tolerance`` [fraction of V1] on every
     circuit, after ``analysis.max_iterations`` passes, or when it grows twice in a row
@@ -317,7 +369,6 @@ def settle(inst: Installation,
     d_s = _drop_operator(sup.impedance, nl, f)
     d_f = {fid: _drop_operator(fd.impedance, nl, f) for fid, fd in inst.feeders.items()}
     eye_n = np.eye(2 * nl * m)
-    eye_c = np.eye(2 * m)
     hw = harmonic_impedance(0.0, 1.0, f, m)  # j h w
     zloop = {lp: lp[0] + lp[1] * hw for lp in set(loops.values())}
     # what each circuit's terminals saw in the pass just solved (the ideal pass: the
@@ -334,15 +385,25 @@ def settle(inst: Installation,
     change = float("inf")
     predicted: dict[str, np.ndarray] = {}
     x: dict[str, np.ndarray] = {}
+    # the EMF each circuit was last solved under (x differs for a stand-in), the step
+    # of that solve [fraction of V1], and its error of linearisation grown with the square
+    # of the step, as a voltage over the loop [V per (fraction of V1)^2]
+    xs: dict[str, np.ndarray] = {}
+    step: dict[str, float] = {}
+    curvature: dict[str, float] = {}
+    stand: set[str] = set()
+    fresh: set[str] = set()
     growing: list[bool] = []
     held_mismatch = 0.0
+    ys_kept: dict[tuple, tuple[object, np.ndarray]] = {}
     it = 0
     for it in range(1, opts.max_iterations + 1):  # noqa: B007 (reported after the loop)
         if it > 1:
-            at = {cid: own_frame(inst, where[cid][1], x[cid], loops[cid]) for cid in where}
+            at = {cid: own_frame(inst, where[cid][1], xs[cid], loops[cid]) for cid in where}
             cases, sums = solve_pass(at)
             in_loop = True
-        cur = {cid: rotate_phasors(cases[cid].phasors, angles[ln])
+        cur = {cid: predicted[cid] if cid in stand else
+               rotate_phasors(cases[cid].phasors, angles[ln])
                for cid, (_n, ln) in where.items()}
         if in_loop:
             u = {cid: x[cid] - zloop[loops[cid]] * cur[cid] for cid in where}
@@ -350,8 +411,13 @@ def settle(inst: Installation,
         new_holds = False
         jumped = 0
         for cid, pred in predicted.items():
+            if cid in stand:
+                continue  # its current is this prediction
+            miss = np.abs(cur[cid] - pred)
+            if cid in fresh and step[cid] > 0:
+                curvature[cid] = float(np.max(miss * np.abs(zloop[loops[cid]]))) / step[cid] ** 2
             i1 = abs(pred[1])
-            err = float(np.max(np.abs(cur[cid] - pred)))
+            err = float(np.max(miss))
             moved = float(np.max(np.abs(cur[cid] - prev[cid])))
             if i1 > 0 and err > JUMP_FRACTION * i1 and err > JUMP_SHARE * moved and \
                     cases[cid].pattern != shape[cid]:
@@ -364,13 +430,16 @@ def settle(inst: Installation,
         if log.isEnabledFor(logging.DEBUG) and predicted:
             errs = sorted(((float(np.max(np.abs(cur[c] - predicted[c]))), c,
                             int(np.argmax(np.abs(cur[c] - predicted[c]))),
-                            float(np.max(np.abs(cur[c] - prev[c])))) for c in predicted),
+                            float(np.max(np.abs(cur[c] - prev[c]))))
+                           for c in predicted if c not in stand),
                           reverse=True)
             log.debug("largest prediction errors [A] (error, circuit, order, change): %s",
                       [(round(e, 4), c, k, round(mv, 4)) for e, c, k, mv in errs[:8]])
         prev = cur
         shape = {cid: cases[cid].pattern for cid in where}
-        g = node_voltages(inst, sums)
+        # the voltages the currents make: from the sums where every current is solved,
+        # else from the currents (stand-ins' predictions included)
+        g = node_voltages(inst, sums) if not stand else _voltages_of(inst, cur, where)
         gn = {(n, ln): g[n + (ln,)] for n in nodes for ln in lines}
         mis = {cid: u[cid] - gn[nln] for cid, nln in where.items()}
         size = {cid: float(np.max(np.abs(r[1:]))) / abs(u[cid][1]) for cid, r in mis.items()}
@@ -383,27 +452,33 @@ def settle(inst: Installation,
             worst = n + (ln, 1 + int(np.argmax(np.abs(mis[top][1:]))))
         held_mismatch = max((size[cid] for cid in held), default=0.0)
         history.append(change)
-        log.debug("pass %d: mismatch %.3g of V1 at %s; %d jumped in this pass, %d held",
-                  it, change, worst, jumped, len(held))
+        log.debug("pass %d: mismatch %.3g of V1 at %s; %d jumped in this pass, %d held, "
+                  "%d stand-ins", it, change, worst, jumped, len(held), len(stand))
         growing[:] = growing[-1:] + [len(history) >= 2 and history[-1] > history[-2]
                                      and not new_holds]
-        if change < opts.tolerance or it == opts.max_iterations:
+        if (change < opts.tolerance and not stand) or it == opts.max_iterations:
             break
+        # a pass that may be the last solves every circuit (no stand-ins)
+        confirm = change < opts.tolerance or it + 1 == opts.max_iterations
         if all(growing) and len(growing) == 2:
             return Interaction(cases, sums, it, change, True, tuple(history), worst,
                                tuple(jumps.items()), g, tuple(sorted(held)), held_mismatch)
         # each distinct circuit's terminal admittance (identical circuits share it)
-        ys: dict[tuple, np.ndarray | None] = {}
-        yc = {}
+        # (keyed by the solve's transfer, which its turned copies share, and kept from pass
+        # to pass with a reference to it, so that an id is never reused while kept)
+        ys: dict[tuple, tuple[object, np.ndarray]] = {}
+        yc: dict[str, np.ndarray | None] = {}
         for cid, (_n, ln) in where.items():
-            key = (id(cases[cid]), ln, loops[cid] if in_loop else None)
+            tr = cases[cid].transfer
+            if tr is None or cid in held:
+                yc[cid] = None
+                continue
+            key = (id(tr), cases[cid].turn_rad, ln, loops[cid] if in_loop else None)
             if key not in ys:
-                t = _transfer(cases[cid], angles[ln])
-                if t is not None and in_loop:
-                    zr = _real(np.diag(zloop[loops[cid]][1:]), np.zeros((m, m)))
-                    t = np.linalg.solve((eye_c - zr @ t).T, t.T).T
-                ys[key] = t
-            yc[cid] = None if cid in held else ys[key]
+                ys[key] = ys_kept.get(key) or (tr, _admittance(
+                    cases[cid], angles[ln], zloop[loops[cid]] if in_loop else None))
+            yc[cid] = ys[key][1]
+        ys_kept = ys
         jac = {n: np.zeros((2 * nl * m, 2 * nl * m)) for n in nodes}
         inj = {n: np.zeros(2 * nl * m) for n in nodes}
         for cid, (n, ln) in where.items():
@@ -432,6 +507,8 @@ def settle(inst: Installation,
             dg[n] = np.linalg.solve(mf, dg[service] + d_f[n[1]] @ inj[n])
         predicted = {}
         kept = 0
+        fresh = set()
+        moving: dict[str, tuple[np.ndarray, float, float]] = {}
         for cid, (n, ln) in where.items():
             i = lines.index(ln)
             sel = np.r_[i * m:(i + 1) * m, nl * m + i * m:nl * m + (i + 1) * m]
@@ -442,16 +519,39 @@ def settle(inst: Installation,
                 pred = pred + _unstack(yc[cid] @ _stack(du))
                 predicted[cid] = pred
             if cid in held and cid in x:
+                stand.discard(cid)
+                x[cid] = xs[cid]
                 continue  # held: its source stays, and so does its solve
             new = gn[(n, ln)] + dgc + zloop[loops[cid]] * pred
             new[0] = 0.0
-            if cid in x and np.max(np.abs(new - x[cid])) < SKIP_STEP * opts.tolerance * abs(
-                    new[1]):
+            v1 = abs(new[1])
+            s_c = float(np.max(np.abs(new - xs[cid]))) / v1 if cid in xs else np.inf
+            if s_c < SKIP_STEP * opts.tolerance:
                 kept += 1
+                stand.discard(cid)
+                x[cid] = xs[cid]
                 continue  # a step far below the tolerance: its solve stands
+            moving[cid] = (new, s_c, float(np.max(np.abs(du))) / v1)
+        # the next pass is expected to settle (every circuit's error of linearisation, grown
+        # with the square of its step, below the tolerance; unknown where never solved in
+        # the loop): it solves every circuit, so that it may be the last
+        if not confirm:
+            confirm = all(cid in curvature and curvature[cid] * s_c**2 < opts.tolerance
+                          * abs(new[1]) for cid, (new, s_c, _d) in moving.items())
+        for cid, (new, s_c, s_u) in moving.items():
             x[cid] = new
-        log.debug("%d circuits keep their solve (a step below %g of the tolerance)", kept,
-                  SKIP_STEP)
+            if not confirm and cid in curvature and yc[cid] is not None and \
+                    curvature[cid] * s_c**2 < STAND_IN * opts.tolerance * abs(new[1]):
+                stand.add(cid)  # its linear prediction stands in for a solve
+                continue
+            stand.discard(cid)
+            xs[cid] = new
+            # the first solve in the loop steps from the stiff supply: its terminals' step
+            step[cid] = s_c if np.isfinite(s_c) else s_u
+            fresh.add(cid)
+        log.debug("%d circuits keep their solve (a step below %g of the tolerance), "
+                  "%d stand in by their linear prediction, %d are solved", kept, SKIP_STEP,
+                  len(stand), len(fresh))
     return Interaction(cases, sums, it, change, False, tuple(history), worst,
                        tuple(jumps.items()), g, tuple(sorted(held)), held_mismatch)
 
