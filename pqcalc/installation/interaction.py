@@ -260,11 +260,12 @@ def _admittance(c: CaseResult, angle_rad: float, zloop: np.ndarray | None) -> np
     (its terminals see the EMF less the loop's drop)."""
     t = _transfer(c, angle_rad)
     assert t is not None
-    if zloop is None:
-        return t
-    m = MAX_ORDER
-    zr = _real(np.diag(zloop[1:]), np.zeros((m, m)))
-    return np.linalg.solve((np.eye(2 * m) - zr @ t).T, t.T).T
+    if zloop is not None:
+        m = MAX_ORDER
+        zr = _real(np.diag(zloop[1:]), np.zeros((m, m)))
+        t = np.linalg.solve((np.eye(2 * m) - zr @ t).T, t.T).T
+    # single precision, as the transfer it comes from: a Jacobian
+    return t.astype(np.float32)
 
 
 def _stack(z: np.ndarray) -> np.ndarray:
