@@ -305,7 +305,7 @@ def _voltages_of(inst: Installation, cur: Mapping[str, np.ndarray],
 
 
 def settle(inst: Installation,
-           solve_pass: Callable[[dict[str, PanelVoltage]],
+           solve_pass: Callable[[dict[str, PanelVoltage | None]],
                                 tuple[dict[str, CaseResult], InstallationSums]],
            cases: dict[str, CaseResult], sums: InstallationSums) -> Interaction:
     """The panel voltages and the currents they draw, consistent with each other: Newton's
@@ -337,7 +337,10 @@ def settle(inst: Installation,
     erred little for its step (the error, as a voltage over its loop, grown with the square
     of the step, below ``STAND_IN`` of the tolerance) is not re-solved: its linear
     prediction stands in for its current (inexact Newton), and the node voltages are those
-    the circuits' currents make (:func:`node_voltages` on their sum). A pass that may be the
+    the circuits' currents make (:func:`node_voltages` on their sum). The first step solves
+    one circuit of each stiff-supply case (its probe, the one whose terminals move most);
+    the others stand in until the probe's error, per order and per square step, says how
+    far their own steps may go without a solve. A pass that may be the
     last (the mismatch below the tolerance, every circuit's expected error below it, or the
     last allowed) solves every circuit that moves, and the mismatch is measured again on
     solved currents only: the result never holds a prediction.
@@ -374,8 +377,13 @@ def settle(inst: Installation,
     zloop = {lp: lp[0] + lp[1] * hw for lp in set(loops.values())}
     # what each circuit's terminals saw in the pass just solved (the ideal pass: the
     # stiff supply, no loop in the solve)
-    u = {cid: ideal_voltage(inst, ln) for cid, (_n, ln) in where.items()}
-    in_loop = False
+    u0 = {cid: ideal_voltage(inst, ln) for cid, (_n, ln) in where.items()}
+    u = dict(u0)
+    # circuits of one stiff-supply case (one solve, shared) are one family: the first step
+    # solves one of each (its probe, the one that moves most) and lets the others stand in;
+    # the probe's error of linearisation, per order and per square step [A], is the family's
+    family = {cid: id(cases[cid]) for cid in where}
+    family_miss: dict[int, np.ndarray] = {}
     history: list[float] = []
     jumps: dict[str, float] = {}
     times: dict[str, int] = {}
@@ -400,14 +408,15 @@ def settle(inst: Installation,
     it = 0
     for it in range(1, opts.max_iterations + 1):  # noqa: B007 (reported after the loop)
         if it > 1:
-            at = {cid: own_frame(inst, where[cid][1], xs[cid], loops[cid]) for cid in where}
+            # (a circuit still standing in for its stiff-supply solve keeps that solve)
+            at = {cid: own_frame(inst, where[cid][1], xs[cid], loops[cid]) if cid in xs
+                  else None for cid in where}
             cases, sums = solve_pass(at)
-            in_loop = True
         cur = {cid: predicted[cid] if cid in stand else
                rotate_phasors(cases[cid].phasors, angles[ln])
                for cid, (_n, ln) in where.items()}
-        if in_loop:
-            u = {cid: x[cid] - zloop[loops[cid]] * cur[cid] for cid in where}
+        u = {cid: x[cid] - zloop[loops[cid]] * cur[cid] if cid in x else u0[cid]
+             for cid in where}
         # circuits that did not land where their transfer said: a change of firing pattern
         new_holds = False
         jumped = 0
@@ -417,6 +426,7 @@ def settle(inst: Installation,
             miss = np.abs(cur[cid] - pred)
             if cid in fresh and step[cid] > 0:
                 curvature[cid] = float(np.max(miss * np.abs(zloop[loops[cid]]))) / step[cid] ** 2
+                family_miss.setdefault(family[cid], miss / step[cid] ** 2)
             i1 = abs(pred[1])
             err = float(np.max(miss))
             moved = float(np.max(np.abs(cur[cid] - prev[cid])))
@@ -474,10 +484,12 @@ def settle(inst: Installation,
             if tr is None or cid in held:
                 yc[cid] = None
                 continue
-            key = (id(tr), cases[cid].turn_rad, ln, loops[cid] if in_loop else None)
+            # (the loop was in the solve of a circuit solved since the stiff-supply pass)
+            looped = cid in xs
+            key = (id(tr), cases[cid].turn_rad, ln, loops[cid] if looped else None)
             if key not in ys:
                 ys[key] = ys_kept.get(key) or (tr, _admittance(
-                    cases[cid], angles[ln], zloop[loops[cid]] if in_loop else None))
+                    cases[cid], angles[ln], zloop[loops[cid]] if looped else None))
             yc[cid] = ys[key][1]
         ys_kept = ys
         jac = {n: np.zeros((2 * nl * m, 2 * nl * m)) for n in nodes}
@@ -532,17 +544,36 @@ def settle(inst: Installation,
                 stand.discard(cid)
                 x[cid] = xs[cid]
                 continue  # a step far below the tolerance: its solve stands
-            moving[cid] = (new, s_c, float(np.max(np.abs(du))) / v1)
+            # a circuit not yet solved in the loop steps from its stiff-supply solve: its
+            # terminals' whole step
+            moving[cid] = (new, s_c, float(np.max(np.abs(gn[(n, ln)] + dgc - u0[cid]))) / v1)
         # the next pass is expected to settle (every circuit's error of linearisation, grown
         # with the square of its step, below the tolerance; unknown where never solved in
         # the loop): it solves every circuit, so that it may be the last
+        def expected(cid: str, s_c: float, s_u: float) -> float:
+            """The error of linearisation expected after the step [V over the loop]."""
+            if cid in xs:
+                return curvature[cid] * s_c**2 if cid in curvature else np.inf
+            fm = family_miss.get(family[cid])
+            return np.inf if fm is None else float(
+                np.max(fm * np.abs(zloop[loops[cid]]))) * s_u**2
+
         if not confirm:
-            confirm = all(cid in curvature and curvature[cid] * s_c**2 < opts.tolerance
-                          * abs(new[1]) for cid, (new, s_c, _d) in moving.items())
+            confirm = all(expected(cid, s_c, s_u) < opts.tolerance * abs(new[1])
+                          for cid, (new, s_c, s_u) in moving.items())
+        first = not xs  # the first step: one probe per family
+        probes = set()
+        if first:
+            most: dict[int, tuple[float, str]] = {}
+            for cid, (_new, _s_c, s_u) in moving.items():
+                if s_u > most.get(family[cid], (-1.0, ""))[0]:
+                    most[family[cid]] = (s_u, cid)
+            probes = {cid for _s, cid in most.values()}
         for cid, (new, s_c, s_u) in moving.items():
             x[cid] = new
-            if not confirm and cid in curvature and yc[cid] is not None and \
-                    curvature[cid] * s_c**2 < STAND_IN * opts.tolerance * abs(new[1]):
+            if not confirm and yc[cid] is not None and cid not in probes and (
+                    first or
+                    expected(cid, s_c, s_u) < STAND_IN * opts.tolerance * abs(new[1])):
                 stand.add(cid)  # its linear prediction stands in for a solve
                 continue
             stand.discard(cid)

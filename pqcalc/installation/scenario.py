@@ -29,11 +29,11 @@ Progress = Callable[[int], None]
 
 
 def solve_pass(inst: Installation, solver: CaseSolver, scenario: int,
-               voltages: dict[str, PanelVoltage] | None = None,
+               voltages: dict[str, PanelVoltage | None] | None = None,
                progress: Progress | None = None
                ) -> tuple[dict[str, CaseResult], InstallationSums]:
-    """Every circuit's case at a scenario (under ``voltages`` per circuit id, or the ideal
-    supply) and the sums they make."""
+    """Every circuit's case at a scenario (under ``voltages`` per circuit id, None: the
+    ideal supply) and the sums they make."""
     solver.prefetch([(c, scenario, None if voltages is None else voltages[c.id])
                      for c in inst.circuits])
     cases = {}
@@ -169,7 +169,8 @@ def evaluate_scenario(inst: Installation, solver: CaseSolver, scenario: int,
     ideal = _assemble(inst, solver, scenario, cases, sums, 0, False)
     if not (inst.analysis.supply_interaction and inst.has_source_impedance):
         return ideal
-    def one_pass(at: dict[str, PanelVoltage]) -> tuple[dict[str, CaseResult], InstallationSums]:
+    def one_pass(at: dict[str, PanelVoltage | None]
+                 ) -> tuple[dict[str, CaseResult], InstallationSums]:
         solver.retain(at.values())  # the cache holds one pass's cases, not every pass's
         return solve_pass(inst, solver, scenario, at, progress)
 
