@@ -170,6 +170,10 @@ def child(path: str, interaction: bool, workers: int | None, json_out: str | Non
     t_assess, c_assess = time.perf_counter() - t0, time.process_time() - c0
     d = json_safe(a.to_dict())
     d.pop("installation", None)  # the file's path, not a result
+    # the count of solves made, not a result: workers cannot share one solve between two
+    # batches (two circuits whose conditions meet in one solve, such as two settings
+    # clamped to a dimmer's top), so they may make a few more (reported beside)
+    d.pop("distinct_solves", None)
     text = json.dumps(d, sort_keys=True)
     if json_out:
         Path(json_out).write_text(text)
