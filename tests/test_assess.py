@@ -373,7 +373,6 @@ def test_stand_ins_leave_no_prediction_in_the_result(monkeypatch, caplog):
     # this small file the stand-ins save no solve; on the campus demo they save a quarter:
     # tests/benchmarks/bench_installation.py.)
     import logging
-
     from pathlib import Path
 
     from pqcalc.installation import interaction
