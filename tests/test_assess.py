@@ -363,6 +363,36 @@ def test_settled_interaction_equals_the_substitution_fixed_point(demo_file, scen
         assert np.max(np.abs(ga[k] - gb[k])) <= 5e-4 * sup.voltage_ln_v, k
 
 
+@pytest.mark.parametrize("demo_file", ["harbour_school.toml", "cedar_row_offices.toml"])
+def test_node_voltages_from_phasor_sums_equal_those_from_waveform_sums(demo_file):
+    # Linearity of the Fourier series: the node voltages the interaction iterates on
+    # (interaction._voltages_of: plain sums of the circuits' phasors, L1 frame) equal those
+    # of the phase-aligned waveform sums every report uses (node_voltages on sums.py's
+    # sums), to round-off.
+    from pathlib import Path
+
+    from pqcalc.installation.cases import CaseSolver
+    from pqcalc.installation.interaction import _voltages_of, node_voltages
+    from pqcalc.installation.model import LINE_ANGLES_DEG
+    from pqcalc.installation.scenario import solve_pass
+    from pqcalc.spectrum import rotate_phasors
+
+    inst = load_installation(Path(__file__).resolve().parents[1] / "demo_installations"
+                             / demo_file)
+    sup = inst.supply
+    cases, sums = solve_pass(inst, CaseSolver(inst), 0)
+    where = {c.id: (("transformer", "service") if p.feeder is None else ("feeder", p.feeder),
+                    c.line) for p in inst.panels for c in p.circuits}
+    cur = {cid: rotate_phasors(cases[cid].phasors,
+                               np.radians(LINE_ANGLES_DEG[sup.system][ln]))
+           for cid, (_n, ln) in where.items()}
+    a, b = node_voltages(inst, sums), _voltages_of(inst, cur, where)
+    assert set(b) <= set(a)
+    for k in b:
+        assert np.max(np.abs(a[k] - b[k])) <= 1e-9 * sup.voltage_ln_v, k
+    assert max(float(np.max(np.abs(b[k][2:]))) for k in b) > 0.01  # distortion to compare
+
+
 def test_stand_ins_leave_no_prediction_in_the_result(monkeypatch, caplog):
     # interaction.settle's inexact Newton: a circuit whose linear prediction erred little
     # stands in for its solve in intermediate passes; the result is measured on solved
