@@ -15,6 +15,7 @@ when the panel voltage sags or distorts.
 
 from __future__ import annotations
 
+import functools
 import math
 from collections.abc import Collection
 from concurrent.futures import Executor
@@ -112,8 +113,9 @@ class CaseResult:
     #: is a change of firing pattern, not a smooth answer
     pattern: tuple = ()
 
-    @property
+    @functools.cached_property
     def phasors(self) -> np.ndarray:
+        """The current's phasors, orders 0..MAX_ORDER (computed once per result)."""
         return period_phasors(self.current_a, self.cycles)
 
     @property

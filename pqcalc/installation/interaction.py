@@ -191,13 +191,13 @@ def own_frame(inst: Installation, line: str, v: np.ndarray,
     own = rotate_phasors(v, -np.radians(LINE_ANGLES_DEG[inst.supply.system][line]))
     v1 = abs(own[1])
     delta = float(np.angle(own[1]))
+    orders = np.arange(2, MAX_ORDER + 1)
+    ratios = (np.abs(own[2:]) / v1).tolist()
+    angles = np.degrees(np.angle(own[2:]) - orders * delta).tolist()
     harm = []
-    for h in range(2, MAX_ORDER + 1):
-        r = abs(own[h]) / v1
+    for h, r, a in zip(orders.tolist(), ratios, angles, strict=True):
         if r > 1e-4:
-            harm.append((h, _quantise(float(r), HARMONIC_STEP),
-                         _quantise(float(np.degrees(np.angle(own[h]) - h * delta)) % 360.0,
-                                   ANGLE_STEP_DEG)))
+            harm.append((h, _quantise(r, HARMONIC_STEP), _quantise(a % 360.0, ANGLE_STEP_DEG)))
     return PanelVoltage(float(v1), tuple(harm), delta, loop[0], loop[1])
 
 
