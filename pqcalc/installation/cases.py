@@ -138,6 +138,10 @@ class CaseResult:
 
 
 def _sum_cases(parts: list[CaseResult], notes: tuple[str, ...] = ()) -> CaseResult:
+    if len(parts) == 1:
+        # one part: its own arrays (the sum below would copy them to the same values)
+        p = parts[0]
+        return replace(p, notes=tuple(dict.fromkeys(p.notes + notes)), pattern=(p.pattern,))
     cyc = common_period(p.cycles for p in parts)
     cur = parts[0].current_a * 0.0
     for p in parts:  # in order, as the reference sums were made
