@@ -419,17 +419,14 @@ class CaseSolver:
                                     sol.period_cycles / inst.supply.frequency_hz), t,
                           pattern=(tuple(sol.firings), tuple(sorted(sol.flags))))
 
-    def inrush(self, c: Circuit, scenario: int) -> tuple[Any, tuple[str, ...]]:
-        """The switch-on transient of the circuit's modelled lamps at the scenario's
-        setting, through its own loop (supply source and feeder, line and neutral, plus the
-        branch), and the fixture ids of its groups; (None, ()) without modelled lamps."""
-        from ..circuits import LoadGroup, Supply
-        from ..circuits.inrush import switch_on_transient
-
+    def _inrush_key(self, c: Circuit, scenario: int) -> tuple | None:
+        """The cache key of a circuit's switch-on transient and what it is solved from:
+        (key, modelled groups, conditions, loop R [ohm], loop L [H]); None without
+        modelled lamps."""
         fx = self.inst.fixtures
         groups = tuple((g.fixture, g.count) for g in c.groups if not fx[g.fixture].measured)
         if not groups:
-            return None, ()
+            return None
         panel = next(p for p in self.inst.panels if p.id == c.panel)
         z = self.inst.supply.impedance
         r = z.r_ohm + z.neutral_r_ohm + c.loop_r_ohm
@@ -440,6 +437,39 @@ class CaseSolver:
         k = CaseConditions.of(c, scenario)
         key = ("inrush", groups, k.dimmer, k.dimmer_switch, k.conduction_deg, k.knob,
                k.dimmer_params, round(r, 9), round(l_h, 12))
+        return key, groups, k, r, l_h
+
+    def prefetch_inrush(self, circuits: Collection[Circuit], scenario: int) -> None:
+        """Solve the distinct switch-on transients of ``circuits`` not cached yet on the
+        executor (as :meth:`prefetch` does the steady states)."""
+        if self.executor is None:
+            return
+        todo: dict[tuple, str] = {}
+        for c in circuits:
+            got = self._inrush_key(c, scenario)
+            if got is not None and got[0] not in self.cache and got[0] not in todo:
+                todo[got[0]] = c.id
+        if len(todo) < 2:
+            return
+        items = list(todo.values())
+        size = max(1, math.ceil(len(items) / BATCHES))
+        futures = [self.executor.submit(_inrush_remote, self.inst, items[i:i + size], scenario)
+                   for i in range(0, len(items), size)]
+        for fut in futures:
+            self.cache.update(fut.result())
+
+    def inrush(self, c: Circuit, scenario: int) -> tuple[Any, tuple[str, ...]]:
+        """The switch-on transient of the circuit's modelled lamps at the scenario's
+        setting, through its own loop (supply source and feeder, line and neutral, plus the
+        branch), and the fixture ids of its groups; (None, ()) without modelled lamps."""
+        from ..circuits import LoadGroup, Supply
+        from ..circuits.inrush import switch_on_transient
+
+        fx = self.inst.fixtures
+        got = self._inrush_key(c, scenario)
+        if got is None:
+            return None, ()
+        key, groups, k, r, l_h = got
         hit = self.cache.get(key)
         if hit is None:
             sup = self.inst.supply
@@ -492,6 +522,19 @@ def _solve_remote(inst: Installation, items: list[tuple[CaseConditions, str]],
     """Distinct cases solved in a worker: the results by key and the solves they took."""
     solver = CaseSolver(inst, transfer=transfer)
     return {key: solver._case_or_missing(key, cid) for key, cid in items}, solver.solves
+
+
+def _inrush_remote(inst: Installation, ids: list[str], scenario: int) -> dict[tuple, Any]:
+    """Switch-on transients solved in a worker, by cache key."""
+    solver = CaseSolver(inst)
+    by_id = {c.id: c for c in inst.circuits}
+    out = {}
+    for cid in ids:
+        solver.inrush(by_id[cid], scenario)
+        got = solver._inrush_key(by_id[cid], scenario)
+        assert got is not None
+        out[got[0]] = solver.cache[got[0]]
+    return out
 
 
 class LampLight:

@@ -166,6 +166,7 @@ def evaluate_scenario(inst: Installation, solver: CaseSolver, scenario: int,
     """Solve, sum and check one scenario; with supply interaction, the ideal-supply result
     is kept as ``ideal``."""
     cases, sums = solve_pass(inst, solver, scenario, None, progress)
+    solver.prefetch_inrush(inst.circuits, scenario)  # on the workers, if any
     ideal = _assemble(inst, solver, scenario, cases, sums, 0, False)
     if not (inst.analysis.supply_interaction and inst.has_source_impedance):
         return ideal
