@@ -122,16 +122,14 @@ def _loop(inst: Installation, feeder: str | None) -> tuple[float, float]:
     return round(r, 9), round(l_h, 12)
 
 
-def node_voltages(inst: Installation, sums: InstallationSums
-                  ) -> dict[tuple[str, str, str], np.ndarray]:
-    """Harmonic voltage at each panel, feeder end and the service, per line (L1 frame)
-    [V rms phasors], from the drops over the source and feeder impedances. Keys are
-    (kind, node id, line) with kind ``"panel"``, ``"feeder"`` or ``"transformer"`` (the
-    service, id ``"service"``)."""
+def _drops(inst: Installation, tot_l: Mapping[str, np.ndarray], tot_n: np.ndarray,
+           fdr: Mapping[str, tuple[Mapping[str, np.ndarray], np.ndarray]]
+           ) -> dict[tuple[str, str, str], np.ndarray]:
+    """The service's and the feeder ends' voltages (L1 frame) [V rms phasors] from the
+    line and neutral current phasors through the service (``tot_l``, ``tot_n``) and each
+    feeder (``fdr``: id -> (lines, neutral))."""
     sup = inst.supply
     f = sup.frequency_hz
-    tot_l, tot_n = sums.total.phasors(sums.cycles)
-    fdr = {k: v.phasors(sums.cycles) for k, v in sums.feeders.items()}
     out = {}
     for ln in tot_l:
         out[("transformer", "service", ln)] = ideal_voltage(inst, ln) - voltage_drop(
@@ -140,6 +138,18 @@ def node_voltages(inst: Installation, sums: InstallationSums
         for ln in tot_l:
             out[("feeder", fid, ln)] = out[("transformer", "service", ln)] - voltage_drop(
                 inst.feeders[fid].impedance, fl[ln], fn, f)
+    return out
+
+
+def node_voltages(inst: Installation, sums: InstallationSums
+                  ) -> dict[tuple[str, str, str], np.ndarray]:
+    """Harmonic voltage at each panel, feeder end and the service, per line (L1 frame)
+    [V rms phasors], from the drops over the source and feeder impedances. Keys are
+    (kind, node id, line) with kind ``"panel"``, ``"feeder"`` or ``"transformer"`` (the
+    service, id ``"service"``)."""
+    tot_l, tot_n = sums.total.phasors(sums.cycles)
+    out = _drops(inst, tot_l, tot_n,
+                 {k: v.phasors(sums.cycles) for k, v in sums.feeders.items()})
     for p in inst.panels:
         for ln in tot_l:
             out[("panel", p.id, ln)] = (out[("transformer", "service", ln)] if p.feeder is None
@@ -171,8 +181,8 @@ HOLD_AFTER = 2
 SKIP_STEP = 0.25
 #: A circuit whose linear prediction is expected to land within STAND_IN times the
 #: tolerance of its solve (the error of its last linear prediction, grown with the square of
-#: the step) is not re-solved in a pass: its current is that prediction (a stand-in), until
-#: the mismatch is below the tolerance, when every stand-in is solved to confirm.
+#: the step) is not re-solved in a pass: its current is that prediction (a stand-in) until
+#: a pass that may be the last, which solves every circuit that moved (see settle).
 STAND_IN = 0.1
 
 
@@ -280,28 +290,20 @@ def _unstack(x: np.ndarray) -> np.ndarray:
 def _voltages_of(inst: Installation, cur: Mapping[str, np.ndarray],
                  where: Mapping[str, tuple[tuple[str, str], str]]
                  ) -> dict[tuple[str, str, str], np.ndarray]:
-    """:func:`node_voltages` from circuit current phasors (L1 frame) instead of sums."""
-    sup = inst.supply
-    f = sup.frequency_hz
+    """The service's and the feeder ends' voltages (:func:`node_voltages`' keys) from the
+    circuits' current phasors (L1 frame) summed, instead of from the waveform sums."""
+    lines = inst.supply.lines
     zero = np.zeros(MAX_ORDER + 1, dtype=complex)
     per: dict[tuple[str, str], dict[str, np.ndarray]] = {}
     for cid, (n, ln) in where.items():
-        at = per.setdefault(n, {k: zero for k in sup.lines})
+        at = per.setdefault(n, {k: zero for k in lines})
         at[ln] = at[ln] + cur[cid]
-    service = ("transformer", "service")
-    tot = {ln: sum((v[ln] for v in per.values()), zero) for ln in sup.lines}
-    tot_n = sum(tot.values(), zero)
-    out = {}
-    for ln in sup.lines:
-        out[service + (ln,)] = ideal_voltage(inst, ln) - voltage_drop(
-            sup.impedance, tot[ln], tot_n, f)
+    tot = {ln: sum((v[ln] for v in per.values()), zero) for ln in lines}
+    fdr = {}
     for fid in inst.feeders:
-        fl = per.get(("feeder", fid), {k: zero for k in sup.lines})
-        fn = sum(fl.values(), zero)
-        for ln in sup.lines:
-            out[("feeder", fid, ln)] = out[service + (ln,)] - voltage_drop(
-                inst.feeders[fid].impedance, fl[ln], fn, f)
-    return out
+        fl = per.get(("feeder", fid), {k: zero for k in lines})
+        fdr[fid] = (fl, sum(fl.values(), zero))
+    return _drops(inst, tot, sum(tot.values(), zero), fdr)
 
 
 def settle(inst: Installation,
@@ -373,6 +375,9 @@ def settle(inst: Installation,
     d_s = _drop_operator(sup.impedance, nl, f)
     d_f = {fid: _drop_operator(fd.impedance, nl, f) for fid, fd in inst.feeders.items()}
     eye_n = np.eye(2 * nl * m)
+    # a line's rows in a node's stacked vector (real parts, then imaginary parts)
+    sel = {ln: np.r_[i * m:(i + 1) * m, nl * m + i * m:nl * m + (i + 1) * m]
+           for i, ln in enumerate(lines)}
     hw = harmonic_impedance(0.0, 1.0, f, m)  # j h w
     zloop = {lp: lp[0] + lp[1] * hw for lp in set(loops.values())}
     # what each circuit's terminals saw in the pass just solved (the ideal pass: the
@@ -498,10 +503,8 @@ def settle(inst: Installation,
             y = yc[cid]
             if y is None:
                 continue
-            i = lines.index(ln)
-            sel = np.r_[i * m:(i + 1) * m, nl * m + i * m:nl * m + (i + 1) * m]
-            jac[n][np.ix_(sel, sel)] += y
-            inj[n][sel] += y @ _stack(mis[cid])
+            jac[n][np.ix_(sel[ln], sel[ln])] += y
+            inj[n][sel[ln]] += y @ _stack(mis[cid])
         # feeders: (1 + D_f J_f) dG_f = dG_s + D_f s_f; the service:
         # (1 + D_s J_s + D_s sum_f K_f) dG_s = D_s (s_s + sum_f (s_f - K_f D_f s_f)),
         # K_f = J_f (1 + D_f J_f)^-1 (the feeders eliminated: a Schur complement)
@@ -523,9 +526,7 @@ def settle(inst: Installation,
         fresh = set()
         moving: dict[str, tuple[np.ndarray, float, float]] = {}
         for cid, (n, ln) in where.items():
-            i = lines.index(ln)
-            sel = np.r_[i * m:(i + 1) * m, nl * m + i * m:nl * m + (i + 1) * m]
-            dgc = _unstack(dg[n][sel])
+            dgc = _unstack(dg[n][sel[ln]])
             du = dgc - mis[cid]
             pred = cur[cid].copy()
             if yc[cid] is not None:
@@ -547,9 +548,6 @@ def settle(inst: Installation,
             # a circuit not yet solved in the loop steps from its stiff-supply solve: its
             # terminals' whole step
             moving[cid] = (new, s_c, float(np.max(np.abs(gn[(n, ln)] + dgc - u0[cid]))) / v1)
-        # the next pass is expected to settle (every circuit's error of linearisation, grown
-        # with the square of its step, below the tolerance; unknown where never solved in
-        # the loop): it solves every circuit, so that it may be the last
         def expected(cid: str, s_c: float, s_u: float) -> float:
             """The error of linearisation expected after the step [V over the loop]."""
             if cid in xs:
@@ -558,6 +556,9 @@ def settle(inst: Installation,
             return np.inf if fm is None else float(
                 np.max(fm * np.abs(zloop[loops[cid]]))) * s_u**2
 
+        # the next pass is expected to settle (every circuit's error of linearisation, grown
+        # with the square of its step, below the tolerance; unknown where never solved in
+        # the loop): it solves every circuit, so that it may be the last
         if not confirm:
             confirm = all(expected(cid, s_c, s_u) < opts.tolerance * abs(new[1])
                           for cid, (new, s_c, s_u) in moving.items())

@@ -378,8 +378,8 @@ class Diversity:
 class AnalysisOptions:
     supply_interaction: bool = True
     #: passes of the supply interaction, the stiff-supply pass included: the demos settle
-    #: in 2-3; the campus demo's evening, its dimmed rectifier lamps at the resonant ends
-    #: of long feeders, in 10
+    #: in 3-4; the campus demo in 6-7 (its dimmed rectifier lamps at the resonant ends of
+    #: long feeders take the most)
     max_iterations: int = field(default=12, metadata=_range(
         1, 50, "the interaction settles in a few passes", whole=True))
     #: largest mismatch of any harmonic voltage between what a circuit was solved under and
