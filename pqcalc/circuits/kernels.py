@@ -32,7 +32,7 @@ except ImportError:  # pragma: no cover
 
         return wrap(args[0]) if args and callable(args[0]) else wrap
 
-__all__ = ["first_event", "COMPILED", "ROOT_TOL_S"]
+__all__ = ["first_event", "transfer_run", "COMPILED", "ROOT_TOL_S"]
 
 #: event times are located to within 1 ps (2e-8 deg at 50 Hz)
 ROOT_TOL_S = 1e-12
@@ -623,3 +623,74 @@ def rc_crossing(a, phi, k0, w, tau, t0, half, level, steps):
             return hi
         prev = t
     return -1.0
+
+
+# ------------------------------------------------------------------- harmonic transfer
+@njit(cache=True)
+def transfer_run(xi0, collect, t0, t1, idx, Vinv, V, lam, pi, qx, qu, jhw, jkw, inv_dk):
+    """One pass of :func:`pqcalc.circuits.smallsignal.harmonic_transfer` over the
+    segments: the state's answer ``xi`` (n, H) to ``exp(j h w t)`` carried from ``xi0`` at
+    the period's start to its end, and with ``collect`` the output's Fourier integrals
+    ``acc[k, h]`` (not divided by the period). The same arithmetic as the module's
+    description: per segment, the modal coefficients ``c = V^-1 (xi - pi_h e^{j h w t0})``,
+    the output ``qx xi + qu e^{j h w t}`` integrated against ``e^{-j k w t}`` exactly, and
+    ``xi(t1) = pi_h e^{j h w t1} + V e^{Lambda d} c``. ``inv_dk[k, h]`` is
+    ``1 / (j h w - j k w)``, zero where ``h = k``."""
+    n, H = xi0.shape
+    K = jkw.size
+    xi = xi0.copy()
+    acc = np.zeros((K, H), dtype=np.complex128)
+    c = np.empty((n, H), dtype=np.complex128)
+    e0 = np.empty(H, dtype=np.complex128)
+    e1 = np.empty(H, dtype=np.complex128)
+    ek0 = np.empty(K, dtype=np.complex128)
+    ek1 = np.empty(K, dtype=np.complex128)
+    a = np.empty(H, dtype=np.complex128)
+    qv = np.empty(n, dtype=np.complex128)
+    el = np.empty(n, dtype=np.complex128)
+    for s in range(t0.size):
+        m = idx[s]
+        ta, tb = t0[s], t1[s]
+        d = tb - ta
+        for h in range(H):
+            e0[h] = cmath.exp(jhw[h] * ta)
+            e1[h] = cmath.exp(jhw[h] * tb)
+        for i in range(n):
+            el[i] = cmath.exp(lam[m, i] * d)
+            for h in range(H):
+                v = 0j
+                for j in range(n):
+                    v += Vinv[m, i, j] * (xi[j, h] - pi[m, j, h] * e0[h])
+                c[i, h] = v
+        if collect:
+            for h in range(H):
+                v = qu[m] + 0j
+                for j in range(n):
+                    v += qx[m, j] * pi[m, j, h]
+                a[h] = v
+            for i in range(n):
+                v = 0j
+                for j in range(n):
+                    v += qx[m, j] * V[m, j, i]
+                qv[i] = v
+            for k in range(K):
+                ek0[k] = cmath.exp(-jkw[k] * ta)
+                ek1[k] = cmath.exp(-jkw[k] * tb)
+            for k in range(K):
+                for h in range(H):
+                    if inv_dk[k, h] == 0:
+                        acc[k, h] += a[h] * d
+                    else:
+                        acc[k, h] += a[h] * (ek1[k] * e1[h] - ek0[k] * e0[h]) * inv_dk[k, h]
+                rk = ek1[k] * ek0[k].conjugate()  # exp(-j k w d): jkw is imaginary
+                for i in range(n):
+                    p = ek0[k] * d * _phi1e((lam[m, i] - jkw[k]) * d, el[i] * rk) * qv[i]
+                    for h in range(H):
+                        acc[k, h] += p * c[i, h]
+        for j in range(n):
+            for h in range(H):
+                v = pi[m, j, h] * e1[h]
+                for i in range(n):
+                    v += V[m, j, i] * el[i] * c[i, h]
+                xi[j, h] = v
+    return xi, acc

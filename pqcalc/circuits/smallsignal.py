@@ -34,7 +34,7 @@ from __future__ import annotations
 
 import numpy as np
 
-from .exact import phi1
+from .kernels import transfer_run
 from .network import CH_SOURCE
 
 __all__ = ["harmonic_transfer", "at_terminals"]
@@ -90,42 +90,23 @@ def harmonic_transfer(eng, tr, row: int, max_order: int, odd: bool = False
     # pi_h per mode: V diag(1 / (j h w - lam)) beta, (modes, nx, H)
     pim = beta[:, :, None] / (jhw[None, None, :] - lam[:, :, None])
     pi = np.einsum("mij,mjh->mih", V, pim)
-    d = t1 - t0
     T = float(t1[-1])
-    outer, same, inv_dk = _integral(jhw, jkw)
-
-    def run(xi0: np.ndarray, collect: bool):
-        xi = xi0
-        acc = np.zeros((kk.size, h.size), dtype=complex)
-        e_start, t_start = None, None
-        for s in range(t0.size):
-            m = idx[s]
-            e0 = np.exp(jhw * t0[s])
-            c = Vinv[m] @ (xi - pi[m] * e0)  # (n, H)
-            el = np.exp(lam[m] * d[s])
-            if collect:
-                q = Q[m, row]
-                qx, qu = q[:nx], q[nx + CH_SOURCE]
-                if t_start != t0[s]:  # segments are contiguous: the last end is this start
-                    e_start = outer(float(t0[s]))
-                e_end = outer(float(t1[s]))
-                # the Fourier integrals of eta = (qx pi + qu) e^{jhwt}
-                # + (qx V) e^{lam (t - t0)} c over the segment, times e^{-jkwt}
-                acc += (qx @ pi[m] + qu)[None, :] * np.where(
-                    same, d[s], (e_end - e_start) * inv_dk)
-                e_start, t_start = e_end, t1[s]
-                z = (lam[m][None, :] - jkw[:, None]) * d[s]  # (K, n)
-                acc += (np.exp(-jkw * t0[s])[:, None] * d[s] * phi1(z)) \
-                    @ ((qx @ V[m])[:, None] * c)
-            xi = pi[m] * np.exp(jhw * t1[s]) + V[m] @ (el[:, None] * c)
-        return xi, acc
-
-    xi_T, _ = run(np.zeros((nx, h.size), dtype=complex), False)
+    # the passes over the segments, compiled (pqcalc.circuits.kernels.transfer_run): a run
+    # from zero gives the end state xi_T; the periodic start state, and a second run
+    # collecting the output's Fourier integrals
+    qrow = np.ascontiguousarray(Q[:, row, :])
+    args = (np.ascontiguousarray(t0, dtype=float), np.ascontiguousarray(t1, dtype=float),
+            np.ascontiguousarray(idx, dtype=np.int64), np.ascontiguousarray(Vinv),
+            np.ascontiguousarray(V, dtype=complex), np.ascontiguousarray(lam, dtype=complex),
+            np.ascontiguousarray(pi), np.ascontiguousarray(qrow[:, :nx], dtype=float),
+            np.ascontiguousarray(qrow[:, nx + CH_SOURCE], dtype=float), jhw, jkw,
+            _integral(jhw, jkw)[2])
+    xi_T, _ = transfer_run(np.zeros((nx, h.size), dtype=complex), False, *args)
     try:
         xi0 = np.linalg.solve(np.eye(nx) - tr.phi, xi_T)
     except np.linalg.LinAlgError:
         return None
-    _, acc = run(xi0, True)
+    _, acc = transfer_run(np.ascontiguousarray(xi0), True, *args)
     return _compose(acc / T, kk, h, max_order)
 
 
