@@ -63,12 +63,18 @@ REPORT_CYCLES = 24
 #: it should hold at most LONG_EVENTS switching events at the settling run's rate (a count of
 #: events, not a time: the record, and so the result, must not depend on the machine's load)
 LONG_SETTLE_CYCLES = 20
-#: a pfc driver drawing more than this factor above or below its target power after its
-#: voltage loop stopped is reported as unsettled (a note on the solution)
-PFC_POWER_BAND = 1.1
 LONG_CYCLES = 100
 LONG_MIN_CYCLES = 10
 LONG_EVENTS = 400_000
+#: a pfc driver drawing more than this factor above or below its target power after its
+#: voltage loop stopped is reported as unsettled (a note on the solution)
+PFC_POWER_BAND = 1.1
+#: a pfc driver's voltage loop has met a jump in its power (see _pfc_update) when its
+#: bracket of emulated resistances is narrower than PFC_JUMP_WIDTH (a ratio) while the
+#: powers at its ends differ by more than PFC_JUMP_RATIO: a smooth ``P ~ 1 / R_e`` would
+#: differ by the width alone
+PFC_JUMP_WIDTH = 1.05
+PFC_JUMP_RATIO = 1.5
 #: incandescent light against filament power, L ~ P^(3.4/1.6) from L ~ V^3.4 and P ~ V^1.6
 #: (common practice; exponents from memory)
 FILAMENT_LIGHT_EXPONENT = 3.4 / 1.6
@@ -625,7 +631,7 @@ def _solve_cached(supply, dimmer, loads, spc, extras, reference,
             p["_dim_level"] = levels[i]
             p["_target_w"] = max(g.power_w * levels[i], 1e-3 * g.power_w)
             p["_r_emulated_ohm"] = v2 / p["_target_w"]
-            brackets[i] = [0.0, np.inf]
+            brackets[i] = [0.0, np.inf, np.inf, 0.0]
         for _k in range(12 if pfc else 1):
             case = _build(supply, dimmer, dp, loads, gparams, levels)
             try:
@@ -742,19 +748,25 @@ def _mean_cycle(sol: Solution, spc: int) -> Solution:
 
 def _pfc_update(p: dict, br: list, got_w: float, v2: float, rated_w: float) -> bool:
     """One step of a pfc driver's voltage loop on its emulated resistance: Newton on
-    ``P ~ 1 / R_e`` kept inside the bracket of resistances known to give too much
-    (``br[0]``) or too little (``br[1]``) power. Where the power jumps (the dimmer stops
-    holding below some current demand) the loop settles on the side that gives at least the
-    target. Returns True when the resistance changed."""
+    ``P ~ 1 / R_e`` kept inside the bracket ``br`` of resistances known to give too much
+    (``br[0]``, drawing ``br[2]`` [W]) or too little (``br[1]``, drawing ``br[3]``) power.
+    Where the power jumps (the dimmer stops holding below some current demand) the loop
+    settles on the side that gives at least the target: as soon as the bracket is narrower
+    than PFC_JUMP_WIDTH and its ends' powers differ by more than PFC_JUMP_RATIO (``P ~ 1 /
+    R_e`` would change them by the width alone), or when it has shrunk to 0.1 %. Returns
+    True when the resistance changed."""
     re, target = p["_r_emulated_ohm"], p["_target_w"]
     p["_power_ratio"] = got_w / target
     if abs(got_w / target - 1) < 1e-3:
         return False
     if got_w >= target:
-        br[0] = max(br[0], re)
-    else:
-        br[1] = min(br[1], re)
-    if br[1] < np.inf and br[0] > 0 and br[1] / br[0] < 1 + 1e-3:
+        if re >= br[0]:
+            br[0], br[2] = re, got_w
+    elif re <= br[1]:
+        br[1], br[3] = re, got_w
+    if br[1] < np.inf and br[0] > 0 and (
+            br[1] / br[0] < 1 + 1e-3 or
+            (br[1] / br[0] < PFC_JUMP_WIDTH and br[2] > PFC_JUMP_RATIO * max(br[3], 0.0))):
         if re == br[0]:
             return False
         p["_r_emulated_ohm"] = br[0]
