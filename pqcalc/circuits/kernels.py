@@ -89,68 +89,120 @@ def _root(i, t0, ta, tb, fa, fb, GVc, lam, GP, jwh, g0):
 @njit(cache=True)
 def first_event(GVc, lam, GP, jwh, g0, t0, t_stop, dt_grid):
     """The first guard to rise through zero in ``(t0, t_stop]`` and its time: ``(index,
-    time)``, or ``(-1, t_stop)`` when none does. The guards are evaluated on an even grid
+    time)``, or ``(-1, t_stop)`` when none does. The guards are watched on an even grid
     of at most ``dt_grid`` spacing (a guard already above zero at ``t0`` counts as zero
     there); in the first grid interval where some guard crosses, each crossing guard's
-    root is located and the earliest wins (the later guard on a tie)."""
+    root is located and the earliest wins (the later guard on a tie).
+
+    A guard is evaluated only at the grid points where it could be above zero: from a value
+    ``g <= 0`` at ``ta`` it cannot reach zero before ``ta + |g| / L``, ``L`` a bound on its
+    rate of change from ``ta`` on (``sum_m |GVc_m e^{lam_m (ta - t0)} lam_m|`` over its
+    modes, a growing mode bounded at ``t_stop``, plus ``sum_k |GP_k jwh_k|``), so the grid
+    points before that are skipped. The grid intervals that hold a crossing are the same as
+    when every point is evaluated, and so are the roots (to ``ROOT_TOL_S``); a guard far
+    from its threshold costs a few evaluations per segment instead of one per grid point.
+    """
     ng = g0.size
     span = t_stop - t0
     if ng == 0 or not span > 0:
         return -1, t_stop
     nstep = max(int(math.ceil(span / dt_grid)), 1)
     h = span / nstep
-    prev = np.empty(ng)
-    cur = np.empty(ng)
-    for i in range(ng):
-        prev[i] = min(_g(i, t0, t0, GVc, lam, GP, jwh, g0)[0], 0.0)
-    # the exponentials advance by one grid step per step (rounding grows by about one
-    # machine epsilon per step: below 1e-12 over any run's steps)
     n, nk = lam.size, jwh.size
+    # the forced part's rate bound per guard, and each mode's growth to t_stop
+    lf = np.zeros(ng)
+    for i in range(ng):
+        v = 0.0
+        for k in range(nk):
+            v += abs(GP[i, k]) * abs(jwh[k])
+        lf[i] = v
+    grow = np.empty(n)
+    alam = np.empty(n)
+    for m in range(n):
+        alam[m] = abs(lam[m])
+        grow[m] = math.exp(lam[m].real * span) if lam[m].real > 0 else 1.0
     em = np.empty(n, dtype=np.complex128)
-    sm = np.empty(n, dtype=np.complex128)
+    ek = np.empty(nk, dtype=np.complex128)
+    due = np.empty(ng, dtype=np.int64)  # the next grid point each guard is evaluated at
+    start_pos = np.zeros(ng, dtype=np.bool_)  # above zero at t0: counts as zero there
+    cur = np.empty(ng)
+    # t0: every guard once
     for m in range(n):
         em[m] = 1.0
-        sm[m] = cmath.exp(lam[m] * h)
-    ek = np.empty(nk, dtype=np.complex128)
-    sk = np.empty(nk, dtype=np.complex128)
     for k in range(nk):
         ek[k] = cmath.exp(jwh[k] * t0)
-        sk[k] = cmath.exp(jwh[k] * h)
-    ta = t0
-    for step in range(1, nstep + 1):
-        tb = t0 + span * step / nstep
-        if step % 64 == 0:  # re-anchor the recurrences on exact values
-            for m in range(n):
-                em[m] = cmath.exp(lam[m] * (tb - t0))
-            for k in range(nk):
-                ek[k] = cmath.exp(jwh[k] * tb)
+    for i in range(ng):
+        v, rate = _g_and_rate(i, GVc, GP, g0, em, ek, alam, grow, lf)
+        if v > 0:
+            start_pos[i] = True
+            due[i] = 1
         else:
-            for m in range(n):
-                em[m] *= sm[m]
-            for k in range(nk):
-                ek[k] *= sk[k]
+            due[i] = _next_due(0, v, rate, h)
+    step = 1
+    while True:
+        step = nstep + 1
+        for i in range(ng):
+            if due[i] < step:
+                step = due[i]
+        if step > nstep:
+            return -1, t_stop
+        tb = t0 + span * step / nstep
+        for m in range(n):
+            em[m] = cmath.exp(lam[m] * (tb - t0))
+        for k in range(nk):
+            ek[k] = cmath.exp(jwh[k] * tb)
         crossed = False
         for i in range(ng):
-            v = g0[i]
-            for m in range(n):
-                v += (GVc[i, m] * em[m]).real
-            for k in range(nk):
-                v += (GP[i, k] * ek[k]).real
+            if due[i] != step:
+                continue
+            v, rate = _g_and_rate(i, GVc, GP, g0, em, ek, alam, grow, lf)
             cur[i] = v
-            if v > 0 and prev[i] <= 0:
+            if v > 0:
                 crossed = True
+            else:
+                due[i] = _next_due(step, v, rate, h)
         if crossed:
+            ta = t0 + span * (step - 1) / nstep
             best, bi = tb, -1
             for i in range(ng):
-                if cur[i] > 0 and prev[i] <= 0:
-                    tr = _root(i, t0, ta, tb, prev[i], cur[i], GVc, lam, GP, jwh, g0)
+                if due[i] == step and cur[i] > 0:
+                    if step == 1 and start_pos[i]:
+                        fa = 0.0
+                    else:
+                        fa = min(_g(i, ta, t0, GVc, lam, GP, jwh, g0)[0], 0.0)
+                    tr = _root(i, t0, ta, tb, fa, cur[i], GVc, lam, GP, jwh, g0)
                     if tr <= best:
                         best, bi = tr, i
             return bi, best
-        for i in range(ng):
-            prev[i] = cur[i]
-        ta = tb
-    return -1, t_stop
+
+
+@njit(cache=True)
+def _g_and_rate(i, GVc, GP, g0, em, ek, alam, grow, lf):
+    """Guard ``i``'s value from the exponentials ``em``, ``ek`` at one time, and a bound on
+    its rate of change from then on (see :func:`first_event`)."""
+    v = g0[i]
+    rate = lf[i]
+    for m in range(em.size):
+        e = GVc[i, m] * em[m]
+        v += e.real
+        rate += abs(e) * alam[m] * grow[m]
+    for k in range(ek.size):
+        v += (GP[i, k] * ek[k]).real
+    return v, rate
+
+
+@njit(cache=True)
+def _next_due(step, v, rate, h):
+    """The first grid point after ``step`` where a guard at ``v <= 0`` changing by at most
+    ``rate`` could be above zero (one past the last point it provably cannot reach)."""
+    if not v <= 0.0:  # not a number: watched at every point, as a value would be
+        return step + 1
+    if not rate > 0:
+        return 1 << 62
+    safe = -v / rate * (1.0 - 1e-9) / h  # grid intervals it cannot cross in
+    if safe > 1e15:
+        return 1 << 62
+    return step + max(int(math.floor(safe)), 0) + 1
 
 
 # ---------------------------------------------------------------------- exact integrals
