@@ -537,9 +537,12 @@ def rows_integral_to(a, mu, g, t0, t1, ts):
     e = np.empty(M, dtype=np.complex128)
     st = np.empty(M, dtype=np.complex128)
     w = np.empty(M, dtype=np.complex128)
+    inv = np.empty(M, dtype=np.complex128)  # 1 / mu of the current segment
     base = np.zeros(R)
     s = 0
     run = 0
+    for m in range(M):
+        inv[m] = 1.0 / mu[0, m] if mu[0, m] != 0 else 0.0
     for n in range(ts.size):
         t = ts[n]
         moved = False
@@ -556,6 +559,8 @@ def rows_integral_to(a, mu, g, t0, t1, ts):
             moved = True
         if moved:
             run = 0
+            for m in range(M):
+                inv[m] = 1.0 / mu[s, m] if mu[s, m] != 0 else 0.0
         tau = t - t0[s]
         if run % 32 == 0 or n < 2 or abs((ts[n] - ts[n - 1]) - (ts[n - 1] - ts[n - 2])) > \
                 1e-9 * (ts[n] - ts[n - 1]):
@@ -572,7 +577,7 @@ def rows_integral_to(a, mu, g, t0, t1, ts):
             if abs(z) < 1e-5:
                 w[m] = tau * (1.0 + z * (0.5 + z / 6.0))
             else:
-                w[m] = (e[m] - 1.0) / mu[s, m]
+                w[m] = (e[m] - 1.0) * inv[m]
         for r in range(R):
             acc = base[r] + g[s, r] * tau
             for m in range(M):

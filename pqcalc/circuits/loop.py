@@ -134,10 +134,13 @@ def _u(t, amps, jwh, dc):
 @njit(cache=True)
 def _xp(mi, t, mP, mp0, jwh, out):
     n = out.size
+    e = np.empty(jwh.size, dtype=np.complex128)
+    for k in range(jwh.size):
+        e[k] = cmath.exp(jwh[k] * t)
     for i in range(n):
         v = mp0[mi, i]
         for k in range(jwh.size):
-            v += (mP[mi, i, k] * cmath.exp(jwh[k] * t)).real
+            v += (mP[mi, i, k] * e[k]).real
         out[i] = v
 
 
