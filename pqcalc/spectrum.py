@@ -32,6 +32,7 @@ __all__ = [
     "harmonic_groups",
     "rotate_phasors",
     "period_phasors",
+    "phasor_samples",
     "DEFAULT_MAX_ORDER",
 ]
 
@@ -62,6 +63,28 @@ def period_phasors(x: np.ndarray, cycles: int = 1, max_order: int = DEFAULT_MAX_
     p = c * (1j / np.sqrt(2))
     p[..., 0] = X[..., 0].real
     return p
+
+
+def phasor_samples(p: np.ndarray, n: int, cycles: int = 1) -> np.ndarray:
+    """The ``n`` samples over ``cycles`` cycles of the sinusoids whose RMS phasors (sine
+    basis, orders 0..len(p) - 1, index 0 the DC value) are ``p``: the inverse of
+    :func:`period_phasors` for a record holding those orders only.
+
+    >>> x = phasor_samples(np.array([0.5, 3.0, 0.0, 1j]), 64)
+    >>> np.round(period_phasors(x, 1, 3), 12)
+    array([0.5+0.j, 3. +0.j, 0. +0.j, 0. +1.j])
+    """
+    p = np.asarray(p, dtype=complex)
+    X = np.zeros(n // 2 + 1, dtype=complex)
+    bins = np.arange(p.size) * cycles
+    if bins[-1] > n // 2:
+        raise ValueError(f"order {p.size - 1} over {cycles} cycles needs more than {n} samples")
+    c = p * (np.sqrt(2) / 1j)  # the cosine-basis peak amplitude
+    X[bins] = c / 2.0
+    if n % 2 == 0 and bins[-1] == n // 2:  # the Nyquist bin holds its amplitude once
+        X[bins[-1]] = c[-1]
+    X[0] = p[0].real
+    return np.fft.irfft(X * n, n)
 
 
 @dataclass(frozen=True)

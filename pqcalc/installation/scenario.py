@@ -15,7 +15,15 @@ import numpy as np
 from ..metrics import harmonic_loss_factor, k_factor, thd
 from .cases import CaseResult, CaseSolver, PanelVoltage
 from .checks import circuit_checks, node_checks, pcc_checks, rules_of
-from .interaction import Interaction, ideal_voltage, node_voltages, own_frame, resonance_order, settle
+from .interaction import (
+    FINISH_CURRENT,
+    Interaction,
+    ideal_voltage,
+    node_voltages,
+    own_frame,
+    resonance_order,
+    settle,
+)
 from .model import Circuit, Installation, Panel
 from .results import UNSETTLED, Check, CircuitResult, NodeResult, ScenarioResult
 from .sums import InstallationSums, NodeSum, line_result, neutral_result, sum_installation
@@ -213,6 +221,17 @@ def evaluate_scenario(inst: Installation, solver: CaseSolver, scenario: int,
             "analysis.max_iterations" + (", and check the circuits named (minimum load, "
                                          "holding current) with the makers" if fp.jumps else ""),
             SETTLE_METHOD, fp.change, opts.tolerance, "-"),)
+    if fp.corrected:
+        nc = len(fp.corrected)
+        extra = extra + (Check(
+            "supply interaction", "info",
+            f"the last step moved {nc} {'circuit' if nc == 1 else 'circuits'} by little: "
+            f"{'its current is its' if nc == 1 else 'their currents are their'} last solve "
+            "corrected through the harmonic transfer (first order, expected error below "
+            f"{100 * FINISH_CURRENT:.1f} % of I1 per order and "
+            f"{100 * fp.corrected_error:.4f} % of V1), not solved again",
+            SETTLE_METHOD, fp.corrected_error, opts.tolerance, "-",
+            {"corrected": list(fp.corrected)}),)
     if fp.held:
         names = _named(fp.held, 8)
         extra = extra + (Check(
