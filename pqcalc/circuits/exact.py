@@ -35,7 +35,7 @@ from .kernels import (
     rows_integral_to,
     seg_at,
     seg_integral_to,
-    seg_mean_product,
+    seg_mean_products,
     seg_peak,
 )
 from .network import CH_ONE, CH_SOURCE
@@ -68,6 +68,9 @@ class Expansion:
     alpha: np.ndarray  # (S, R, M) complex
     g: np.ndarray  # (S, R)
     period_s: float
+    #: mean products computed so far, by (row, row) ascending (see :meth:`mean_product`)
+    _products: dict[tuple[int, int], float] = field(default_factory=dict, compare=False,
+                                                    repr=False)
 
     @property
     def dt(self) -> np.ndarray:
@@ -124,10 +127,28 @@ class Expansion:
                             float(omega), int(max_order)) / self.period_s
 
     def mean_product(self, r1: int, r2: int) -> float:
-        """``(1 / T) int_0^T y_r1 y_r2 dt`` (a mean square or a mean power)."""
-        a, mu, ga, t0, t1 = self._row(r1)
-        b, _, gb, _, _ = self._row(r2)
-        return float(seg_mean_product(a, b, mu, ga, gb, t0, t1)) / self.period_s
+        """``(1 / T) int_0^T y_r1 y_r2 dt`` (a mean square or a mean power); kept, with
+        those :meth:`mean_products` computed ahead."""
+        key = (min(r1, r2), max(r1, r2))
+        if key not in self._products:
+            self.mean_products([key])
+        return self._products[key]
+
+    def mean_products(self, pairs: list[tuple[int, int]]) -> None:
+        """Compute the mean products of several pairs of outputs at once (they share each
+        segment's pair integrals, :func:`~pqcalc.circuits.kernels.seg_mean_products`) and
+        keep them for :meth:`mean_product`."""
+        todo = list(dict.fromkeys((min(a, b), max(a, b)) for a, b in pairs
+                                  if (min(a, b), max(a, b)) not in self._products))
+        if not todo:
+            return
+        rows = sorted({r for pr in todo for r in pr})
+        at = {r: i for i, r in enumerate(rows)}
+        got = seg_mean_products(np.ascontiguousarray(self.alpha[:, rows, :]), self.mu,
+                                np.ascontiguousarray(self.g[:, rows]), self.t0, self.t1,
+                                np.array([[at[a], at[b]] for a, b in todo], dtype=np.int64))
+        for pr, v in zip(todo, got.tolist(), strict=True):
+            self._products[pr] = v / self.period_s
 
     def peak(self, r: int) -> float:
         """Largest ``|y_r|`` over the period."""

@@ -258,36 +258,53 @@ def seg_fourier(a, mu, g, t0, t1, omega, max_order):
 
 
 @njit(cache=True)
-def seg_mean_product(a, b, mu, ga, gb, t0, t1):
-    """``int y_a y_b dt`` over the segments (not divided by the period).
+def seg_mean_products(a, mu, g, t0, t1, pairs):
+    """``int y_r1 y_r2 dt`` over the segments (not divided by the period) for each pair
+    ``(r1, r2)`` of rows of ``a`` (S, R, M) and ``g`` (S, R): (P,).
 
-    Each pair of exponents meets ``exp((mu_m + mu_k) d)``: the product of the two
-    exponentials, computed once per exponent and segment (``M`` complex exponentials per
-    segment instead of ``2 M^2``)."""
-    S, M = mu.shape
-    total = 0.0
+    With ``y = Re(sum_m a_m e^{mu_m tau}) + g`` on a segment of length ``d``, the product
+    of two outputs meets ``e^{(mu_m + mu_k) tau}`` and ``e^{(mu_m + conj mu_k) tau}``,
+    integrated as ``d phi1(z d)``. Each segment's pair integrals are computed once for every
+    pair of outputs, and each once per unordered pair of exponents (the first is symmetric
+    in ``m, k``, the second turns into its conjugate)."""
+    S, R, M = a.shape
+    P = pairs.shape[0]
+    total = np.zeros(P)
     e = np.empty(M, dtype=np.complex128)
-    ec = np.empty(M, dtype=np.complex128)
+    lin = np.empty(M, dtype=np.complex128)
+    ps = np.empty((M, M), dtype=np.complex128)
+    pc = np.empty((M, M), dtype=np.complex128)
     for s in range(S):
         d = t1[s] - t0[s]
         if not d > 0:
             continue
-        acc = ga[s] * gb[s] * d
         for m in range(M):
             e[m] = cmath.exp(mu[s, m] * d)
-            ec[m] = e[m].conjugate()
+            lin[m] = d * _phi1e(mu[s, m] * d, e[m])
         for m in range(M):
             zm = mu[s, m] * d
-            lin = d * _phi1e(zm, e[m])
-            acc += gb[s] * (a[s, m] * lin).real + ga[s] * (b[s, m] * lin).real
-            pair = 0j
-            for k in range(M):
+            for k in range(m, M):
                 zk = mu[s, k] * d
-                pair += (a[s, m] * b[s, k] * _phi1e(zm + zk, e[m] * e[k])
-                         + a[s, m] * b[s, k].conjugate()
-                         * _phi1e(zm + zk.conjugate(), e[m] * ec[k]))
-            acc += 0.5 * d * pair.real
-        total += acc
+                v = _phi1e(zm + zk, e[m] * e[k])
+                ps[m, k] = v
+                ps[k, m] = v
+                w = _phi1e(zm + zk.conjugate(), e[m] * e[k].conjugate())
+                pc[m, k] = w
+                pc[k, m] = w.conjugate()
+        for p in range(P):
+            r1, r2 = pairs[p, 0], pairs[p, 1]
+            ga, gb = g[s, r1], g[s, r2]
+            acc = ga * gb * d
+            pair = 0j
+            for m in range(M):
+                am = a[s, r1, m]
+                acc += gb * (am * lin[m]).real + ga * (a[s, r2, m] * lin[m]).real
+                inner = 0j
+                for k in range(M):
+                    bk = a[s, r2, k]
+                    inner += bk * ps[m, k] + bk.conjugate() * pc[m, k]
+                pair += am * inner
+            total[p] += acc + 0.5 * d * pair.real
     return total
 
 

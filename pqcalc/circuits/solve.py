@@ -806,6 +806,7 @@ def _input_power(case, tr, b, period) -> float:
     net = case.eng.net
     ex = expand(case.eng, tr, [net.index[b.sense], net.n_e + net.index["R_vline"],
                                net.n_e + net.index[SWITCH]])
+    ex.mean_products([(0, 1), (0, 2)])
     return (ex.mean_product(0, 1) - ex.mean_product(0, 2)) / b.m
 
 
@@ -868,6 +869,14 @@ def _assemble(supply, dimmer, dp, loads, gparams, levels, case, tr, period, iter
     light_at = len(rows)
     rows += [_row(net, name, kind) for name, kind in outs]
     ex = expand(eng, tr, rows)
+    # the mean products read (rms values, powers), computed together: they share each
+    # segment's pair integrals
+    ex.mean_products([(0, 1), (0, 0), (1, 1)] + [(2 + k, 2 + k) for k in range(len(loads))]
+                     + ([(s0 + j, s0 + j) for b, s0 in zip(case.builds, stress_at, strict=True)
+                         for j in range(len(b.caps))]
+                        + [(s0 + len(b.caps) + j, s0 + len(b.caps) + len(b.resistors) + j)
+                           for b, s0 in zip(case.builds, stress_at, strict=True)
+                           for j in range(len(b.resistors))] if extras else []))
     Y = ex.at_rows(light_at, len(outs), ts) if outs else np.zeros((0, n))
     col = {o: i for i, o in enumerate(outs)}
     seg_state = _segment_states(tr, ts)
