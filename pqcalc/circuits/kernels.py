@@ -641,16 +641,42 @@ def rows_at(a, mu, g, t0, t1, ts):
 
 @njit(cache=True)
 def rows_fourier(a, mu, g, t0, t1, omega, max_order):
-    """``int y_r exp(-j h w t) dt`` over the segments, ``h = 0..max_order``: (R, H)."""
+    """``int y_r exp(-j h w t) dt`` over the segments, ``h = 0..max_order``: (R, H).
+
+    An exponent that is a whole harmonic of ``omega`` (``mu = j q w``, the source's
+    harmonics) meets ``exp(-j h w t)`` in an integral that depends on ``q - h`` or
+    ``q + h`` alone: those are taken from a table of ``d phi1(j k w d)`` per segment
+    instead of computed per order and exponent."""
     S, R, M = a.shape
     out = np.zeros((R, max_order + 1), dtype=np.complex128)
     pa = np.empty(M, dtype=np.complex128)
     pc = np.empty(M, dtype=np.complex128)
     emu = np.empty(M, dtype=np.complex128)
+    q = np.full(M, -1, dtype=np.int64)  # the harmonic an exponent is, or -1
     for s in range(S):
         d = t1[s] - t0[s]
         if not d > 0:
             continue
+        qmax = 0
+        for m in range(M):
+            q[m] = -1
+            z = mu[s, m]
+            if z.real == 0.0 and omega > 0:
+                r = z.imag / omega
+                k = round(r)
+                if k >= 0 and abs(r - k) < 1e-9 * max(1.0, abs(r)):
+                    q[m] = k
+                    qmax = max(qmax, k)
+        # table[kk + K] = d phi1(j kk w d), kk = -K..K
+        K = max_order + qmax
+        table = np.empty(2 * K + 1, dtype=np.complex128)
+        ew = cmath.exp(1j * omega * d)
+        ek = 1.0 + 0j
+        for kk in range(K + 1):
+            z = 1j * kk * omega * d
+            table[K + kk] = d * _phi1e(z, ek)
+            table[K - kk] = d * _phi1e(-z, ek.conjugate())
+            ek *= ew
         step = cmath.exp(-1j * omega * d)
         rstep = cmath.exp(-1j * omega * t0[s])
         eh = 1.0 + 0j
@@ -659,11 +685,15 @@ def rows_fourier(a, mu, g, t0, t1, omega, max_order):
             emu[m] = cmath.exp(mu[s, m] * d)
         for h in range(max_order + 1):
             jhw = 1j * h * omega
-            pg = d * _phi1e(-jhw * d, eh)
+            pg = table[K - h]
             for m in range(M):
-                pa[m] = 0.5 * d * _phi1e((mu[s, m] - jhw) * d, emu[m] * eh)
-                pc[m] = 0.5 * d * _phi1e((mu[s, m].conjugate() - jhw) * d,
-                                         emu[m].conjugate() * eh)
+                if q[m] >= 0:
+                    pa[m] = 0.5 * table[K + q[m] - h]
+                    pc[m] = 0.5 * table[K - q[m] - h]
+                else:
+                    pa[m] = 0.5 * d * _phi1e((mu[s, m] - jhw) * d, emu[m] * eh)
+                    pc[m] = 0.5 * d * _phi1e((mu[s, m].conjugate() - jhw) * d,
+                                             emu[m].conjugate() * eh)
             for r in range(R):
                 acc = g[s, r] * pg
                 for m in range(M):
