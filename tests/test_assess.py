@@ -406,13 +406,13 @@ def test_stand_ins_leave_no_prediction_in_the_result(monkeypatch, caplog):
     # interaction.settle's inexact Newton: a circuit whose linear prediction erred little
     # stands in for its solve in intermediate passes; the result is measured on solved
     # currents only (the corrections a run may end on, interaction.FINISH, are checked
-    # against the substitution fixed point above). Checked against the same iteration with every circuit solved in every
-    # pass (STAND_IN = 0), which the substitution fixed point above checks in turn (the
-    # outside reference: damped substitution, the classic harmonic iteration, a fact of the
-    # method): the same state within the tolerance (0.5 % of I1 per order, 0.05 % of V1), no more
-    # solves, and the voltages reported are those the returned (solved) currents make. (On
-    # this small file the stand-ins save no solve; on the campus demo they save a quarter:
-    # tests/benchmarks/bench_installation.py.)
+    # against the substitution fixed point above). Checked against the same iteration
+    # with every circuit solved in every pass (STAND_IN = 0), which the substitution fixed
+    # point above checks in turn (the outside reference: damped substitution, the classic
+    # harmonic iteration, a fact of the method): the same state within the tolerance
+    # (0.5 % of I1 per order, 0.05 % of V1), no more solves, and the voltages reported are
+    # those the returned currents make. (On this small file the stand-ins save no solve;
+    # on the campus demo they save a quarter: tests/benchmarks/bench_installation.py.)
     import logging
     from pathlib import Path
 

@@ -139,3 +139,25 @@ def test_event_scan_finds_the_first_crossing_of_a_dense_grid(seed):
     want = min(roots.values())
     assert got_i in roots and roots[got_i] == pytest.approx(want, abs=1e-9)
     assert got_t == pytest.approx(want, abs=1e-9)
+
+
+def test_an_orbit_of_two_identical_cycles_is_reported_as_one_cycle(monkeypatch):
+    """Where the one-cycle shooting stalls (an event at a rounding's edge changes the
+    switching sequence between iterations) the two-cycle shooting finds the same orbit
+    twice over: it is reported as the one-cycle orbit it is, not as a subharmonic.
+    Reference: the same circuit's one-cycle solve (the stall forced here by making the
+    one-cycle shooting report no convergence)."""
+    sup, dim = Supply(), DimmerSpec("leading-edge", conduction_deg=90.0, switch="triac")
+    loads = [LoadGroup("dropper", 5.0, count=10)]
+    want = solve_circuit(sup, dim, loads, extras=False, memo=False)
+    real = pwl.Engine.periodic
+
+    def stalls_at_one_cycle(self, cycles, x0, disc0, *a, **k):
+        tr, it, ok = real(self, cycles, x0, disc0, *a, **k)
+        return tr, it, ok and cycles > 1
+
+    monkeypatch.setattr(pwl.Engine, "periodic", stalls_at_one_cycle)
+    got = solve_circuit(sup, dim, loads, extras=False, memo=False)
+    assert got.period_cycles == 1 and "subharmonic" not in got.flags
+    i1 = abs(want.current_phasors_a[1])
+    assert np.max(np.abs(got.current_phasors_a - want.current_phasors_a)) < 1e-6 * i1

@@ -366,6 +366,10 @@ def run_loop(t_end, fstate, istate, x, dio, aut, phi,
     nx = x.size
     xn = np.empty(nx)
     xp = np.empty(nx)
+    c = np.empty(nx, dtype=np.complex128)
+    el = np.empty(nx, dtype=np.complex128)
+    trans = np.empty((nx, nx))
+    phi2 = np.empty((nx, nx))
     while True:
         t = fstate[0]
         if istate[I_PHASE] == 0:
@@ -414,38 +418,61 @@ def run_loop(t_end, fstate, istate, x, dio, aut, phi,
             return FULL
         t_time, tia, tcode = _next_time(t, aut, aut_type, aut_f, aut_b, aut_b2, aut_nb)
         t_stop = min(t_end, t_time)
-        # modal coefficients of the segment
+        # modal coefficients of the segment (explicit loops: the matrices are a few states
+        # wide, where a library product costs more in its call than in its arithmetic)
         _xp(mi, t, mP, mp0, jwh, xp)
-        c = mVinv[mi] @ (x - xp).astype(np.complex128)
+        for i in range(nx):
+            v = 0j
+            for j in range(nx):
+                v += mVinv[mi, i, j] * (x[j] - xp[j])
+            c[i] = v
         G, th, w, tk = _guards(dio, aut, mi, mQ, ne, nx, diode_el, diode_von, aut_type,
                                aut_f, aut_b, aut_nb, eps_i, eps_v)
         gi, t_hit = -1, t_stop
-        if th.size and t_stop > t:
-            Gx = G[:, :nx].astype(np.complex128)
-            GV = Gx @ mV[mi]
-            GP = Gx @ mP[mi]
-            g0 = np.empty(th.size)
-            for g in range(th.size):
+        ng = th.size
+        if ng and t_stop > t:
+            GVc = np.empty((ng, nx), dtype=np.complex128)
+            GP = np.empty((ng, jwh.size), dtype=np.complex128)
+            g0 = np.empty(ng)
+            for g in range(ng):
+                for m in range(nx):
+                    v = 0j
+                    for i in range(nx):
+                        v += G[g, i] * mV[mi, i, m]
+                    GVc[g, m] = v * c[m]
                 for k in range(jwh.size):
-                    GP[g, k] += G[g, nx] * amps[k]
+                    v = G[g, nx] * amps[k]
+                    for i in range(nx):
+                        v += G[g, i] * mP[mi, i, k]
+                    GP[g, k] = v
                 v = G[g, nx] * dc + G[g, nx + 1] - th[g]
                 for i in range(nx):
                     v += G[g, i] * mp0[mi, i]
                 g0[g] = v
-            GVc = GV * c.reshape(1, nx)
             gi, t_hit = first_event(GVc, mlam[mi], GP, jwh, g0, t, t_stop, dt_grid)
         t1 = t_hit if gi >= 0 else t_stop
         # the state at t1 and the segment's transition matrix
         _xp(mi, t1, mP, mp0, jwh, xp)
-        e = np.exp(mlam[mi] * (t1 - t))
-        ec = e * c
+        for m in range(nx):
+            el[m] = cmath.exp(mlam[mi, m] * (t1 - t))
         for i in range(nx):
             v = xp[i]
             for m in range(nx):
-                v += (mV[mi, i, m] * ec[m]).real
+                v += (mV[mi, i, m] * (el[m] * c[m])).real
             xn[i] = v
-        trans = (mV[mi] * e.reshape(1, nx)) @ mVinv[mi]
-        phi[:, :] = np.ascontiguousarray(trans.real) @ phi
+        for i in range(nx):
+            for j in range(nx):
+                v = 0j
+                for m in range(nx):
+                    v += mV[mi, i, m] * el[m] * mVinv[mi, m, j]
+                trans[i, j] = v.real
+        for i in range(nx):
+            for j in range(nx):
+                v = 0.0
+                for m in range(nx):
+                    v += trans[i, m] * phi[m, j]
+                phi2[i, j] = v
+        phi[:, :] = phi2
         s = istate[I_NSEG]
         seg_t[s, 0], seg_t[s, 1] = t, t1
         seg_mode[s] = mi

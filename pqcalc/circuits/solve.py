@@ -66,6 +66,9 @@ LONG_SETTLE_CYCLES = 20
 LONG_CYCLES = 100
 LONG_MIN_CYCLES = 10
 LONG_EVENTS = 400_000
+#: an orbit of several cycles whose first cycle returns to its start within this fraction
+#: of each state's scale is reported as the one-cycle orbit it is (see _steady)
+SAME_CYCLE_TOL = 1e-6
 #: a pfc driver drawing more than this factor above or below its target power after its
 #: voltage loop stopped is reported as unsettled (a note on the solution)
 PFC_POWER_BAND = 1.1
@@ -408,6 +411,14 @@ def _steady(case: _Case, supply: Supply, check_stability: bool, max_period: int 
             continue
         total += it
         if ok and (not check_stability or _stable(eng, tr, k, case.scale, exact_phi)):
+            if k > 1:
+                # an orbit of k cycles whose cycles coincide is the one-cycle orbit (found
+                # at k where the one-cycle shooting stalled on an event at a rounding's edge)
+                one = eng.run(0.0, eng.T1, tr.x0, tr.s0, record=True)
+                sc = np.maximum(np.abs(one.xT), np.abs(tr.x0)) + eng._floor
+                if one.sT == tr.s0 and (not tr.x0.size or float(
+                        np.max(np.abs(one.xT - tr.x0) / sc)) < SAME_CYCLE_TOL):
+                    return one, 1, total, True
             return tr, k, total, True
         tried.append(f"{k}-cycle period: {'unstable' if ok else 'no convergence'} after "
                      f"{it} Newton iterations")
